@@ -1,0 +1,31 @@
+# The two commands a new machine needs: `make demo` and `make test`.
+# Each creates .venv when missing and installs netopt into it first.
+PYTHON ?= python3
+VENV := .venv
+PY := $(VENV)/bin/python
+STAMP := $(VENV)/.installed
+
+.PHONY: demo test bench install clean
+
+$(PY):
+	$(PYTHON) -m venv $(VENV)
+
+$(STAMP): $(PY) pyproject.toml
+	$(PY) -m pip install --quiet --upgrade pip
+	$(PY) -m pip install --quiet -e ".[test]"
+	touch $(STAMP)
+
+install: $(STAMP)
+
+demo: $(STAMP)
+	$(VENV)/bin/netopt check cases/tallowmere
+	$(VENV)/bin/netopt run cases/tallowmere --out out/tallowmere
+
+test: $(STAMP)
+	$(PY) -m pytest -q
+
+bench: $(STAMP)
+	$(PY) benchmarks/run.py
+
+clean:
+	rm -rf $(VENV) out .pytest_cache
