@@ -302,6 +302,8 @@ SETTINGS: tuple[Setting, ...] = (
             "Most any one supplier region may provide of a site's supply of a material", min=0, max=1),
     Setting("policy", "min_active_suppliers", "int", "", 1,
             "Least number of suppliers actually used per site and material (where that many exist)", min=1),
+    Setting("policy", "min_share_when_active", "float", "share", 0.1,
+            "With min_active_suppliers ≥ 2: least share a supplier must deliver to count as active", min=0, max=1),
     Setting("policy", "min_open_dcs", "int", "", 0, "Least number of DCs open", min=0),
     Setting("policy", "max_open_dcs", "int", "", -1, "Most DCs open; -1 = no limit", min=-1),
     Setting("policy", "single_sourcing", "bool", "", False, "Each customer and product served from one DC only"),

@@ -1,0 +1,77 @@
+"""Capacities: supplier offers, DC throughput tied to opening, lane-and-mode limits.
+
+Also the strong linking inequalities of the tight formulation: the flow of a product
+from DC d to customer c over all modes ≤ that demand × open[d].  They are valid
+for every integer solution and make the LP bound far stronger than the aggregate
+throughput row alone.
+Cost: ``dc_handling`` (handling cost per unit into a DC).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from netopt.model.core import Builder, Term, group_index, lookup
+from netopt.model.openings import option_terms
+
+
+def add(b: Builder, formulation: str = "tight") -> None:
+    net = b.net
+    arcs = net.arcs
+    flow_idx = np.arange(len(arcs))
+
+    # Supplier capacity per (supplier, product) offer.
+    sup = net.arcs["origin_kind"].eq("supplier").to_numpy()
+    si = flow_idx[sup]
+    offers, r = group_index(arcs.iloc[si], ["origin", "product"])
+    if len(offers):
+        cap = _supplier_capacity(b, offers)
+        fin = np.isfinite(cap)
+        if fin.any():
+            keep = np.flatnonzero(fin)
+            remap = -np.ones(len(offers), int)
+            remap[keep] = np.arange(len(keep))
+            rr = remap[r]
+            m = rr >= 0
+            b.add_rows("supplier_capacity", offers.iloc[keep].set_axis(["supplier", "product"], axis=1),
+                       [Term("flow", si[m], np.ones(m.sum()), rr[m])], "<=", cap[keep])
+
+    # DC throughput: Σ inbound units ≤ Σ_options capacity × open (big M = all demand if unlimited).
+    di = flow_idx[arcs["destination_kind"].eq("dc").to_numpy()]
+    dcs, r = group_index(arcs.iloc[di], ["destination"])
+    if len(dcs):
+        big_m = net.total_demand * (2.0 if arcs["leg"].eq("dc-dc").any() else 1.0)
+        rows = np.arange(len(dcs))
+        b.add_rows("dc_throughput", dcs.set_axis(["dc"], axis=1),
+                   [Term("flow", di, np.ones(len(di)), r),
+                    option_terms(b, dcs["destination"].to_numpy(), rows, -np.ones(len(rows)), use_capacity=True,
+                                 big_m=big_m)],
+                   "<=", 0.0)
+        b.add_cost("dc_handling", Term("flow", di, arcs["handling_per_unit"].to_numpy(float)[di]))
+
+    # Strong linking: Σ_modes flow(d→c, p) ≤ demand(c, p) × open[d].
+    if formulation == "tight":
+        lk = flow_idx[(arcs["origin_kind"].eq("dc") & arcs["destination_kind"].eq("customer")).to_numpy()]
+        groups, r = group_index(arcs.iloc[lk], ["origin", "destination", "product"])
+        if len(groups):
+            dem = lookup(net.demand, groups, ["customer", "product"], ["destination", "product"])
+            q = net.demand["quantity"].to_numpy(float)[dem]
+            rows = np.arange(len(groups))
+            b.add_rows("dc_customer_link", groups.set_axis(["dc", "customer", "product"], axis=1),
+                       [Term("flow", lk, np.ones(len(lk)), r),
+                        option_terms(b, groups["origin"].to_numpy(), rows, -q)], "<=", 0.0, elastic=False)
+
+    # Lane-and-mode capacity shared by all products.
+    lc = arcs["lane_capacity"].to_numpy(float)
+    li = flow_idx[np.isfinite(lc)]
+    lanes, r = group_index(arcs.iloc[li], ["origin", "destination", "mode"])
+    if len(lanes):
+        cap = pd.Series(lc[li]).groupby(r).first().to_numpy(float)
+        b.add_rows("lane_capacity", lanes, [Term("flow", li, np.ones(len(li)), r)], "<=", cap)
+
+
+def _supplier_capacity(b: Builder, offers: pd.DataFrame) -> np.ndarray:
+    sup = b.net.suppliers
+    cap = sup.set_index(["supplier", "product"])["capacity"]
+    return cap.reindex(pd.MultiIndex.from_frame(offers)).to_numpy(float)

@@ -1,0 +1,184 @@
+"""Model builder: variable blocks, rows from index arrays, cost components.
+
+Each concept module (openings, flows, capacity, sourcing, service, transport,
+inventory) receives a :class:`Builder` and adds its variables, constraints and cost
+terms from prepared index arrays.  Rows are built as one ``LinearExpression`` per
+row from sorted COO arrays, so there is no per-element filtering in Python.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+import pyomo.environ as pyo
+from pyomo.core.expr.numeric_expr import LinearExpression, MonomialTermExpression
+
+from netopt.network import Network
+
+SENSES = {"<=": 1, "==": 0, ">=": -1}
+
+
+@dataclass
+class Term:
+    """Part of a row or of a cost component: ``coef[k] * block[idx[k]]`` (for row ``row[k]``)."""
+
+    block: str
+    idx: np.ndarray
+    coef: np.ndarray
+    row: np.ndarray | None = None
+
+
+@dataclass
+class Builder:
+    """Holds the Pyomo model and the bookkeeping that maps it back to tables."""
+
+    net: Network
+    model: pyo.ConcreteModel = field(default_factory=pyo.ConcreteModel)
+    vars: dict[str, list] = field(default_factory=dict)  # block → list of VarData in index order
+    var_labels: dict[str, pd.DataFrame] = field(default_factory=dict)
+    cost: dict[str, list[Term]] = field(default_factory=dict)
+    cost_constant: dict[str, float] = field(default_factory=dict)
+    row_labels: dict[str, pd.DataFrame] = field(default_factory=dict)
+    elastic: bool = False
+    elastic_penalty: float = 1e6
+    empty_infeasible: list[tuple[str, int]] = field(default_factory=list)
+
+    # ------------------------------------------------------------------ variables
+    def add_vars(self, name: str, labels: pd.DataFrame, lb=0.0, ub=None, binary: bool = False) -> list:
+        """Add a block of ``len(labels)`` variables; bounds may be arrays (inf = none)."""
+        n = len(labels)
+        domain = pyo.Binary if binary else pyo.NonNegativeReals
+        var = pyo.Var(range(n), domain=domain)
+        self.model.add_component(name, var)
+        vlist = list(var.values())
+        lb_arr = np.broadcast_to(np.asarray(lb, dtype=float), (n,))
+        ub_arr = np.broadcast_to(np.asarray(np.inf if ub is None else ub, dtype=float), (n,))
+        for v, lo, hi in zip(vlist, lb_arr.tolist(), ub_arr.tolist()):
+            if lo != 0.0:
+                v.setlb(lo)
+            if hi != np.inf:
+                v.setub(hi)
+        self.vars[name] = vlist
+        self.var_labels[name] = labels.reset_index(drop=True)
+        return vlist
+
+    def has(self, name: str) -> bool:
+        return name in self.vars and len(self.vars[name]) > 0
+
+    # ------------------------------------------------------------------ rows
+    def add_rows(self, name: str, labels: pd.DataFrame, terms: list[Term], sense, rhs,
+                 elastic: bool | None = None) -> None:
+        """Add one constraint per row of ``labels``: Σ terms (sense) rhs.
+
+        ``sense`` is "<=", "==" or ">=" (or an array of them); ``rhs`` a scalar or array.
+        In elastic mode a penalised slack lets each row be violated, so an infeasible
+        case can be diagnosed by which rows needed slack.
+        """
+        n = len(labels)
+        if n == 0:
+            return
+        rhs = np.broadcast_to(np.asarray(rhs, dtype=float), (n,)).copy()
+        senses = np.broadcast_to(np.asarray(sense, dtype=object), (n,))
+        terms = [t for t in terms if len(t.idx)]
+        if elastic is None:
+            elastic = self.elastic
+        if elastic:
+            code = np.array([SENSES[s] for s in senses])
+            rows = np.arange(n)
+            slack_labels = labels.reset_index(drop=True).assign(constraint=name)
+            lo = self.add_vars(f"slack_lo__{name}", slack_labels)  # adds to the row (≥ and ==)
+            hi = self.add_vars(f"slack_hi__{name}", slack_labels)  # subtracts (≤ and ==)
+            for v, c in zip(lo, code.tolist()):
+                if c == 1:
+                    v.setub(0.0)
+            for v, c in zip(hi, code.tolist()):
+                if c == -1:
+                    v.setub(0.0)
+            terms = terms + [Term(f"slack_lo__{name}", rows, np.ones(n), rows),
+                             Term(f"slack_hi__{name}", rows, -np.ones(n), rows)]
+            pen = np.full(n, self.elastic_penalty)
+            self.add_cost("elastic_slack", Term(f"slack_lo__{name}", rows, pen))
+            self.add_cost("elastic_slack", Term(f"slack_hi__{name}", rows, pen))
+        row = np.concatenate([t.row for t in terms]) if terms else np.zeros(0, int)
+        coef = np.concatenate([t.coef for t in terms]).astype(float) if terms else np.zeros(0)
+        vs: list = []
+        for t in terms:
+            block = self.vars[t.block]
+            vs.extend(block[i] for i in t.idx.tolist())
+        order = np.argsort(row, kind="stable")
+        starts = np.searchsorted(row[order], np.arange(n + 1))
+        order_l = order.tolist()
+        coef_l = coef.tolist()
+        starts_l = starts.tolist()
+        rhs_l = rhs.tolist()
+        sense_l = list(senses)
+
+        def rule(m, r):
+            a, b = starts_l[r], starts_l[r + 1]
+            if a == b:
+                s, v = sense_l[r], rhs_l[r]
+                if (s == "<=" and v < -1e-9) or (s == ">=" and v > 1e-9) or (s == "==" and abs(v) > 1e-9):
+                    self.empty_infeasible.append((name, r))
+                return pyo.Constraint.Skip
+            expr = LinearExpression([MonomialTermExpression((coef_l[k], vs[k])) for k in order_l[a:b]])
+            s = sense_l[r]
+            if s == "<=":
+                return expr <= rhs_l[r]
+            if s == ">=":
+                return expr >= rhs_l[r]
+            return expr == rhs_l[r]
+
+        self.model.add_component(name, pyo.Constraint(range(n), rule=rule))
+        self.row_labels[name] = labels.reset_index(drop=True)
+
+    # ------------------------------------------------------------------ cost
+    def add_cost(self, component: str, term: Term, constant: float = 0.0) -> None:
+        """Add ``Σ coef·var`` (and a constant) to cost component ``component`` (currency/yr)."""
+        self.cost.setdefault(component, []).append(term)
+        self.cost_constant[component] = self.cost_constant.get(component, 0.0) + float(constant)
+
+    def finish(self) -> None:
+        """Create the objective: total annual landed cost = Σ of every component."""
+        coefs: list[float] = []
+        vs: list = []
+        for terms in self.cost.values():
+            for t in terms:
+                block = self.vars[t.block]
+                nz = np.nonzero(t.coef)[0]
+                coefs.extend(t.coef[nz].astype(float).tolist())
+                vs.extend(block[i] for i in t.idx[nz].tolist())
+        const = float(sum(self.cost_constant.values()))
+        expr = LinearExpression([MonomialTermExpression((c, v)) for c, v in zip(coefs, vs)])
+        self.model.total_cost = pyo.Objective(expr=expr + const, sense=pyo.minimize)
+
+    def component_values(self, values: dict[str, np.ndarray]) -> dict[str, float]:
+        """Evaluate every cost component at a solution (``block → value array``)."""
+        out = {}
+        for comp, terms in self.cost.items():
+            total = self.cost_constant.get(comp, 0.0)
+            for t in terms:
+                total += float(np.dot(t.coef, values[t.block][t.idx]))
+            out[comp] = total
+        for comp, c in self.cost_constant.items():
+            out.setdefault(comp, c)
+        return out
+
+
+def group_index(frame: pd.DataFrame, keys: list[str]) -> tuple[pd.DataFrame, np.ndarray]:
+    """Group rows of ``frame`` by ``keys``: returns (one label row per group, group id per row)."""
+    if frame.empty:
+        return pd.DataFrame(columns=keys), np.zeros(0, dtype=int)
+    codes, uniques = pd.factorize(pd.MultiIndex.from_frame(frame[keys]), sort=True)
+    labels = uniques.to_frame(index=False)
+    labels.columns = keys
+    return labels, codes.astype(int)
+
+
+def lookup(labels: pd.DataFrame, frame: pd.DataFrame, keys: list[str], frame_keys: list[str] | None = None) -> np.ndarray:
+    """Position of each ``frame`` row's key in ``labels`` (−1 where absent)."""
+    frame_keys = frame_keys or keys
+    pos = pd.Series(np.arange(len(labels)), index=pd.MultiIndex.from_frame(labels[keys]))
+    idx = pd.MultiIndex.from_frame(frame[frame_keys].set_axis(keys, axis=1))
+    return pos.reindex(idx).fillna(-1).to_numpy(int)

@@ -1,0 +1,58 @@
+"""Service: share of each customer's deliveries arriving within its window; single sourcing.
+
+- Window rule per customer with a target τ > 0: Σ deliveries on last-leg arcs whose
+  transit days ≤ the class window ≥ τ × Σ deliveries.  (With lost demand allowed the
+  target applies to what is delivered; lost units are priced by the penalty.)
+- Single sourcing: each (customer, product) is served from one origin (DC or plant):
+  binary ``assign`` per (origin, customer, product), flow = demand × assign.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from netopt.model.core import Builder, Term, group_index, lookup
+from netopt.model.openings import option_terms
+
+
+def add(b: Builder) -> None:
+    net = b.net
+    arcs = net.arcs
+    cust = net.customers
+    last = np.flatnonzero(arcs["destination_kind"].eq("customer").to_numpy())
+    targets = cust[cust["target_share"] > 0].reset_index(drop=True)
+    if len(targets) and len(last):
+        sub = arcs.iloc[last]
+        r = lookup(targets, sub, ["customer"], ["destination"])
+        ok = r >= 0
+        within = sub["within_window"].to_numpy(bool)
+        tau = targets["target_share"].to_numpy(float)
+        coef = np.where(within, 1.0, 0.0) - tau[np.maximum(r, 0)]
+        keep = ok & (coef != 0)
+        b.add_rows("service_window", targets[["customer", "service_class", "max_days", "target_share"]],
+                   [Term("flow", last[keep], coef[keep], r[keep])], ">=", 0.0)
+
+    if bool(net.settings["policy"]["single_sourcing"]) and len(last):
+        sub = arcs.iloc[last]
+        groups, g = group_index(sub, ["origin", "destination", "product"])
+        b.add_vars("assign", groups.rename(columns={"destination": "customer"}), binary=True)
+        d = lookup(net.demand, groups, ["customer", "product"], ["destination", "product"])
+        q = net.demand["quantity"].to_numpy(float)[d]
+        rows = np.arange(len(groups))
+        b.add_rows("single_source_flow", groups, [Term("flow", last, np.ones(len(last)), g),
+                                                  Term("assign", rows, -q, rows)], "==", 0.0)
+        allow = bool(net.settings["policy"]["allow_unmet_demand"]) or b.elastic
+        dem_rows = np.unique(d)
+        remap = -np.ones(len(net.demand), int)
+        remap[dem_rows] = np.arange(len(dem_rows))
+        b.add_rows("single_source_choice", net.demand.iloc[dem_rows][["customer", "product"]],
+                   [Term("assign", rows, np.ones(len(rows)), remap[d])], "<=" if allow else "==", 1.0)
+        from_dc = groups["origin"].isin(net.options["dc"]).to_numpy()
+        if from_dc.any():
+            rr = np.flatnonzero(from_dc)
+            remap2 = -np.ones(len(groups), int)
+            remap2[rr] = np.arange(len(rr))
+            b.add_rows("single_source_open", groups.iloc[rr],
+                       [Term("assign", rr, np.ones(len(rr)), np.arange(len(rr))),
+                        option_terms(b, groups["origin"].to_numpy()[rr], np.arange(len(rr)), -np.ones(len(rr)))],
+                       "<=", 0.0, elastic=False)

@@ -1,0 +1,96 @@
+"""Sourcing: supplier splits and diversification.
+
+Rules per receiving site (plant or DC) and material/product bought from suppliers:
+- no one supplier above ``policy.max_supplier_share`` of the site's supplier inflow;
+- no one supplier region above ``policy.max_region_share``;
+- at least ``policy.min_active_suppliers`` suppliers active, an active supplier
+  delivering at least ``policy.min_share_when_active`` of that inflow (binary ``active``).
+Cost: ``supply`` (purchase price × units bought, currency/yr).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from netopt.model.core import Builder, Term, group_index
+
+
+def _share_rows(b: Builder, name: str, si: np.ndarray, by: list[str], share: float) -> None:
+    """Σ flow of each group (site, product, *by) − share × Σ flow of (site, product) ≤ 0."""
+    arcs = b.net.arcs.iloc[si]
+    groups, g = group_index(arcs, ["destination", "product"] + by)
+    sites, s_of_arc = group_index(arcs, ["destination", "product"])
+    # Every group row also carries −share × every arc of its site/product.
+    g_site = pd.Series(s_of_arc).groupby(g).first().to_numpy(int)
+    arc_tab = pd.DataFrame({"site": s_of_arc, "arc": si})
+    grp_tab = pd.DataFrame({"site": g_site, "row": np.arange(len(groups))})
+    cross = grp_tab.merge(arc_tab, on="site")
+    labels = groups.rename(columns={"destination": "site"})
+    b.add_rows(name, labels, [Term("flow", si, np.ones(len(si)), g),
+                              Term("flow", cross["arc"].to_numpy(int), -share * np.ones(len(cross)),
+                                   cross["row"].to_numpy(int))], "<=", 0.0)
+
+
+def add(b: Builder) -> None:
+    net = b.net
+    arcs = net.arcs
+    pol = net.settings["policy"]
+    si = np.flatnonzero(arcs["origin_kind"].eq("supplier").to_numpy())
+    if len(si):
+        b.add_cost("supply", Term("flow", si, arcs["supply_per_unit"].to_numpy(float)[si]))
+    if not len(si):
+        return
+    share = float(pol["max_supplier_share"])
+    if share < 1.0:
+        _share_rows(b, "max_supplier_share", si, ["origin"], share)
+    rshare = float(pol["max_region_share"])
+    if rshare < 1.0:
+        region = net.suppliers.drop_duplicates("supplier").set_index("supplier")["region"]
+        net.arcs["supplier_region"] = arcs["origin"].map(region).fillna("")
+        _share_rows(b, "max_region_share", si, ["supplier_region"], rshare)
+    k = int(pol["min_active_suppliers"])
+    if k >= 2:
+        sub = arcs.iloc[si]
+        groups, g = group_index(sub, ["destination", "product", "origin"])
+        sites, s_of_arc = group_index(sub, ["destination", "product"])
+        g_site = pd.Series(s_of_arc).groupby(g).first().to_numpy(int)
+        n_sup = np.bincount(g_site, minlength=len(sites))
+        b.add_vars("active", groups.rename(columns={"destination": "site", "origin": "supplier"}), binary=True)
+        cap = net.suppliers.set_index(["supplier", "product"])["capacity"].reindex(
+            pd.MultiIndex.from_frame(groups[["origin", "product"]])).to_numpy(float)
+        need = _site_need_bound(b, sites)
+        big = np.minimum(np.where(np.isfinite(cap), cap, np.inf), need[g_site])
+        rows = np.arange(len(groups))
+        # flow ≤ M × active
+        b.add_rows("active_supplier_link", groups, [Term("flow", si, np.ones(len(si)), g),
+                                                    Term("active", rows, -big, rows)], "<=", 0.0)
+        # flow ≥ min_share × site inflow − M × (1 − active)
+        ms = float(pol["min_share_when_active"])
+        arc_tab = pd.DataFrame({"site": s_of_arc, "arc": si})
+        cross = pd.DataFrame({"site": g_site, "row": rows}).merge(arc_tab, on="site")
+        bigm = need[g_site]
+        b.add_rows("active_supplier_min_share", groups,
+                   [Term("flow", si, np.ones(len(si)), g),
+                    Term("flow", cross["arc"].to_numpy(int), -ms * np.ones(len(cross)), cross["row"].to_numpy(int)),
+                    Term("active", rows, -bigm, rows)], ">=", -bigm)
+        # Σ active ≥ min(k, suppliers available)
+        b.add_rows("min_active_suppliers", sites.rename(columns={"destination": "site"}),
+                   [Term("active", rows, np.ones(len(rows)), g_site)], ">=", np.minimum(k, n_sup).astype(float))
+
+
+def _site_need_bound(b: Builder, sites: pd.DataFrame) -> np.ndarray:
+    """Upper bound on units/yr a site can receive of a product (for big-M rows)."""
+    net = b.net
+    total_by_product = net.demand.groupby("product")["quantity"].sum()
+    bom = net.bom
+    need = []
+    for p in sites["product"].tolist():
+        direct = float(total_by_product.get(p, 0.0))
+        via = 0.0
+        if len(bom):
+            use = bom[bom["material"] == p]
+            via = float((use["quantity_per_unit"].to_numpy(float)
+                         * use["product"].map(total_by_product).fillna(0.0).to_numpy(float)).sum())
+        need.append(max(direct + via, 1.0))
+    return np.array(need)

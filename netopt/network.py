@@ -1,0 +1,228 @@
+"""Prepared network: the arc table and index sets every model module reads.
+
+An *arc* is one (lane, mode, product) on which a flow variable may exist.  All
+per-arc numbers (freight, pipeline, supply price, CO2, handling) are computed here
+once, vectorised, so the model modules only group arc indices and never filter
+sets inside rules.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from netopt.case import Case
+
+
+@dataclass
+class Network:
+    """Index sets and per-element data for one model build.
+
+    Attributes (all DataFrames have a 0..n-1 RangeIndex used as variable index):
+        arcs: one row per flow variable; columns origin, origin_kind, destination,
+            destination_kind, leg, mode, product, distance_km, transit_days,
+            capacity (units/yr, this product alone), lane_capacity (units/yr, all products
+            of the lane and mode), freight_per_unit, pipeline_per_unit, supply_per_unit,
+            handling_per_unit, co2_kg_per_unit, carbon_per_unit, unit_cost (sum of all
+            per-unit costs, currency/unit), within_window (bool, last legs only).
+        make: one row per (plant, product): capacity, unit_cost.
+        options: one row per DC opening option: dc, size, capacity, fixed_cost, status,
+            closing_cost, force.
+        demand: one row per (customer, product): quantity, penalty (currency/unit).
+        customers: customer, service_class, max_days, target_share.
+        bom: product, material, quantity_per_unit.
+        total_demand: units/yr of all finished products.
+    """
+
+    arcs: pd.DataFrame
+    make: pd.DataFrame
+    options: pd.DataFrame
+    demand: pd.DataFrame
+    customers: pd.DataFrame
+    bom: pd.DataFrame
+    dcs: pd.DataFrame
+    products: pd.DataFrame
+    suppliers: pd.DataFrame
+    settings: dict
+    pruned: dict = field(default_factory=dict)
+
+    @property
+    def total_demand(self) -> float:
+        return float(self.demand["quantity"].sum())
+
+
+def _holding_rate(products: pd.DataFrame, settings: dict) -> pd.Series:
+    rate = pd.to_numeric(products["holding_rate"], errors="coerce")
+    return rate.fillna(float(settings["inventory"]["holding_rate"]))
+
+
+def expand_arcs(case: Case, lanes: pd.DataFrame) -> pd.DataFrame:
+    """Expand lanes (product "" = every product) into one row per usable product.
+
+    A product-specific lane row replaces the every-product row for that product on
+    the same (origin, destination, mode).  Products are kept only where the origin
+    can ship them and the destination can use them.
+    """
+    t = case.tables
+    products = t["products"]
+    finished = set(products.loc[products["kind"] == "finished", "product"])
+    demand = t["demand"][t["demand"]["quantity"] > 0]
+    bom = t["bill_of_materials"]
+
+    # What each site can ship and receive, as (site, product) pairs.
+    ships = pd.concat([
+        t["suppliers"][["supplier", "product"]].set_axis(["site", "product"], axis=1),
+        t["plants"][["plant", "product"]].set_axis(["site", "product"], axis=1),
+    ])
+    sold = set(demand["product"])
+    # A DC may stock every finished product that has demand.
+    dc_products = sorted(finished & sold)
+    ships = pd.concat([ships, pd.DataFrame([(d, p) for d in t["dcs"]["dc"] for p in dc_products],
+                                           columns=["site", "product"])])
+    plant_needs = t["plants"][["plant", "product"]].merge(bom, on="product")[["plant", "material"]]
+    receives = pd.concat([
+        plant_needs.set_axis(["site", "product"], axis=1),
+        pd.DataFrame([(d, p) for d in t["dcs"]["dc"] for p in dc_products], columns=["site", "product"]),
+        demand[["customer", "product"]].set_axis(["site", "product"], axis=1),
+    ]).drop_duplicates()
+
+    generic = lanes[lanes["product"] == ""].drop(columns="product")
+    specific = lanes[lanes["product"] != ""]
+    gen = generic.merge(ships.drop_duplicates().rename(columns={"site": "origin"}), on="origin")
+    arcs = pd.concat([gen.assign(_specific=False), specific.assign(_specific=True)], ignore_index=True)
+    arcs = arcs.merge(receives.rename(columns={"site": "destination"}), on=["destination", "product"])
+    # Specific rows win over the generic row of the same lane, mode and product.
+    arcs = arcs.sort_values("_specific", ascending=False).drop_duplicates(
+        ["origin", "destination", "mode", "product"], keep="first").drop(columns="_specific")
+    return arcs.sort_values(["leg", "origin", "destination", "product", "mode"]).reset_index(drop=True)
+
+
+def prune_dominated(arcs: pd.DataFrame) -> tuple[pd.DataFrame, int]:
+    """Drop arcs another mode beats on the same origin, destination and product.
+
+    Arc a is dominated by arc b when b is uncapacitated and no worse in unit cost,
+    transit days and CO2, and strictly better in one of them (ties: keep the first
+    mode by name).  Any flow on a can then move to b without raising cost, slowing
+    service or adding CO2, so the optimum is unchanged.
+    """
+    if arcs.empty:
+        return arcs, 0
+    keys = ["origin", "destination", "product"]
+    a = arcs.reset_index().rename(columns={"index": "_i"})
+    multi = a.groupby(keys)["mode"].transform("size") > 1
+    a = a[multi]
+    if a.empty:
+        return arcs, 0
+    cols = keys + ["_i", "mode", "unit_cost", "transit_days", "co2_kg_per_unit", "capacity", "lane_capacity"]
+    pairs = a[cols].merge(a[cols], on=keys, suffixes=("", "_b"))
+    pairs = pairs[pairs["_i"] != pairs["_i_b"]]
+    eps = 1e-12
+    no_worse = ((pairs["unit_cost_b"] <= pairs["unit_cost"] + eps)
+                & (pairs["transit_days_b"] <= pairs["transit_days"] + eps)
+                & (pairs["co2_kg_per_unit_b"] <= pairs["co2_kg_per_unit"] + eps)
+                & np.isinf(pairs["capacity_b"]) & np.isinf(pairs["lane_capacity_b"]))
+    strictly = ((pairs["unit_cost_b"] < pairs["unit_cost"] - eps)
+                | (pairs["transit_days_b"] < pairs["transit_days"] - eps)
+                | (pairs["co2_kg_per_unit_b"] < pairs["co2_kg_per_unit"] - eps)
+                | (pairs["mode_b"] < pairs["mode"]))
+    dominated = set(pairs.loc[no_worse & strictly, "_i"])
+    keep = ~arcs.index.isin(list(dominated))
+    return arcs[keep].reset_index(drop=True), len(dominated)
+
+
+def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | None = None) -> Network:
+    """Prepare every index set and per-element number the model needs (vectorised)."""
+    from netopt.lanes import build_lanes
+
+    t = case.tables
+    s = case.settings
+    if lanes is None:
+        lanes = build_lanes(case)
+    if prune is None:
+        prune = bool(s["lanes"]["prune_dominated"])
+
+    products = t["products"].copy()
+    products["holding_rate"] = _holding_rate(products, s)
+    pinfo = products.set_index("product")
+    modes = t["modes"].set_index("mode")
+
+    arcs = expand_arcs(case, lanes)
+    w = arcs["product"].map(pinfo["unit_weight_kg"]).to_numpy(float)
+    v = arcs["product"].map(pinfo["unit_value"]).to_numpy(float)
+    h = arcs["product"].map(pinfo["holding_rate"]).to_numpy(float)
+    rate = arcs["mode"].map(modes["cost_per_tonne_km"]).to_numpy(float)
+    fixed = arcs["mode"].map(modes["fixed_cost_per_unit"]).to_numpy(float)
+    co2f = arcs["mode"].map(modes["co2_kg_per_tonne_km"]).to_numpy(float)
+    dist = arcs["distance_km"].to_numpy(float)
+    given = arcs["cost_per_unit"].to_numpy(float)
+    arcs["freight_per_unit"] = np.where(np.isnan(given), w / 1000.0 * dist * rate + fixed, given)
+    # Little's law: units in transit = flow × transit time; cost = value × rate × days/365.
+    arcs["pipeline_per_unit"] = v * h * arcs["transit_days"].to_numpy(float) / 365.0
+    arcs["co2_kg_per_unit"] = w / 1000.0 * dist * co2f
+    carbon_price = float(s["policy"]["carbon_price_per_tonne"])
+    arcs["carbon_per_unit"] = arcs["co2_kg_per_unit"] / 1000.0 * carbon_price
+    sup_cost = t["suppliers"].set_index(["supplier", "product"])["unit_cost"]
+    is_sup = arcs["origin_kind"].eq("supplier").to_numpy()
+    arcs["supply_per_unit"] = 0.0
+    if is_sup.any():
+        idx = pd.MultiIndex.from_frame(arcs.loc[is_sup, ["origin", "product"]])
+        arcs.loc[is_sup, "supply_per_unit"] = sup_cost.reindex(idx).to_numpy(float)
+    handling = t["dcs"].set_index("dc")["handling_cost"]
+    is_dc_in = arcs["destination_kind"].eq("dc").to_numpy()
+    arcs["handling_per_unit"] = 0.0
+    arcs.loc[is_dc_in, "handling_per_unit"] = arcs.loc[is_dc_in, "destination"].map(handling).to_numpy(float)
+    arcs["unit_cost"] = (arcs["freight_per_unit"] + arcs["pipeline_per_unit"] + arcs["carbon_per_unit"]
+                         + arcs["supply_per_unit"] + arcs["handling_per_unit"])
+    # Capacity of a product-specific row binds that product; a generic row's binds the lane and mode.
+    arcs["lane_capacity"] = arcs["capacity"]
+    arcs["capacity"] = np.inf
+    lane_keys = lanes[["origin", "destination", "mode", "product"]]
+    spec = lane_keys[lane_keys["product"] != ""].assign(_spec=True)
+    hit = arcs[["origin", "destination", "mode", "product"]].merge(spec, how="left",
+                                                                   on=["origin", "destination", "mode", "product"])
+    is_spec = hit["_spec"].fillna(False).astype(bool).to_numpy()
+    arcs.loc[is_spec, "capacity"] = arcs.loc[is_spec, "lane_capacity"]
+    arcs.loc[is_spec, "lane_capacity"] = np.inf
+
+    # Service window of the destination customer (last legs only).
+    customers = t["customers"][["customer", "service_class"]].copy()
+    classes = t["service_classes"]
+    if len(classes):
+        cls = classes.set_index("service_class")
+        customers["max_days"] = customers["service_class"].map(cls["max_days"]).astype(float)
+        customers["target_share"] = customers["service_class"].map(cls["target_share"]).astype(float)
+    else:
+        customers["max_days"] = float(s["policy"]["service_max_days"])
+        customers["target_share"] = float(s["policy"]["service_target_share"])
+    customers["max_days"] = customers["max_days"].fillna(0.0)
+    customers["target_share"] = customers["target_share"].fillna(0.0)
+    window = arcs["destination"].map(customers.set_index("customer")["max_days"])
+    arcs["within_window"] = arcs["destination_kind"].eq("customer") & (arcs["transit_days"] <= window + 1e-9)
+
+    pruned = {}
+    if prune:
+        arcs, n = prune_dominated(arcs)
+        pruned["dominated_mode_arcs"] = n
+
+    make = t["plants"][["plant", "product", "capacity", "unit_cost"]].reset_index(drop=True)
+
+    dcs = t["dcs"].reset_index(drop=True)
+    sizes = t["dc_sizes"]
+    base_opt = dcs.loc[~dcs["dc"].isin(sizes["dc"]) if len(sizes) else slice(None),
+                       ["dc", "capacity", "fixed_cost"]].assign(size="")
+    options = pd.concat([base_opt, sizes[["dc", "size", "capacity", "fixed_cost"]]], ignore_index=True)
+    options = options.merge(dcs[["dc", "status", "closing_cost", "force"]], on="dc")
+    order = {d: i for i, d in enumerate(dcs["dc"])}
+    options = options.sort_values(["dc", "size"], key=lambda c: c.map(order) if c.name == "dc" else c)
+    options = options.reset_index(drop=True)
+
+    dem = t["demand"][t["demand"]["quantity"] > 0][["customer", "product", "quantity"]].reset_index(drop=True)
+    penalty = float(s["policy"]["unmet_penalty_per_unit"])
+    dem["penalty"] = penalty if penalty > 0 else 2.0 * dem["product"].map(pinfo["unit_value"]).astype(float)
+
+    return Network(arcs=arcs, make=make, options=options, demand=dem, customers=customers,
+                   bom=t["bill_of_materials"][["product", "material", "quantity_per_unit"]].reset_index(drop=True),
+                   dcs=dcs, products=products.reset_index(drop=True),
+                   suppliers=t["suppliers"].reset_index(drop=True), settings=s, pruned=pruned)
