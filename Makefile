@@ -18,8 +18,8 @@ $(STAMP): $(PY) pyproject.toml
 install: $(STAMP)
 
 demo: $(STAMP)
-	$(VENV)/bin/netopt check cases/tallowmere
-	$(VENV)/bin/netopt run cases/tallowmere --out out/tallowmere
+	$(VENV)/bin/netopt check cases/brackenholt
+	$(VENV)/bin/netopt run cases/brackenholt --out out/brackenholt
 
 test: $(STAMP)
 	$(PY) -m pytest -q
