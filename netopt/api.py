@@ -57,9 +57,9 @@ class Result:
         return dict(zip(self.tables["cost"]["component"], self.tables["cost"]["amount"]))
 
     def held_openings(self) -> dict[str, str | bool]:
-        """DC decisions of this solution, to hold the network in a re-solve: dc → size ("" = only size) or False."""
+        """DC decisions of this solution, to hold the network in a re-solve: dc → size name, True (open, no size options) or False."""
         d = self.tables["dcs"]
-        return {dc: (size if o else False) for dc, o, size in zip(d["dc"], d["open"], d["size"])}
+        return {dc: ((size or True) if o else False) for dc, o, size in zip(d["dc"], d["open"], d["size"])}
 
     def summary(self) -> dict:
         """JSON-ready summary: status, objective, bound, gap, cost breakdown, verification."""
