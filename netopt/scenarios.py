@@ -385,27 +385,36 @@ class HeldNetwork:
 
     WARM_KINDS = {"close_lane", "site_out", "scale_demand", "cap_lane", "set_capacity", "force_dc"}
 
-    def __init__(self, case: Case, base):
+    def __init__(self, case: Case, base=None, *, held: dict | None = None, lanes: pd.DataFrame | None = None):
+        """Hold ``base``'s DC decisions (a Result), or ``held`` (dc → size/True/False) with ``lanes``."""
+        from netopt.api import _fixed_options
+        from netopt.lanes import build_lanes
         from netopt.model import build_model
         from netopt.network import build_network
         from netopt.solver import compile_model
-        from netopt.api import _fixed_options
 
         self.case = case
-        self.base = base
         settings = copy.deepcopy(case.settings)
         settings["policy"]["allow_unmet_demand"] = True
         self.case_unmet = Case(case.name, case.tables, settings, case.path)
-        self.lanes = base.lanes
+        if base is not None:
+            held = base.held_openings()
+            lanes = base.lanes if lanes is None else lanes
+        if held is None:
+            raise ValueError("HeldNetwork needs a base result or the held DC decisions")
+        self.lanes = build_lanes(case) if lanes is None else lanes
         self.net = build_network(self.case_unmet, self.lanes)
-        self.held = base.held_openings()
+        self.held = dict(held)
         fixed = _fixed_options(self.net, self.held)
         self.fixed = fixed
         t0 = time.perf_counter()
         self.builder = build_model(self.net, fixed_open=fixed)
         self.hm = compile_model(self.builder)
         self.is_lp = set(self.builder.vars) <= {"flow", "make", "unmet", "open"}
-        self.hm.relax_integrality()
+        # With openings fixed and no other binaries the model is an LP: solve it once, cold,
+        # so every later re-solve starts from this basis.
+        if self.is_lp:
+            self.hm.relax_integrality()
         self.build_seconds = time.perf_counter() - t0
         info = self.hm.solve(time_limit=float(case.settings["solver"]["time_limit_s"]),
                              mip_gap=float(case.settings["solver"]["mip_gap"]))
