@@ -160,3 +160,80 @@ def write_result(result, out: str | Path, workbook: bool = True) -> Path:
     with atomic_folder(out) as tmp:
         write_result_files(result, tmp, workbook=workbook)
     return out
+
+
+def markdown_table(df: pd.DataFrame, floatfmt: str = ",.0f") -> str:
+    """A GitHub-style Markdown table (numbers formatted, text escaped)."""
+    def fmt(v, col):
+        if v is None or (isinstance(v, float) and math.isnan(v)):
+            return ""
+        if isinstance(v, (bool, np.bool_)):
+            return "yes" if v else "no"
+        if isinstance(v, (float, np.floating)):
+            c = col.lower()
+            if any(h in c for h in SHARE_HINTS):
+                return f"{float(v):.1%}"
+            if "days" in c or "seconds" in c:
+                return f"{float(v):.2f}"
+            return format(float(v), floatfmt)
+        return str(v).replace("|", "\\|")
+    cols = [str(c) for c in df.columns]
+    lines = ["| " + " | ".join(cols) + " |", "|" + "|".join("---" for _ in cols) + "|"]
+    for row in df.itertuples(index=False):
+        lines.append("| " + " | ".join(fmt(v, c) for v, c in zip(row, cols)) + " |")
+    return "\n".join(lines) + "\n"
+
+
+def _label_folder(label: str) -> str:
+    return "".join(ch if ch.isalnum() or ch in "-_" else "_" for ch in label).strip("_")
+
+
+def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None = None,
+              report: bool = True) -> Path:
+    """Write a base-plus-scenarios run atomically.
+
+    Layout: ``comparison.csv``, ``comparison.md``, ``results.xlsx`` (comparison and the
+    base's tables), ``summary.json``, ``base/`` and ``scenarios/<name>/`` with each
+    solve's full results, and ``report.html`` when the report module is available.
+    """
+    out = Path(out)
+    with atomic_folder(out) as tmp:
+        run.comparison.to_csv(tmp / "comparison.csv", index=False)
+        (tmp / "comparison.md").write_text(
+            f"# Scenario comparison: {run.base.case_name}\n\n" + markdown_table(comparison_view(run.comparison))
+            + "\n" + DISCLAIMER + "\n")
+        write_result_files(run.base, tmp / "base")
+        for label, r in run.results.items():
+            if label == "base":
+                continue
+            write_result_files(r, tmp / "scenarios" / _label_folder(label), workbook=False)
+        sheets = {"comparison": run.comparison}
+        sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
+        sheets.update(extra_sheets or {})
+        write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER)
+        summary = {"case": run.base.case_name, "disclaimer": DISCLAIMER,
+                   "scenarios": _jsonable(run.comparison.to_dict(orient="records")),
+                   "base": _jsonable(run.base.summary())}
+        (tmp / "summary.json").write_text(json.dumps(summary, indent=2))
+        if report:
+            try:
+                from netopt.report import write_report
+            except ImportError:
+                pass
+            else:
+                write_report(run, tmp / "report.html")
+    return out
+
+
+COMPARISON_VIEW = [("scenario", "scenario"), ("resolve", "re-solve"), ("total_cost", "total cost"),
+                   ("delta_cost", "Δ vs base"), ("delta_pct", "Δ share"), ("dcs_open", "DCs"),
+                   ("share_within_window", "within window share"), ("avg_transit_days", "avg transit days"),
+                   ("max_supplier_share", "max supplier share"), ("lost_units", "lost units"),
+                   ("lost_value", "lost value"), ("co2e_tonnes", "CO2e t"), ("status", "status"),
+                   ("verified", "verified")]
+
+
+def comparison_view(comparison: pd.DataFrame) -> pd.DataFrame:
+    """The comparison's headline columns with readable names (for Markdown and terminal)."""
+    cols = [(c, n) for c, n in COMPARISON_VIEW if c in comparison.columns]
+    return comparison[[c for c, _ in cols]].rename(columns=dict(cols))

@@ -1,0 +1,305 @@
+"""CLI verbs that solve: ``netopt solve`` (one case) and ``netopt run`` (base and scenarios).
+
+Thin layers over :func:`netopt.solve` and :func:`netopt.scenarios.run_scenarios`; the
+terminal output is rich tables, with ``--quiet`` and ``--json`` for scripts.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+import time
+
+from netopt.cli import COMMON, EXIT_INFEASIBLE, EXIT_OK, EXIT_SOLVER, print_warnings, say
+
+SOLVER_OPTIONS = argparse.ArgumentParser(add_help=False)
+SOLVER_OPTIONS.add_argument("--out", required=True, metavar="DIR",
+                            help="results folder (written completely or not at all; an earlier folder is replaced)")
+SOLVER_OPTIONS.add_argument("--time-limit", type=float, metavar="S",
+                            help="stop the search after S seconds and keep the best plan found (default: settings)")
+SOLVER_OPTIONS.add_argument("--gap", type=float, metavar="G",
+                            help="stop when the plan is proven within G of the best possible cost, "
+                                 "e.g. 0.001 = 0.1%% (default: settings)")
+SOLVER_OPTIONS.add_argument("--threads", type=int, metavar="N", help="solver threads (default: settings, usually 1)")
+SOLVER_OPTIONS.add_argument("--json", action="store_true",
+                            help="print the summary as JSON on stdout (for scripts) instead of tables")
+SOLVER_OPTIONS.add_argument("--no-report", action="store_true", help="skip the HTML report")
+
+
+def _console():
+    import os
+    import shutil
+
+    from rich.console import Console
+
+    width = None if sys.stdout.isatty() else int(os.environ.get("COLUMNS", 0)) or max(
+        120, shutil.get_terminal_size((120, 24)).columns)
+    return Console(highlight=False, width=width)
+
+
+TERMINAL_VIEW = [("scenario", "scenario"), ("total_cost", "total cost"), ("delta_cost", "Δ vs base"),
+                 ("dcs_open", "DCs"), ("share_within_window", "in window"), ("lost_units", "lost units"),
+                 ("co2e_tonnes", "CO2e t"), ("status", "status"), ("verified", "checked")]
+
+
+def _money(x) -> str:
+    if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
+        return "–"
+    return f"{x:,.0f}"
+
+
+def _progress_printer(args):
+    """Progress lines: one per stage, and MIP progress at most every 5 s."""
+    if getattr(args, "quiet", False) or getattr(args, "json", False):
+        return None
+    t0 = time.perf_counter()
+    last = [0.0]
+
+    def progress(stage, info=None):
+        now = time.perf_counter() - t0
+        info = info or {}
+        if stage == "progress":
+            if now - last[0] < 5.0:
+                return
+            last[0] = now
+            gap = info.get("gap")
+            print(f"[{now:7.1f}s]   searching: best {_money(info.get('objective'))}, bound {_money(info.get('bound'))}"
+                  + (f", gap {gap:.3%}" if isinstance(gap, float) and math.isfinite(gap) else ""), flush=True)
+            return
+        text = {
+            "lanes": lambda: f"lanes: {info.get('lanes', 0):,} lanes generated and read",
+            "build": lambda: f"model: {info.get('arcs', 0):,} flow arcs",
+            "solve": lambda: (f"solving: {info.get('columns', 0):,} variables ({info.get('binaries', 0):,} yes/no), "
+                              f"{info.get('rows', 0):,} constraints"),
+            "verified": lambda: f"verification: {'passed' if info.get('passed') else 'FAILED'} "
+                                f"(largest violation {info.get('largest', 0):.2e})",
+            "diagnose": lambda: "no feasible plan: re-solving with penalised slack to find what cannot be met",
+        }.get(stage)
+        if text:
+            print(f"[{now:7.1f}s] {text()}", flush=True)
+
+    return progress
+
+
+def print_result(result, console=None) -> None:
+    """Readable terminal summary of one solve: status, cost breakdown, DCs, KPIs."""
+    from rich.table import Table
+
+    from rich.markup import escape
+
+    con = console or _console()
+    status = result.status + ("" if result.status == "optimal" else "  (best plan found, not proven optimal)"
+                              if result.has_solution else "")
+    con.print(f"[bold]{escape(result.case_name)}[/bold]: {status}; cost {_money(result.objective)}, "
+              f"bound {_money(result.bound)}, gap {result.gap:.4%}" if result.has_solution and math.isfinite(result.gap)
+              else f"[bold]{escape(result.case_name)}[/bold]: {status}")
+    if result.diagnosis is not None:
+        t = Table(title="What cannot be met (elastic re-solve)")
+        for c in result.diagnosis.columns:
+            t.add_column(str(c))
+        for row in result.diagnosis.itertuples(index=False):
+            t.add_row(*[f"{v:,.1f}" if isinstance(v, float) else escape(str(v)) for v in row])
+        con.print(t)
+        return
+    if not result.has_solution:
+        return
+    t = Table(title="Annual landed cost")
+    t.add_column("component")
+    t.add_column("amount", justify="right")
+    t.add_column("share", justify="right")
+    total = sum(result.cost.values())
+    for k, v in result.cost.items():
+        if abs(v) > 0.5:
+            t.add_row(k.replace("_", " "), _money(v), f"{v / total:.1%}" if total else "")
+    t.add_row("[bold]total[/bold]", f"[bold]{_money(total)}[/bold]", "100%")
+    con.print(t)
+    d = result.tables["dcs"]
+    t = Table(title="DCs")
+    for c in ("dc", "status", "decision", "throughput", "utilisation"):
+        t.add_column(c, justify="right" if c in ("throughput", "utilisation") else "left")
+    for row in d.itertuples(index=False):
+        u = row.utilisation
+        t.add_row(row.dc, row.status, row.decision, _money(row.throughput),
+                  "" if u is None or (isinstance(u, float) and math.isnan(u)) else f"{u:.0%}")
+    con.print(t)
+    k = result.tables["kpis"]
+    t = Table(title="Key indicators")
+    t.add_column("indicator")
+    t.add_column("value", justify="right")
+    t.add_column("unit")
+    for row in k.itertuples(index=False):
+        v = row.value
+        txt = "–" if v is None or (isinstance(v, float) and math.isnan(v)) else (
+            f"{v:.1%}" if "share" in row.unit else f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}")
+        t.add_row(row.kpi.replace("_", " "), txt, row.unit)
+    con.print(t)
+    v = result.verification
+    if v is not None:
+        con.print(f"Independent check: {'[green]passed[/green]' if v.passed else '[red]FAILED[/red]'} — recomputed cost "
+                  f"{_money(v.recomputed_objective)}, largest violation {v.largest_violation:.2e} "
+                  f"({v.largest_violation_rule})")
+
+
+def print_comparison(comparison, console=None) -> None:
+    """The scenario comparison as a terminal table."""
+    from rich.table import Table
+
+    from rich.markup import escape
+
+    con = console or _console()
+    cols = [(c, n) for c, n in TERMINAL_VIEW if c in comparison.columns]
+    view = comparison[[c for c, _ in cols]].rename(columns=dict(cols))
+    t = Table(title="Scenario comparison (money per year; Δ = recovery cost for disruptions)")
+    for c in view.columns:
+        t.add_column(str(c), justify="left" if c in ("scenario", "status") else "right",
+                     no_wrap=c == "scenario")
+    for row in view.itertuples(index=False):
+        cells = []
+        for c, v in zip(view.columns, row):
+            if isinstance(v, bool):
+                cells.append("yes" if v else "[red]NO[/red]")
+            elif isinstance(v, float):
+                if math.isnan(v):
+                    cells.append("–")
+                elif c == "in window":
+                    cells.append(f"{v:.1%}")
+                elif "days" in c:
+                    cells.append(f"{v:.2f}")
+                elif c == "Δ vs base":
+                    cells.append(("[red]" if v > 0.5 else "[green]" if v < -0.5 else "") + f"{v:+,.0f}"
+                                 + ("[/red]" if v > 0.5 else "[/green]" if v < -0.5 else ""))
+                else:
+                    cells.append(f"{v:,.0f}")
+            else:
+                cells.append(escape(str(v)))
+        t.add_row(*cells)
+    con.print(t)
+
+
+# --------------------------------------------------------------------------- solve
+
+def add_solve(sub) -> None:
+    p = sub.add_parser(
+        "solve", parents=[COMMON, SOLVER_OPTIONS],
+        help="design the network for one case and write the results",
+        description="Choose DC openings, supplier splits and transport modes at the least total landed cost for "
+                    "the case, check the plan independently, and write flows, DC decisions, supplier shares, "
+                    "mode mix, service, cost breakdown and KPIs as CSV files, an Excel workbook, summary.json "
+                    "and an HTML report.")
+    p.add_argument("case", metavar="CASE", help="case folder (settings.toml + CSV tables) or .xlsx workbook")
+    p.set_defaults(func=cmd_solve)
+
+
+def cmd_solve(args: argparse.Namespace) -> int:
+    from netopt.api import solve
+    from netopt.io import load_case
+    from netopt.output import atomic_folder, write_result_files
+
+    case = load_case(args.case)
+    print_warnings(args, case)
+    r = solve(case, time_limit=args.time_limit, mip_gap=args.gap, threads=args.threads,
+              progress=_progress_printer(args))
+    with atomic_folder(args.out) as tmp:
+        write_result_files(r, tmp)
+        if r.has_solution and not args.no_report:
+            try:
+                from netopt.report import write_report
+            except ImportError:
+                pass
+            else:
+                write_report(r, tmp / "report.html")
+    if args.json:
+        print(json.dumps(_json(r.summary()), indent=2))
+    elif not args.quiet:
+        print_result(r)
+        say(args, f"results written to {args.out}")
+    if r.diagnosis is not None or r.status in ("infeasible", "unbounded"):
+        return EXIT_INFEASIBLE
+    if not r.has_solution:
+        return EXIT_SOLVER
+    if r.verification is not None and not r.verification.passed:
+        print(f"error: the independent check failed ({r.verification.largest_violation_rule}: "
+              f"{r.verification.largest_violation:.3g})", file=sys.stderr)
+        return EXIT_SOLVER
+    return EXIT_OK
+
+
+def _json(obj):
+    from netopt.output import _jsonable
+
+    return _jsonable(obj)
+
+
+# --------------------------------------------------------------------------- run
+
+def add_run(sub) -> None:
+    p = sub.add_parser(
+        "run", parents=[COMMON, SOLVER_OPTIONS],
+        help="solve the base case and every what-if scenario, and compare them side by side",
+        description="Solve the base case and the scenarios in the case's scenarios.toml (new DCs, closures, lost "
+                    "lanes, suppliers or plants, supplier caps, demand and cost changes). Disruptions can be "
+                    "re-solved holding the network (short-term recovery, DC decisions kept) and redesigning "
+                    "(long-term). Writes comparison.csv/.md, results.xlsx, summary.json, report.html and one "
+                    "sub-folder per scenario.")
+    p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
+    p.add_argument("--only", metavar="NAMES", help="comma-separated scenario names to run (the base always runs)")
+    p.add_argument("--cold", action="store_true",
+                   help="rebuild every hold-the-network re-solve instead of re-solving warm (for comparisons)")
+    p.add_argument("--list", action="store_true", help="list the scenarios and exit")
+    p.set_defaults(func=cmd_run)
+
+
+def cmd_run(args: argparse.Namespace) -> int:
+    from netopt.io import load_case
+    from netopt.output import write_run
+    from netopt.scenarios import parse_scenarios, run_scenarios
+
+    case = load_case(args.case)
+    print_warnings(args, case)
+    scenarios = parse_scenarios(case.scenarios)
+    if args.list:
+        for s in scenarios:
+            print(f"{s.name:32s} {s.resolve:9s} {s.description}")
+        return EXIT_OK
+    names = [n.strip() for n in args.only.split(",") if n.strip()] if args.only else None
+    if case.settings["solver"] is not None:
+        if args.time_limit is not None:
+            case.settings["solver"]["time_limit_s"] = args.time_limit
+        if args.gap is not None:
+            case.settings["solver"]["mip_gap"] = args.gap
+        if args.threads is not None:
+            case.settings["solver"]["threads"] = args.threads
+    n_total = 1 + sum(2 if s.resolve == "both" else 1 for s in scenarios if names is None or s.name in names)
+    quiet = args.quiet or args.json
+    if quiet:
+        run = run_scenarios(case, names=names, scenarios=scenarios, warm=not args.cold)
+    else:
+        from rich.markup import escape
+        from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
+
+        with Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
+                      transient=False) as bar:
+            task = bar.add_task("scenarios", total=n_total)
+
+            def progress(event, info):
+                if event == "start":
+                    bar.update(task, description=escape(f"solving {info['name']}"))
+                elif event == "done":
+                    bar.advance(task)
+                    bar.console.print(escape(f"  {info['name']}: {info['status']} in {info['seconds']:.1f}s"))
+
+            run = run_scenarios(case, names=names, scenarios=scenarios, progress=progress, warm=not args.cold)
+    write_run(run, args.out, report=not args.no_report)
+    if args.json:
+        print(json.dumps(_json(run.comparison.to_dict(orient="records")), indent=2))
+    elif not args.quiet:
+        print_comparison(run.comparison)
+        say(args, f"results written to {args.out} (comparison.csv, comparison.md, results.xlsx, report.html)")
+    if not run.base.has_solution:
+        return EXIT_INFEASIBLE if run.base.status in ("infeasible", "unbounded") else EXIT_SOLVER
+    if not run.comparison["verified"].fillna(False).all():
+        print("error: an independent check failed; see verification.csv in the scenario folders", file=sys.stderr)
+        return EXIT_SOLVER
+    return EXIT_OK
