@@ -19,6 +19,30 @@ from netopt.model.core import Builder
 INF = highspy.kHighsInf
 
 
+def _new_highs() -> highspy.Highs:
+    """A Highs instance; its once-per-process banner on C stdout is silenced (it would break --json)."""
+    global _BANNER_DONE
+    if _BANNER_DONE:
+        return highspy.Highs()
+    import os
+    import sys
+
+    sys.stdout.flush()
+    saved = os.dup(1)
+    try:
+        with open(os.devnull, "w") as null:
+            os.dup2(null.fileno(), 1)
+            h = highspy.Highs()
+    finally:
+        os.dup2(saved, 1)
+        os.close(saved)
+    _BANNER_DONE = True
+    return h
+
+
+_BANNER_DONE = False
+
+
 @dataclass
 class SolveInfo:
     """Solver outcome. Times in seconds; ``gap`` relative (0.01 = 1 %)."""
@@ -169,7 +193,7 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
     lp.a_matrix_.value_ = A.data.astype(float)
     if integ.any():
         lp.integrality_ = [highspy.HighsVarType.kInteger if i else highspy.HighsVarType.kContinuous for i in integ]
-    h = highspy.Highs()
+    h = _new_highs()
     h.setOptionValue("output_flag", False)
     h.setOptionValue("threads", 1)
     for k, v in (options or {}).items():
