@@ -383,6 +383,7 @@ class HeldNetwork:
     as lost units rather than as an infeasible run.
     """
 
+    BIG_M_FACTOR = 20.0
     WARM_KINDS = {"close_lane", "site_out", "scale_demand", "cap_lane", "set_capacity", "force_dc"}
 
     def __init__(self, case: Case, base=None, *, held: dict | None = None, lanes: pd.DataFrame | None = None):
@@ -408,7 +409,9 @@ class HeldNetwork:
         fixed = _fixed_options(self.net, self.held)
         self.fixed = fixed
         t0 = time.perf_counter()
-        self.builder = build_model(self.net, fixed_open=fixed)
+        # Openings are fixed, so the strong linking rows are redundant ("plain"), and a generous
+        # big M for unlimited DC capacity lets demand be scaled by bound changes alone.
+        self.builder = build_model(self.net, formulation="plain", fixed_open=fixed, big_m_factor=self.BIG_M_FACTOR)
         self.hm = compile_model(self.builder)
         self.is_lp = set(self.builder.vars) <= {"flow", "make", "unmet", "open"}
         # With openings fixed and no other binaries the model is an LP: solve it once, cold,
@@ -477,6 +480,8 @@ class HeldNetwork:
                     return None
             elif kind == "scale_demand":
                 dem_new = sc_case.tables["demand"].set_index(["customer", "product"])["quantity"]
+                if dem_new.sum() > self.builder.dc_big_m / 2:
+                    return None
                 q = dem_new.reindex(pd.MultiIndex.from_frame(net.demand[["customer", "product"]])).to_numpy(float)
                 r = self.rows_of("demand_met")
                 for k in np.flatnonzero(np.abs(q - net.demand["quantity"].to_numpy(float)) > 0):

@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from netopt.model import capacity, flows, inventory, openings, service, sourcing, transport
+from netopt.model import capacity, flows, inventory, openings, safety_stock, service, sourcing, transport
 from netopt.model.core import Builder
 from netopt.network import Network
 
@@ -16,7 +16,7 @@ COST_COMPONENTS = ("supply", "production", "dc_fixed", "dc_closing", "dc_handlin
 
 
 def build_model(net: Network, formulation: str = "tight", elastic: bool = False,
-                fixed_open: np.ndarray | None = None) -> Builder:
+                fixed_open: np.ndarray | None = None, big_m_factor: float = 1.0) -> Builder:
     """Build the Pyomo model of ``net``.
 
     Args:
@@ -25,14 +25,17 @@ def build_model(net: Network, formulation: str = "tight", elastic: bool = False,
         elastic: let capacity, sourcing and service rows be violated at a penalty,
             to diagnose an infeasible case.
         fixed_open: 0/1 per opening option to hold the network (re-route only).
+        big_m_factor: multiplies the demand-based bound used for unlimited DC capacity
+            (a held network raises it so demand can be scaled by bound changes alone).
     """
     b = Builder(net=net, elastic=elastic)
     openings.add(b, fixed_open=fixed_open)
     flows.add(b)
-    capacity.add(b, formulation=formulation)
+    capacity.add(b, formulation=formulation, big_m_factor=big_m_factor)
     sourcing.add(b)
     service.add(b)
     transport.add(b)
     inventory.add(b)
+    safety_stock.add(b)
     b.finish()
     return b

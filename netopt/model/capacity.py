@@ -16,7 +16,7 @@ from netopt.model.core import Builder, Term, group_index, lookup
 from netopt.model.openings import option_terms
 
 
-def add(b: Builder, formulation: str = "tight") -> None:
+def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> None:
     net = b.net
     arcs = net.arcs
     flow_idx = np.arange(len(arcs))
@@ -41,7 +41,8 @@ def add(b: Builder, formulation: str = "tight") -> None:
     di = flow_idx[arcs["destination_kind"].eq("dc").to_numpy()]
     dcs, r = group_index(arcs.iloc[di], ["destination"])
     if len(dcs):
-        big_m = net.total_demand * (2.0 if arcs["leg"].eq("dc-dc").any() else 1.0)
+        big_m = net.total_demand * (2.0 if arcs["leg"].eq("dc-dc").any() else 1.0) * big_m_factor
+        b.dc_big_m = big_m
         rows = np.arange(len(dcs))
         b.add_rows("dc_throughput", dcs.set_axis(["dc"], axis=1),
                    [Term("flow", di, np.ones(len(di)), r),

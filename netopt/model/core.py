@@ -44,6 +44,7 @@ class Builder:
     elastic: bool = False
     elastic_penalty: float = 1e6
     empty_infeasible: list[tuple[str, int]] = field(default_factory=list)
+    dc_big_m: float = float("inf")  # units/yr standing in for unlimited DC capacity
 
     # ------------------------------------------------------------------ variables
     def add_vars(self, name: str, labels: pd.DataFrame, lb=0.0, ub=None, binary: bool = False) -> list:

@@ -1,0 +1,237 @@
+"""Scenarios: each change kind's effect, validation, monotonicity, recovery cost, warm = cold."""
+
+from __future__ import annotations
+
+import pytest
+from randcase import random_case
+
+from netopt.api import solve
+from netopt.case import CaseError
+from netopt.frames import make_case
+from netopt.scenarios import HeldNetwork, Scenario, apply_changes, parse_scenarios, run_scenarios
+
+REL = 1e-6
+
+
+def sc(name, *changes, resolve="redesign", based_on=""):
+    return Scenario(name, list(changes), based_on=based_on, resolve=resolve)
+
+
+def cost(case):
+    r = solve(case, mip_gap=1e-9)
+    assert r.has_solution and r.verification.passed, r.status
+    return r
+
+
+@pytest.fixture(scope="module")
+def base_case():
+    return random_case(3)
+
+
+@pytest.fixture(scope="module")
+def base(base_case):
+    return cost(base_case)
+
+
+# ----------------------------------------------------------------------------- each change kind
+
+def test_close_lane_carries_no_flow(base_case, base):
+    f = base.tables["flows"]
+    used = f[f["destination_kind"] == "customer"].iloc[0]
+    c = apply_changes(base_case, sc("x", {"kind": "close_lane", "origin": used.origin,
+                                          "destination": used.destination}))
+    r = cost(c)
+    g = r.tables["flows"]
+    assert g[(g.origin == used.origin) & (g.destination == used.destination)].empty
+
+
+def test_force_closed_dc_has_no_throughput(base_case, base):
+    d = base.tables["dcs"]
+    dc = d.loc[d["open"], "dc"].iloc[0]
+    r = cost(apply_changes(base_case, sc("x", {"kind": "force_dc", "dc": dc, "to": "closed"})))
+    row = r.tables["dcs"].set_index("dc").loc[dc]
+    assert not row["open"] and row["throughput"] == 0
+
+
+def test_force_open_dc_is_open(base_case, base):
+    d = base.tables["dcs"]
+    dc = d.loc[~d["open"], "dc"].iloc[0]
+    r = cost(apply_changes(base_case, sc("x", {"kind": "force_dc", "dc": dc, "to": "open"})))
+    assert r.tables["dcs"].set_index("dc").loc[dc, "open"]
+    assert r.objective >= base.objective * (1 - REL)  # forcing a decision never lowers cost
+
+
+def test_supplier_share_cap_respected_per_site_and_material(base_case):
+    r = cost(apply_changes(base_case, sc("x", {"kind": "policy", "max_supplier_share": 0.6})))
+    s = r.tables["supplier_shares"]
+    assert len(s) and (s["share"] <= 0.6 + 1e-7).all()
+    assert (s.groupby(["site", "product"])["supplier"].nunique() >= 2).all()
+
+
+def test_add_dc_appears_and_can_open(base_case):
+    c = apply_changes(base_case, sc("x", {"kind": "add_dc", "dc": "DNEW", "lat": 48.0, "lon": 7.0, "fixed_cost": 1.0}))
+    r = cost(c)
+    assert "DNEW" in set(r.tables["dcs"]["dc"])
+    assert r.tables["dcs"].set_index("dc").loc["DNEW", "open"]  # nearly free DC: opening it pays
+
+
+def test_site_out_supplier_and_plant(base_case):
+    s = cost(apply_changes(base_case, sc("x", {"kind": "site_out", "site": "S0"})))
+    assert s.tables["flows"].query("origin == 'S0'").empty
+    p = cost(apply_changes(base_case, sc("x", {"kind": "site_out", "site": "F"},
+                                         {"kind": "policy", "allow_unmet_demand": True})))
+    assert p.tables["production"]["quantity"].sum() == 0
+    assert p.tables["unmet"]["lost_units"].sum() == pytest.approx(base_case.tables["demand"]["quantity"].sum())
+
+
+def test_scale_demand_by_region(base_case):
+    c = apply_changes(base_case, sc("x", {"kind": "scale_demand", "region": "north", "factor": 1.5}))
+    before = base_case.tables["demand"].merge(base_case.tables["customers"], on="customer")
+    after = c.tables["demand"].merge(c.tables["customers"], on="customer")
+    north = before["region"] == "north"
+    assert after.loc[north.to_numpy(), "quantity"].to_numpy() == pytest.approx(1.5 * before.loc[north, "quantity"].to_numpy())
+    assert after.loc[~north.to_numpy(), "quantity"].to_numpy() == pytest.approx(before.loc[~north, "quantity"].to_numpy())
+    r = cost(c)
+    assert r.tables["kpis"].set_index("kpi").loc["delivered", "value"] == pytest.approx(after["quantity"].sum())
+
+
+def test_scale_cost_mode_rate_with_flows_held(base_case, base):
+    """Doubling the road rate with the network held: road freight doubles if the plan keeps road (it may move)."""
+    c = apply_changes(base_case, sc("x", {"kind": "scale_cost", "target": "mode_rate", "mode": "road", "factor": 2.0}))
+    assert c.tables["modes"].set_index("mode").loc["road", "cost_per_tonne_km"] == pytest.approx(0.2)
+    r = cost(c)
+    assert r.objective >= base.objective * (1 - REL)
+
+
+def test_scale_supplier_price_and_set_capacity(base_case, base):
+    c = apply_changes(base_case, sc("x", {"kind": "scale_cost", "target": "supplier_price", "supplier": "S1", "factor": 3},
+                                    {"kind": "set_capacity", "site": "S2", "capacity": 100.0}))
+    assert c.tables["suppliers"].set_index("supplier").loc["S2", "capacity"] == 100.0
+    r = cost(c)
+    assert r.tables["flows"].query("origin == 'S2'")["quantity"].sum() <= 100.0 + 1e-6
+
+
+def test_cap_lane_respected(base_case, base):
+    f = base.tables["flows"]
+    top = f[f["destination_kind"] == "customer"].sort_values("quantity").iloc[-1]
+    cap = top.quantity / 2
+    r = cost(apply_changes(base_case, sc("x", {"kind": "cap_lane", "origin": top.origin,
+                                               "destination": top.destination, "capacity": cap})))
+    g = r.tables["flows"]
+    assert g[(g.origin == top.origin) & (g.destination == top.destination)]["quantity"].sum() <= cap * (1 + 1e-7)
+
+
+def test_based_on_applies_parent_first(base_case):
+    scen = parse_scenarios([
+        {"name": "cap", "change": [{"kind": "policy", "max_supplier_share": 0.7}]},
+        {"name": "cap_more", "based_on": "cap", "change": [{"kind": "scale_demand", "factor": 1.1}]},
+    ])
+    from netopt.scenarios import scenario_case
+
+    c = scenario_case(base_case, scen, "cap_more")
+    assert c.settings["policy"]["max_supplier_share"] == 0.7
+    assert c.tables["demand"]["quantity"].sum() == pytest.approx(1.1 * base_case.tables["demand"]["quantity"].sum())
+
+
+# ----------------------------------------------------------------------------- validation
+
+def test_unknown_site_and_lane_named_with_scenario_and_change(base_case):
+    with pytest.raises(CaseError) as e:
+        apply_changes(base_case, sc("storm", {"kind": "close_lane", "origin": "NOPE", "destination": "C1"},
+                                    {"kind": "site_out", "site": "GHOST"},
+                                    {"kind": "close_lane", "origin": "S0", "destination": "C1"}))
+    text = e.value.report()
+    assert "scenario 'storm', change 1 (close_lane): unknown origin site 'NOPE'" in text
+    assert "scenario 'storm', change 2 (site_out): unknown site 'GHOST'" in text
+    assert "scenario 'storm', change 3 (close_lane): there is no lane S0 → C1" in text
+    assert len(e.value.problems) == 3  # every problem at once
+
+
+def test_parse_rejects_bad_kind_resolve_and_loops():
+    with pytest.raises(CaseError) as e:
+        parse_scenarios([{"name": "a", "resolve": "maybe", "change": [{"kind": "teleport"}]},
+                         {"name": "b", "based_on": "c"}, {"name": "c", "based_on": "b"}])
+    text = e.value.report()
+    assert "unknown kind 'teleport'" in text and "resolve must be one of" in text and "loop" in text
+
+
+def test_policy_change_validated_like_base_data(base_case):
+    with pytest.raises(CaseError) as e:
+        apply_changes(base_case, sc("bad", {"kind": "policy", "max_supplier_share": 1.7}))
+    assert "after scenario 'bad'" in e.value.report() and "max_supplier_share" in e.value.report()
+
+
+# ----------------------------------------------------------------------------- identities on random cases
+
+@pytest.mark.parametrize("seed", range(4))
+def test_monotonicity_identities(seed):
+    """Identities that hold for any case (common practice of optimisation, no source: a relaxation
+    or restriction of the feasible set moves the optimum one way only)."""
+    case = random_case(seed)
+    base = cost(case)
+    b = base.objective
+    added = cost(apply_changes(case, sc("x", {"kind": "add_dc", "dc": "DX", "lat": 49.5, "lon": 6.0,
+                                              "fixed_cost": 20000.0})))
+    assert added.objective <= b * (1 + REL)  # adding a candidate never raises the optimum
+    loose = cost(apply_changes(case, sc("x", {"kind": "policy", "max_supplier_share": 0.8})))
+    tight = cost(apply_changes(case, sc("x", {"kind": "policy", "max_supplier_share": 0.5})))
+    assert b <= loose.objective * (1 + REL) <= tight.objective * (1 + 2 * REL)  # tightening never lowers
+    f = base.tables["flows"]
+    lane = f[f["destination_kind"] == "customer"].iloc[0]
+    change = {"kind": "close_lane", "origin": lane.origin, "destination": lane.destination}
+    lost = apply_changes(case, sc("x", change, {"kind": "policy", "allow_unmet_demand": True}))
+    redesign = cost(lost)
+    assert redesign.objective >= b * (1 - REL)  # removing a lane never lowers
+    held = solve(lost, hold=base.held_openings(), mip_gap=1e-9)
+    assert redesign.objective <= held.objective * (1 + REL)  # redesign ≤ hold the network
+
+
+# ----------------------------------------------------------------------------- closed form
+
+def test_recovery_cost_of_losing_a_lane_closed_form():
+    """One plant, one customer, demand q = 1,000 units/yr; direct road lane at 2.00/unit, air at 7.00/unit,
+    transit 0 days (no pipeline cost).  Losing the road lane moves everything to air:
+    recovery cost = q × (7 − 2) = 5,000/yr, the same held or redesigned (no DCs to change)."""
+    case = make_case({
+        "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 10.0}],
+        "suppliers": [],
+        "plants": [{"plant": "F", "product": "P", "lat": 48.0, "lon": 2.0}],
+        "dcs": [{"dc": "D", "lat": 45.0, "lon": 5.0, "fixed_cost": 1e9}],
+        "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
+        "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
+        "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False},
+                  {"mode": "air", "cost_per_tonne_km": 1.0, "speed_km_per_day": 5000, "generate_lanes": False}],
+        "lanes": [{"origin": "F", "destination": "C", "mode": "road", "cost_per_unit": 2.0, "transit_days": 0.0},
+                  {"origin": "F", "destination": "C", "mode": "air", "cost_per_unit": 7.0, "transit_days": 0.0}],
+    }, {"lanes": {"legs": ["plant-customer", "plant-dc", "dc-customer"], "prune_dominated": False},
+        "inventory": {"safety_stock": False}})
+    case.scenarios = [{"name": "road_lost", "resolve": "both",
+                       "change": [{"kind": "close_lane", "origin": "F", "destination": "C", "mode": "road"}]}]
+    run = run_scenarios(case)
+    comp = run.comparison.set_index("scenario")
+    assert comp.loc["base", "total_cost"] == pytest.approx(2000.0)
+    assert comp.loc["road_lost [hold]", "delta_cost"] == pytest.approx(5000.0)
+    assert comp.loc["road_lost [redesign]", "delta_cost"] == pytest.approx(5000.0)
+    assert comp.loc["road_lost [hold]", "method"] == "warm LP"
+
+
+# ----------------------------------------------------------------------------- warm = cold
+
+@pytest.mark.parametrize("seed", [0, 5])
+def test_warm_resolves_equal_cold_rebuilds(seed):
+    case = random_case(seed)
+    base = cost(case)
+    held = HeldNetwork(case, base)
+    assert held.base_info.objective == pytest.approx(base.objective, rel=1e-6)
+    f = base.tables["flows"]
+    changes_list = [
+        [{"kind": "close_lane", "origin": r.origin, "destination": r.destination}]
+        for r in f[f["destination_kind"] == "customer"].head(3).itertuples()
+    ] + [[{"kind": "site_out", "site": "S0"}], [{"kind": "scale_demand", "factor": 1.2}]]
+    for changes in changes_list:
+        s = sc("x", *changes, {"kind": "policy", "allow_unmet_demand": True})
+        c = apply_changes(case, s)
+        warm = held.solve(c, changes)
+        assert warm is not None and warm.verification.passed
+        cold = solve(c, hold=base.held_openings(), mip_gap=1e-9)
+        assert warm.objective == pytest.approx(cold.objective, rel=1e-6)
