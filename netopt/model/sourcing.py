@@ -4,7 +4,8 @@ Rules per receiving site (plant or DC) and material/product bought from supplier
 - no one supplier above ``policy.max_supplier_share`` of the site's supplier inflow;
 - no one supplier region above ``policy.max_region_share``;
 - at least ``policy.min_active_suppliers`` suppliers active, an active supplier
-  delivering at least ``policy.min_share_when_active`` of that inflow (binary ``active``).
+  delivering at least ``policy.min_share_when_active`` of that inflow (binary ``supplier_active``; the block is not
+  named ``active``, a reserved Pyomo block attribute).
 Cost: ``supply`` (purchase price × units bought, currency/yr).
 """
 
@@ -56,7 +57,7 @@ def add(b: Builder) -> None:
         sites, s_of_arc = group_index(sub, ["destination", "product"])
         g_site = pd.Series(s_of_arc).groupby(g).first().to_numpy(int)
         n_sup = np.bincount(g_site, minlength=len(sites))
-        b.add_vars("active", groups.rename(columns={"destination": "site", "origin": "supplier"}), binary=True)
+        b.add_vars("supplier_active", groups.rename(columns={"destination": "site", "origin": "supplier"}), binary=True)
         cap = net.suppliers.set_index(["supplier", "product"])["capacity"].reindex(
             pd.MultiIndex.from_frame(groups[["origin", "product"]])).to_numpy(float)
         need = _site_need_bound(b, sites)
@@ -64,7 +65,7 @@ def add(b: Builder) -> None:
         rows = np.arange(len(groups))
         # flow ≤ M × active
         b.add_rows("active_supplier_link", groups, [Term("flow", si, np.ones(len(si)), g),
-                                                    Term("active", rows, -big, rows)], "<=", 0.0)
+                                                    Term("supplier_active", rows, -big, rows)], "<=", 0.0)
         # flow ≥ min_share × site inflow − M × (1 − active)
         ms = float(pol["min_share_when_active"])
         arc_tab = pd.DataFrame({"site": s_of_arc, "arc": si})
@@ -73,10 +74,10 @@ def add(b: Builder) -> None:
         b.add_rows("active_supplier_min_share", groups,
                    [Term("flow", si, np.ones(len(si)), g),
                     Term("flow", cross["arc"].to_numpy(int), -ms * np.ones(len(cross)), cross["row"].to_numpy(int)),
-                    Term("active", rows, -bigm, rows)], ">=", -bigm)
+                    Term("supplier_active", rows, -bigm, rows)], ">=", -bigm)
         # Σ active ≥ min(k, suppliers available)
         b.add_rows("min_active_suppliers", sites.rename(columns={"destination": "site"}),
-                   [Term("active", rows, np.ones(len(rows)), g_site)], ">=", np.minimum(k, n_sup).astype(float))
+                   [Term("supplier_active", rows, np.ones(len(rows)), g_site)], ">=", np.minimum(k, n_sup).astype(float))
 
 
 def _site_need_bound(b: Builder, sites: pd.DataFrame) -> np.ndarray:
