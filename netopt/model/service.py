@@ -4,7 +4,8 @@
   transit days ≤ the class window ≥ τ × Σ deliveries.  (With lost demand allowed the
   target applies to what is delivered; lost units are priced by the penalty.)
 - Single sourcing: each (customer, product) is served from one origin (DC or plant):
-  binary ``assign`` per (origin, customer, product), flow = demand × assign.
+  binary ``assign`` per (origin, customer, product), flow = demand × assign
+  (flow ≤ demand × assign when lost demand is allowed).
 """
 
 from __future__ import annotations
@@ -39,9 +40,11 @@ def add(b: Builder) -> None:
         d = lookup(net.demand, groups, ["customer", "product"], ["destination", "product"])
         q = net.demand["quantity"].to_numpy(float)[d]
         rows = np.arange(len(groups))
-        b.add_rows("single_source_flow", groups, [Term("flow", last, np.ones(len(last)), g),
-                                                  Term("assign", rows, -q, rows)], "==", 0.0)
         allow = bool(net.settings["policy"]["allow_unmet_demand"]) or b.elastic
+        # With lost demand allowed the one origin may deliver part of the demand (the rest is
+        # lost at the penalty); "==" would force all-or-nothing per customer and product.
+        b.add_rows("single_source_flow", groups, [Term("flow", last, np.ones(len(last)), g),
+                                                  Term("assign", rows, -q, rows)], "<=" if allow else "==", 0.0)
         dem_rows = np.unique(d)
         remap = -np.ones(len(net.demand), int)
         remap[dem_rows] = np.arange(len(dem_rows))
