@@ -99,13 +99,17 @@ def expand_arcs(case: Case, lanes: pd.DataFrame) -> pd.DataFrame:
     return arcs.sort_values(["leg", "origin", "destination", "product", "mode"]).reset_index(drop=True)
 
 
-def prune_dominated(arcs: pd.DataFrame) -> tuple[pd.DataFrame, int]:
+def prune_dominated(arcs: pd.DataFrame, whole_lane: bool = False) -> tuple[pd.DataFrame, int]:
     """Drop arcs another mode beats on the same origin, destination and product.
 
     Arc a is dominated by arc b when b is uncapacitated and no worse in unit cost,
     transit days and CO2, and strictly better in one of them (ties: keep the first
     mode by name).  Any flow on a can then move to b without raising cost, slowing
     service or adding CO2, so the optimum is unchanged.
+
+    With ``whole_lane`` (one mode per lane) a mode is dropped from a lane only when one
+    other mode dominates it for every product it carries there: moving a single
+    product to another mode would put two modes on the lane.
     """
     if arcs.empty:
         return arcs, 0
@@ -127,7 +131,14 @@ def prune_dominated(arcs: pd.DataFrame) -> tuple[pd.DataFrame, int]:
                 | (pairs["transit_days_b"] < pairs["transit_days"] - eps)
                 | (pairs["co2_kg_per_unit_b"] < pairs["co2_kg_per_unit"] - eps)
                 | (pairs["mode_b"] < pairs["mode"]))
-    dominated = set(pairs.loc[no_worse & strictly, "_i"])
+    dom = pairs[no_worse & strictly]
+    if whole_lane and len(dom):
+        lane_mode = ["origin", "destination", "mode"]
+        carried = arcs.groupby(lane_mode).size().rename("_n")
+        by = dom.groupby(lane_mode + ["mode_b"]).size().rename("_k").reset_index().join(carried, on=lane_mode)
+        beaten = by.loc[by["_k"] == by["_n"], lane_mode].drop_duplicates()
+        dom = dom.merge(beaten, on=lane_mode)
+    dominated = set(dom["_i"])
     keep = ~arcs.index.isin(list(dominated))
     return arcs[keep].reset_index(drop=True), len(dominated)
 
@@ -203,7 +214,7 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
 
     pruned = {}
     if prune:
-        arcs, n = prune_dominated(arcs)
+        arcs, n = prune_dominated(arcs, whole_lane=bool(s["policy"]["one_mode_per_lane"]))
         pruned["dominated_mode_arcs"] = n
 
     make = t["plants"][["plant", "product", "capacity", "unit_cost"]].reset_index(drop=True)
