@@ -61,6 +61,12 @@ def _lane_bound(b: Builder, lm: pd.DataFrame) -> np.ndarray:
     by_cust = net.demand.groupby("customer")["quantity"].sum()
     total = net.total_demand
     if len(net.bom):
-        total *= max(1.0, float(net.bom["quantity_per_unit"].max()))
+        # Into a plant: every material of every product's bill, for all demand (one lane
+        # may carry several materials, so the largest quantity per unit is not enough).
+        by_product = net.demand.groupby("product")["quantity"].sum()
+        bom = net.bom
+        need = float((bom["quantity_per_unit"].to_numpy(float)
+                      * bom["product"].map(by_product).fillna(0.0).to_numpy(float)).sum())
+        total = max(total, need)
     dest_bound = lm["destination"].map(by_cust).fillna(total).to_numpy(float)
     return np.minimum(np.where(np.isfinite(c), c, np.inf), np.maximum(dest_bound, 1.0))
