@@ -113,6 +113,9 @@ _table(Table(
         _c("capacity", "float", "units/year", False, INF, "Most units this supplier can deliver per year; blank = no limit", min=0),
         _c("unit_cost", "float", "currency/unit", True, None, "Purchase price per unit, at the supplier", min=0),
         _c("lead_time_sd_days", "float", "days", False, 0.0, "Standard deviation of this supplier's lead time", min=0),
+        _c("time_to_recover_days", "float", "days", False, None,
+           "Days to restore this supplier after a disruption (rows of one supplier: the longest counts); "
+           "blank = settings' resilience.time_to_recover_days", min=0),
     ),
     key=("supplier", "product"),
     references=(Reference("product", "products", "product"),),
@@ -127,6 +130,9 @@ _table(Table(
         LAT, LON,
         _c("capacity", "float", "units/year", False, INF, "Most units of this product the plant can make per year", min=0),
         _c("unit_cost", "float", "currency/unit", False, 0.0, "Conversion cost per unit made (materials excluded)", min=0),
+        _c("time_to_recover_days", "float", "days", False, None,
+           "Days to restore this plant after a disruption (rows of one plant: the longest counts); "
+           "blank = settings' resilience.time_to_recover_days", min=0),
     ),
     key=("plant", "product"),
     references=(Reference("product", "products", "product"),),
