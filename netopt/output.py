@@ -50,46 +50,105 @@ def atomic_folder(target: str | Path):
         shutil.rmtree(old, ignore_errors=True)
 
 
+FORMULA_STARTS = ("=", "+", "-", "@", "\t", "\r")
+
+
 def safe_text(value):
-    """Text that a spreadsheet program will not run as a formula (leading =, +, -, @)."""
-    if isinstance(value, str) and value[:1] in ("=", "+", "-", "@", "\t", "\r"):
+    """Text for a CSV cell that a spreadsheet program will not run as a formula (leading =, +, -, @).
+
+    Prefixes an apostrophe, so the text changes; the workbook writer needs no prefix (see
+    :func:`_text_cell`).
+    """
+    if isinstance(value, str) and value[:1] in FORMULA_STARTS:
         return "'" + value
     return value
 
 
-def _number_format(col: str) -> str | None:
+def _text_cell(ws, row: int, column: int, text: str):
+    """Write ``text`` as a plain string cell, never a formula, whatever it starts with.
+
+    openpyxl turns a string starting with "=" into a formula; setting the data type back
+    to "s" stores it as text, and the quote-prefix style makes Excel and LibreOffice keep
+    it text when the cell is edited.  Characters XML cannot hold are dropped.
+    """
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    text = ILLEGAL_CHARACTERS_RE.sub("", text)
+    cell = ws.cell(row=row, column=column)
+    cell.value = text
+    cell.data_type = "s"
+    if text[:1] in FORMULA_STARTS:
+        cell.quotePrefix = True
+    return cell
+
+
+def _number_format(col: str, currency: str = "") -> str | None:
+    """Excel number format for a column, from its name: shares as %, days with 2 decimals, money."""
     c = col.lower()
     if any(h in c for h in SHARE_HINTS):
         return "0.0%"
     if any(h in c for h in DAY_HINTS):
-        return "0.00"
+        return '0.00" d"'
     if any(h in c for h in MONEY_HINTS):
-        return "#,##0"
+        return f'#,##0" {currency}"' if currency else "#,##0"
     return None
 
 
-def write_workbook(sheets: dict[str, pd.DataFrame], path: str | Path, notes: str | None = None) -> None:
-    """One sheet per table: bold header, frozen header row, number formats, column widths; values only."""
+def _unit_format(unit: str, currency: str = "") -> str:
+    """Excel number format for a value whose unit is given as text (e.g. the kpis table)."""
+    u = str(unit)
+    if "share" in u:
+        return "0.0%"
+    if u.startswith("days"):
+        return '0.00" d"'
+    if "currency" in u:
+        return "#,##0.00" if "/unit" in u else (f'#,##0" {currency}"' if currency else "#,##0")
+    return "#,##0.##" if u != "count" else "0"
+
+
+def _sheet_name(name: str, taken: set[str]) -> str:
+    """A valid, unique sheet name: no []:*?/\\, at most 31 characters."""
+    base = "".join("_" if ch in '[]:*?/\\' else ch for ch in str(name)).strip("'") or "sheet"
+    base = base[:31]
+    out, k = base, 2
+    while out.lower() in taken:
+        suffix = f"~{k}"
+        out, k = base[:31 - len(suffix)] + suffix, k + 1
+    taken.add(out.lower())
+    return out
+
+
+def write_workbook(sheets: dict[str, pd.DataFrame], path: str | Path, notes: str | None = None,
+                   currency: str = "") -> None:
+    """One sheet per table: bold header, frozen header row, number formats, column widths; values only.
+
+    Number formats follow column names (shares as %, days, money in ``currency``); a table
+    with ``value`` and ``unit`` columns is formatted row by row from the unit.  Text is
+    always stored as text, never as a formula (see :func:`_text_cell`).
+    """
     from openpyxl import Workbook
     from openpyxl.styles import Alignment, Font, PatternFill
 
     wb = Workbook()
     wb.remove(wb.active)
     header_fill = PatternFill("solid", fgColor="DCE6E4")
+    taken: set[str] = set()
     if notes:
-        ws = wb.create_sheet("about")
+        ws = wb.create_sheet(_sheet_name("about", taken))
         for i, line in enumerate(notes.splitlines(), start=1):
-            ws.cell(row=i, column=1, value=safe_text(line))
+            _text_cell(ws, i, 1, line)
         ws.column_dimensions["A"].width = 120
     for name, df in sheets.items():
-        ws = wb.create_sheet(name[:31])
+        ws = wb.create_sheet(_sheet_name(name, taken))
         cols = [str(c) for c in df.columns]
         for j, c in enumerate(cols, start=1):
-            cell = ws.cell(row=1, column=j, value=safe_text(c))
+            cell = _text_cell(ws, 1, j, c)
             cell.font = Font(bold=True)
             cell.fill = header_fill
             cell.alignment = Alignment(wrap_text=True, vertical="top")
-        fmts = [_number_format(c) for c in cols]
+        fmts = [_number_format(c, currency) for c in cols]
+        row_units = df["unit"].astype(str).tolist() if {"value", "unit"} <= set(cols) else None
+        value_col = cols.index("value") if row_units is not None else -1
         values = df.to_numpy(dtype=object)
         for i, row in enumerate(values, start=2):
             for j, v in enumerate(row, start=1):
@@ -105,17 +164,37 @@ def write_workbook(sheets: dict[str, pd.DataFrame], path: str | Path, notes: str
                     v = bool(v)
                 elif v is not None and not isinstance(v, (str, int, float, bool)):
                     v = str(v)
-                cell = ws.cell(row=i, column=j, value=safe_text(v))
-                if cell.data_type == "s":
-                    cell.data_type = "s"  # stored as text, never as a formula
-                f = fmts[j - 1]
+                if isinstance(v, str):
+                    _text_cell(ws, i, j, v)
+                    continue
+                cell = ws.cell(row=i, column=j, value=v)
+                f = _unit_format(row_units[i - 2], currency) if j - 1 == value_col else fmts[j - 1]
                 if f and isinstance(v, (int, float)) and not isinstance(v, bool):
                     cell.number_format = f
         ws.freeze_panes = "A2"
         for j, c in enumerate(cols, start=1):
-            sample = [len(str(c))] + [len(str(x)) for x in values[:200, j - 1]] if len(values) else [len(str(c))]
-            ws.column_dimensions[ws.cell(row=1, column=j).column_letter].width = min(45, max(9, max(sample) + 2))
+            sample = [len(str(c))] + [_shown_len(x) for x in values[:200, j - 1]] if len(values) else [len(str(c))]
+            extra = len(currency) + 1 if fmts[j - 1] and currency and "#,##0\"" in fmts[j - 1] else 0
+            width = min(45, max(9, max(sample) + 2 + extra))
+            ws.column_dimensions[ws.cell(row=1, column=j).column_letter].width = width
     wb.save(path)
+
+
+def _shown_len(v) -> int:
+    """Characters a value takes on screen (numbers with thousands separators, 2 decimals at most)."""
+    if isinstance(v, (float, np.floating)) and math.isfinite(float(v)):
+        return len(f"{float(v):,.2f}")
+    if isinstance(v, (int, np.integer)) and not isinstance(v, (bool, np.bool_)):
+        return len(f"{int(v):,}")
+    return len(str(v))
+
+
+def _currency_of(result) -> str:
+    """The case currency of a result (from its network's settings), or ""."""
+    try:
+        return str(result.network.settings["case"]["currency"])
+    except (AttributeError, KeyError, TypeError):
+        return ""
 
 
 def _jsonable(obj):
@@ -151,7 +230,7 @@ def write_result_files(result, folder: Path, workbook: bool = True) -> None:
             sheets["verification"] = result.verification.checks
         if result.diagnosis is not None:
             sheets["diagnosis"] = result.diagnosis
-        write_workbook(sheets, folder / "results.xlsx", notes=DISCLAIMER)
+        write_workbook(sheets, folder / "results.xlsx", notes=DISCLAIMER, currency=_currency_of(result))
 
 
 def write_result(result, out: str | Path, workbook: bool = True) -> Path:
@@ -210,7 +289,7 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         sheets = {"comparison": run.comparison}
         sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
         sheets.update(extra_sheets or {})
-        write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER)
+        write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER, currency=_currency_of(run.base))
         summary = {"case": run.base.case_name, "disclaimer": DISCLAIMER,
                    "scenarios": _jsonable(run.comparison.to_dict(orient="records")),
                    "base": _jsonable(run.base.summary())}

@@ -1,0 +1,473 @@
+"""The HTML report: self-contained, renders in a real browser, and shows the result tables' numbers."""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import re
+import shutil
+import subprocess
+import time
+from html.parser import HTMLParser
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from casekit import make_case_dir, tiny_rows
+from geographiclib.geodesic import Geodesic
+
+from netopt.api import Result
+from netopt.io import load_case
+from netopt.output import DISCLAIMER, write_run
+from netopt.report import map_layout, project, render_report, site_table, write_report
+from netopt.scenarios import run_scenarios
+
+HYPER = '=HYPERLINK("http://example.invalid/x","click")'  # a customer code a spreadsheet would run
+ODD_DC = "DC-PAR <i>&$x$</i>"  # HTML markup and matplotlib mathtext in a DC code
+FAR = ("GAD-FAR", 22.54, 114.06)  # a gadget supplier in south China, far from the European network
+
+SCENARIOS = """
+[[scenario]]
+name = "fra_closed"
+description = "The candidate DC stays closed"
+  [[scenario.change]]
+  kind = "force_dc"
+  dc = "DC-FRA"
+  to = "closed"
+
+[[scenario]]
+name = "demand_up"
+description = "Demand 20% higher"
+resolve = "both"
+  [[scenario.change]]
+  kind = "scale_demand"
+  factor = 1.2
+"""
+
+
+def report_case_dir(tmp_path) -> Path:
+    """The tiny case with a far supplier, odd site codes and two scenarios."""
+    rows = tiny_rows()
+    for r in rows["dcs"]:
+        if r["dc"] == "DC-PAR":
+            r["dc"] = ODD_DC
+    for table in ("customers", "demand"):
+        for r in rows[table]:
+            if r["customer"] == "CU-BRU":
+                r["customer"] = HYPER
+    rows["suppliers"].append({"supplier": FAR[0], "product": "gadget", "lat": str(FAR[1]), "lon": str(FAR[2]),
+                              "region": "asia", "capacity": "150", "unit_cost": "12", "lead_time_sd_days": "4"})
+    return make_case_dir(tmp_path, name="report_case", scenarios=SCENARIOS, **rows)
+
+
+@pytest.fixture(scope="module")
+def run(tmp_path_factory):
+    case = load_case(report_case_dir(tmp_path_factory.mktemp("case")))
+    return run_scenarios(case)
+
+
+@pytest.fixture(scope="module")
+def out(run, tmp_path_factory):
+    folder = tmp_path_factory.mktemp("out") / "results"
+    write_run(run, folder)
+    return folder
+
+
+@pytest.fixture(scope="module")
+def page(out):
+    return (out / "report.html").read_text(encoding="utf-8")
+
+
+# ----------------------------------------------------------------------------- parsing helpers
+
+class Tables(HTMLParser):
+    """Every <table id=...> of a page as rows of cell texts, plus elements' text by id (stdlib parser)."""
+
+    def __init__(self):
+        super().__init__(convert_charrefs=True)
+        self.tables: dict[str, list[list[str]]] = {}
+        self.by_id: dict[str, str] = {}
+        self.urls: list[tuple[str, str, str]] = []  # (tag, attribute, value) of every src/href-like attribute
+        self.tags: list[str] = []
+        self._table = None
+        self._row = None
+        self._cell = None
+        self._ids: list[tuple[str, int]] = []
+        self._depth = 0
+        self._text: dict[str, list[str]] = {}
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        self.tags.append(tag)
+        for k, v in attrs:
+            if k in ("src", "href", "xlink:href", "srcset", "data", "poster", "action", "background"):
+                self.urls.append((tag, k, v or ""))
+        if tag in ("br", "img", "meta", "link", "input", "hr", "source"):
+            return
+        self._depth += 1
+        if a.get("id"):
+            self._ids.append((a["id"], self._depth))
+            self._text[a["id"]] = []
+        if tag == "table":
+            self._table = a.get("id", f"table-{len(self.tables)}")
+            self.tables[self._table] = []
+        elif tag == "tr" and self._table is not None:
+            self._row = []
+        elif tag in ("td", "th") and self._row is not None:
+            self._cell = []
+
+    def handle_endtag(self, tag):
+        if tag in ("br", "img", "meta", "link", "input", "hr", "source"):
+            return
+        if tag in ("td", "th") and self._cell is not None:
+            self._row.append(" ".join("".join(self._cell).split()))
+            self._cell = None
+        elif tag == "tr" and self._row is not None:
+            self.tables[self._table].append(self._row)
+            self._row = None
+        elif tag == "table":
+            self._table = None
+        while self._ids and self._ids[-1][1] == self._depth:
+            i, _ = self._ids.pop()
+            self.by_id[i] = " ".join("".join(self._text[i]).split())
+        self._depth -= 1
+
+    def handle_data(self, data):
+        if self._cell is not None:
+            self._cell.append(data)
+        for i, _ in self._ids:
+            self._text[i].append(data)
+
+
+def parse(html: str) -> Tables:
+    p = Tables()
+    p.feed(html)
+    p.close()
+    return p
+
+
+def num(text: str) -> float:
+    """A number as the report shows it: thousands separators, %, a minus or a plus sign."""
+    t = text.replace(",", "").replace("−", "-").replace("+", "").strip()
+    if t in ("–", ""):
+        return float("nan")
+    if t.endswith("%"):
+        return float(t[:-1]) / 100.0
+    return float(t)
+
+
+def records(table: list[list[str]]) -> list[dict[str, str]]:
+    head, *body = table
+    return [dict(zip(head, row)) for row in body]
+
+
+# ----------------------------------------------------------------------------- self-contained
+
+def test_report_is_written_beside_the_run_outputs(out):
+    assert (out / "report.html").is_file()
+    assert (out / "results.xlsx").is_file() and (out / "comparison.csv").is_file()
+    assert not list(out.parent.glob(".results.tmp-*")), "the temporary folder was left behind"
+
+
+def test_report_is_self_contained(page):
+    p = parse(page)
+    # Nothing to fetch: no scripts, style sheets, frames or images by reference; the only references are
+    # in-page anchors (#...) of the table of contents and of the SVGs' own definitions.
+    assert not {"script", "link", "iframe", "img", "object", "embed"} & set(p.tags)
+    assert p.urls, "the page should at least have its table-of-contents anchors"
+    assert all(v.startswith("#") for _, _, v in p.urls), [u for u in p.urls if not u[2].startswith("#")]
+    assert not re.search(r"url\(\s*['\"]?(?!#)", page), "CSS url() other than an in-page reference"
+    assert "@import" not in page
+    assert page.count("<svg") >= 6, "the map and the charts are inline SVG"
+
+
+def test_header_names_case_status_gap_check_and_caution(run, page):
+    base = run.base
+    p = parse(page)
+    assert f"<h1>{base.case_name}</h1>" in page
+    assert p.by_id["solver-status"] == base.status
+    assert num(p.by_id["solver-gap"]) == pytest.approx(base.gap, abs=5e-6)  # shown as % with 3 decimals
+    v = base.verification
+    assert p.by_id["verification"].startswith("passed" if v.passed else "FAILED")
+    assert DISCLAIMER in " ".join(p.by_id["disclaimer"].split())
+    assert re.search(r"\d{4}-\d{2}-\d{2} \d{2}:\d{2}", page), "the date it was written"
+
+
+def test_site_codes_are_escaped_in_html_and_svg(page):
+    # The odd DC code is shown as text in the tables and on the map, never as markup.
+    assert "<i>&" not in page and "<i>" not in page
+    assert "DC-PAR &lt;i&gt;&amp;$x$&lt;/i&gt;" in page
+    assert page.count("&lt;i&gt;") >= 2  # table and map label
+
+
+# ----------------------------------------------------------------------------- numbers
+
+def test_cost_table_matches_the_result(run, page):
+    rows = {r["component"]: r for r in records(parse(page).tables["cost-table"])}
+    cost = run.base.cost
+    total = sum(cost.values())
+    currency = [k for k in rows[next(iter(rows))] if k.endswith("/yr")][0]
+    for k, v in cost.items():
+        shown = rows[k.replace("_", " ")]
+        assert num(shown[currency]) == pytest.approx(v, abs=0.5)  # whole currency units
+        assert num(shown["share"]) == pytest.approx(v / total, abs=5e-4)
+    assert num(rows["total"][currency]) == pytest.approx(total, abs=0.5)
+
+
+def test_dc_table_matches_the_result(run, page):
+    shown = {r["DC"]: r for r in records(parse(page).tables["dc-table"])}
+    d = run.base.tables["dcs"]
+    assert set(shown) == set(d["dc"])
+    for r in d.itertuples(index=False):
+        s = shown[r.dc]
+        assert s["decision"] == r.decision
+        assert num(s["throughput"]) == pytest.approx(r.throughput, abs=0.5)
+        assert num(s["capacity"]) == pytest.approx(r.capacity, abs=0.5) if math.isfinite(r.capacity) \
+            else s["capacity"] == "no limit"
+        if r.open and np.isfinite(r.utilisation):
+            assert num(s["utilisation"]) == pytest.approx(r.utilisation, abs=5e-4)
+        else:
+            assert s["utilisation"] == "–"
+
+
+def test_comparison_table_matches_the_run(run, page):
+    shown = {r["scenario"]: r for r in records(parse(page).tables["comparison-table"])}
+    comp = run.comparison
+    assert list(shown) == list(comp["scenario"])
+    for r in comp.itertuples(index=False):
+        s = shown[r.scenario]
+        assert num(s["total cost"]) == pytest.approx(r.total_cost, abs=0.5)
+        assert num(s["Δ vs base"]) == pytest.approx(r.delta_cost, abs=0.5)
+        assert num(s["Δ %"]) == pytest.approx(r.delta_pct, abs=5e-5)
+        assert num(s["in window"]) == pytest.approx(r.share_within_window, abs=5e-4)
+        assert num(s["lost units/yr"]) == pytest.approx(r.lost_units, abs=0.5)
+        assert num(s["CO2e t/yr"]) == pytest.approx(r.co2e_tonnes, abs=0.5)
+        assert s["checked"] == ("yes" if r.verified else "no")
+
+
+def test_comparison_colours_changes_beyond_the_gap(run, page):
+    # The demand scenario costs more than the base by far more than the optimality gap: its cost cells are red.
+    comp = run.comparison.set_index("scenario")
+    up = "demand_up [redesign]"
+    assert comp.loc[up, "delta_cost"] > 1e-3 * comp.loc["base", "total_cost"]
+    row = re.search(r"<tr><td[^>]*>demand_up \[redesign\]</td>(.*?)</tr>", page, re.S).group(1)
+    cells = re.findall(r'<td(?: class="([^"]*)")?>([^<]*)</td>', row)
+    total_cls = cells[0][0]
+    assert "worse" in total_cls.split()
+    base_row = re.search(r"<tr><td[^>]*>base</td>(.*?)</tr>", page, re.S).group(1)
+    assert "worse" not in base_row and "better" not in base_row
+
+
+def test_kpis_mode_mix_and_service_match(run, page):
+    p = parse(page)
+    k = run.base.tables["kpis"]
+    shown = {r["indicator"]: r for r in records(p.tables["kpi-table"])}
+    for r in k.itertuples(index=False):
+        s = shown[r.kpi.replace("_", " ")]
+        tol = 5e-4 if "share" in r.unit else 5e-3 if abs(r.value) < 100 else 0.5
+        assert num(s["value"]) == pytest.approx(r.value, abs=tol), r.kpi
+    mm = {r["mode"]: r for r in records(p.tables["mode-table"])}
+    for r in run.base.tables["mode_mix"].itertuples(index=False):
+        assert num(mm[r.mode]["tonne-km/yr"]) == pytest.approx(r.tonne_km, abs=0.5)
+        assert num(mm[r.mode]["units/yr"]) == pytest.approx(r.units, abs=0.5)
+    # The share within the window, recomputed here from the flows (units to customers on in-window lanes).
+    f = run.base.tables["flows"]
+    last = f[f["destination_kind"] == "customer"]
+    share = last.loc[last["within_window"], "quantity"].sum() / last["quantity"].sum()
+    assert num(p.by_id["within-share"]) == pytest.approx(share, abs=5e-4)
+
+
+def test_map_shows_sites_modes_and_the_far_supplier(run, page):
+    svg = re.search(r'<section id="network".*?</section>', page, re.S).group(0)
+    for m in run.base.tables["mode_mix"]["mode"]:
+        assert f">{m}<" in svg, f"mode {m} missing from the legend"
+    assert "GAD-FAR" in svg and "off map" in svg, "the far supplier is pinned to the edge with a label"
+    assert "Overview" in svg
+    for dc in run.base.tables["dcs"].query("open")["dc"]:
+        assert dc.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;") in svg
+
+
+# ----------------------------------------------------------------------------- map geometry
+
+def test_projection_keeps_shape_near_the_centre():
+    # Equirectangular with x = Δlon·cos(lat0): at the centre, one degree east over one degree north must
+    # have the true ratio of ground distances. Reference: geodesics on the WGS84 ellipsoid (geographiclib,
+    # Karney 2013); the sphere's cos(lat0) differs from it by under 0.7% (ellipsoid flattening 1/298.257).
+    g = Geodesic.WGS84
+    for lat0, lon0 in ((49.8, 10.0), (5.0, 100.0), (-33.9, 18.4), (64.1, -21.9)):
+        x, y = project([lat0, lat0, lat0 + 0.01], [lon0, lon0 + 0.01, lon0], lat0, lon0)
+        ratio_map = (x[1] - x[0]) / (y[2] - y[0])
+        east = g.Inverse(lat0, lon0, lat0, lon0 + 0.01)["s12"]
+        north = g.Inverse(lat0 - 0.005, lon0, lat0 + 0.005, lon0)["s12"]
+        assert ratio_map == pytest.approx(east / north, rel=7e-3)
+
+
+def test_projection_wraps_longitude_across_the_date_line():
+    # 179°E and 179°W are 2° of longitude apart (common practice, no source: longitudes are modulo 360°).
+    x, _ = project([0.0, 0.0], [179.0, -179.0], 0.0, 179.0)
+    assert x[1] - x[0] == pytest.approx(2.0)
+
+
+def test_far_sites_are_pinned_to_the_map_edge_in_their_direction(run):
+    s = site_table(run.base)
+    lay = map_layout(s)
+    sites, (x0, x1, y0, y1) = lay["sites"], lay["extent"]
+    far = sites[sites["far"]]
+    assert list(far["site"]) == [FAR[0]], "only the supplier in China is far from the European network"
+    near = sites[~sites["far"]]
+    assert near["x"].between(x0, x1).all() and near["y"].between(y0, y1).all()
+    assert (near["px"] == near["x"]).all() and (near["py"] == near["y"]).all()
+    r = far.iloc[0]
+    assert x0 < r.px < x1 and y0 < r.py < y1
+    # On the edge it points to: near the east side of the frame, since China lies east of Europe.
+    assert x1 - r.px < 0.05 * (x1 - x0)
+    # Same bearing from the frame's centre as the true position (within the spreading of crowded edges).
+    cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+    true = math.atan2(r.y - cy, r.x - cx)
+    drawn = math.atan2(r.py - cy, r.px - cx)
+    assert abs(true - drawn) < math.radians(2)
+
+
+# ----------------------------------------------------------------------------- other inputs
+
+def test_single_result_report(run, tmp_path):
+    path = write_report(run.base, tmp_path / "report.html")
+    page = path.read_text(encoding="utf-8")
+    p = parse(page)
+    assert "comparison-table" not in p.tables
+    assert "cost-table" in p.tables and "dc-table" in p.tables
+    assert not list(tmp_path.glob(".report.html.tmp-*"))
+
+
+def test_extra_tables_get_titled_sections_and_a_frontier_chart(run, tmp_path):
+    frontier = pd.DataFrame({"carbon_price": [0.0, 50.0, 100.0], "total_cost": [1.0e6, 1.02e6, 1.05e6],
+                             "co2e_tonnes": [900.0, 700.0, 610.0]})
+    spof = pd.DataFrame({"element": ["PL-LYON", "ORE-N"], "recovery_cost": [12345.0, 678.0],
+                         "lost_units": [1500.0, 0.0], "lost_value": [90000.0, 0.0], "impact": [102345.0, 678.0]})
+    page = write_report(run, tmp_path / "r.html", extra={"frontier": frontier, "spof": spof}).read_text("utf-8")
+    p = parse(page)
+    assert "Cost–CO2e frontier" in page and "Single points of failure" in page
+    front = re.search(r'<section id="extra-frontier".*?</section>', page, re.S).group(0)
+    assert "<svg" in front, "a frontier with cost and CO2 columns is charted"
+    spof_sec = re.search(r'<section id="extra-spof".*?</section>', page, re.S).group(0)
+    assert "<svg" in spof_sec and "PL-LYON" in spof_sec, "a ranking with an impact column is charted"
+    shown = records(p.tables["table-spof"])
+    assert [r["element"] for r in shown] == ["PL-LYON", "ORE-N"]
+    assert num(shown[0]["recovery cost"]) == pytest.approx(12345.0, abs=0.5)
+    assert [num(r["co2e tonnes"]) for r in records(p.tables["table-frontier"])] == [900.0, 700.0, 610.0]
+
+
+def test_report_of_a_run_without_a_plan():
+    diag = pd.DataFrame({"rule": ["demand_met"], "where": ["customer X, product Y"], "amount": [120.0],
+                         "meaning": ["units/yr of demand that cannot be delivered"]})
+    r = Result(case_name="no plan", status="infeasible", objective=float("nan"), bound=float("nan"),
+               gap=float("inf"), diagnosis=diag)
+    p = parse(render_report(r))
+    assert p.by_id["solver-status"] == "infeasible"
+    assert records(p.tables["diagnosis"])[0]["where"] == "customer X, product Y"
+
+
+def test_solve_verb_writes_report_and_json(tmp_path, capsys):
+    from netopt.commands import cmd_solve
+
+    case = report_case_dir(tmp_path)
+    args = argparse.Namespace(case=str(case), out=str(tmp_path / "solved"), time_limit=None, gap=None, threads=None,
+                              json=True, quiet=False, no_report=False)
+    code = cmd_solve(args)
+    summary = json.loads(capsys.readouterr().out)  # --json: stdout is JSON and nothing else
+    assert summary["status"] == "optimal"
+    assert code == (0 if summary["verified"] else 4)
+    assert (tmp_path / "solved" / "report.html").is_file()
+    assert (tmp_path / "solved" / "results.xlsx").is_file()
+
+
+def test_run_verb_json_and_quiet(tmp_path, capsys):
+    from netopt.commands import cmd_run
+
+    case = report_case_dir(tmp_path)
+
+    def args(**kw):
+        base = dict(case=str(case), out=str(tmp_path / "ran"), time_limit=None, gap=None, threads=None, json=False,
+                    quiet=False, no_report=False, only="fra_closed", cold=False, list=False)
+        return argparse.Namespace(**(base | kw))
+
+    code = cmd_run(args(json=True))
+    rows = json.loads(capsys.readouterr().out)  # --json: the comparison as JSON records, nothing else on stdout
+    assert [r["scenario"] for r in rows] == ["base", "fra_closed"]
+    assert code == (0 if all(r["verified"] for r in rows) else 4)
+    assert (tmp_path / "ran" / "report.html").is_file()
+    cmd_run(args(quiet=True, out=str(tmp_path / "quiet"), no_report=True))
+    assert capsys.readouterr().out == ""  # --quiet: nothing on stdout
+    assert not (tmp_path / "quiet" / "report.html").exists()  # --no-report is honoured
+
+
+def test_report_is_fast(run, tmp_path):
+    # The report of a small run is written in a few seconds (CPU time: a busy CI machine does not count).
+    t0 = time.process_time()
+    write_report(run, tmp_path / "r.html")
+    assert time.process_time() - t0 < 10.0
+
+
+# ----------------------------------------------------------------------------- in a real browser
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+needs_chromium = pytest.mark.skipif(CHROMIUM is None, reason="no browser: install Debian's chromium package "
+                                                             "(apt-get install chromium) to run this test")
+
+
+def open_headless(html_file: Path, work: Path, height: int = 3000) -> dict:
+    """Open a page in headless Chromium; return its screenshot (RGB array), the page's own network
+    requests (from Chromium's net log) and its console messages."""
+    shot, netlog = work / "shot.png", work / "netlog.json"
+    cmd = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
+           "--disable-component-update", "--disable-sync", "--no-first-run", "--hide-scrollbars",
+           "--host-resolver-rules=MAP * ~NOTFOUND", "--enable-logging=stderr", "--v=0",
+           f"--log-net-log={netlog}", f"--user-data-dir={work / 'profile'}", f"--screenshot={shot}",
+           f"--window-size=1300,{height}", html_file.resolve().as_uri()]
+    proc = subprocess.run(cmd, capture_output=True, text=True, timeout=180)
+    assert shot.is_file(), proc.stderr[-2000:]
+    from matplotlib.image import imread
+
+    img = imread(str(shot))[:, :, :3]
+    log = json.loads(netlog.read_text(encoding="utf-8"))
+    kinds = {v: k for k, v in log["constants"]["logEventTypes"].items()}
+    page_requests = set()
+    for e in log["events"]:
+        p = e.get("params") or {}
+        if kinds.get(e["type"]) == "URL_REQUEST_START_JOB" and "url" in p:
+            # Requests made for the page carry the page's site (file://) in their isolation key; the
+            # browser's own background requests carry none.
+            ours = "file://" in str(p.get("network_isolation_key", ""))
+            if ours or p.get("initiator") not in (None, "not an origin"):
+                page_requests.add(p["url"])
+    console = [ln for ln in proc.stderr.splitlines() if ":CONSOLE" in ln]
+    return {"image": img, "requests": page_requests, "console": console}
+
+
+@needs_chromium
+def test_report_renders_in_a_browser(out, tmp_path):
+    seen = open_headless(out / "report.html", tmp_path)
+    img = seen["image"]
+    assert img.shape[0] >= 2000 and img.shape[1] == 1300
+    # Not blank: many colours, and a good part of the page differs from its most common (background) colour.
+    flat = (img * 255).round().astype(np.uint8).reshape(-1, 3)
+    colours, counts = np.unique(flat, axis=0, return_counts=True)
+    assert len(colours) > 200
+    assert 1 - counts.max() / counts.sum() > 0.15
+    # The dark header band is drawn at the top (the CSS was applied).
+    assert img[20:60, :, :].mean() < 0.35
+    assert seen["requests"] == set(), f"the page fetched: {seen['requests']}"
+    assert seen["console"] == [], seen["console"]
+
+
+@needs_chromium
+def test_browser_check_catches_fetches_and_errors(tmp_path):
+    # The same check on a page that fetches an image and logs an error must report both (so it can fail).
+    bad = tmp_path / "bad.html"
+    bad.write_text('<!DOCTYPE html><html><body><p>x</p><img src="http://example.invalid/a.png">'
+                   '<script>console.error("broken")</script></body></html>', encoding="utf-8")
+    seen = open_headless(bad, tmp_path, height=600)
+    assert "http://example.invalid/a.png" in seen["requests"]
+    assert any("broken" in ln for ln in seen["console"])
