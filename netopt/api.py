@@ -14,7 +14,9 @@ import numpy as np
 import pandas as pd
 
 from netopt.case import Case
+from netopt.inventory_report import safety_stock_extra_cost
 from netopt.model import COST_COMPONENTS, build_model
+from netopt.model.safety_stock import prepare_solve
 from netopt.network import Network, build_network
 from netopt.results import build_tables
 from netopt.solver import HighsModel, SolveInfo, compile_model
@@ -158,6 +160,10 @@ def solve(case: Case, *, time_limit: float | None = None, mip_gap: float | None 
         info = SolveInfo("infeasible", float("nan"), float("nan"), float("inf"), 0.0,
                          message=f"{len(b.empty_infeasible)} rule(s) with no variable cannot hold")
     else:
+        aids = prepare_solve(hm, time_limit=time_limit, mip_gap=mip_gap)  # safety-stock binaries only
+        if aids:
+            timings["safety_stock_aids"] = aids["seconds"]
+            size["pooling_cuts"] = int(aids["cuts"])
         info = hm.solve(time_limit=time_limit, mip_gap=mip_gap, threads=threads, progress=cb)
     timings["highs"] = info.solver_seconds
 
@@ -173,7 +179,8 @@ def solve(case: Case, *, time_limit: float | None = None, mip_gap: float | None 
         t0 = time.perf_counter()
         objective = float(info.objective)
         res.verification = verify(case, lanes, res.tables, objective, fixed_open=None if hold is None else
-                                  {d: bool(v) for d, v in hold.items()})
+                                  {d: bool(v) for d, v in hold.items()},
+                                  extra_cost=safety_stock_extra_cost(res.tables))
         timings["verify"] = time.perf_counter() - t0
         say("verified", {"passed": res.verification.passed, "largest": res.verification.largest_violation})
     elif info.status in ("infeasible", "unbounded") and diagnose:

@@ -30,7 +30,10 @@ class Network:
         make: one row per (plant, product): capacity, unit_cost.
         options: one row per DC opening option: dc, size, capacity, fixed_cost, status,
             closing_cost, force.
-        demand: one row per (customer, product): quantity, penalty (currency/unit).
+        demand: one row per (customer, product): quantity, penalty (currency/unit),
+            demand_cv (ratio: the demand row's, else the product's, else 0; for safety stock).
+        arcs_all: the arcs before dominated modes were pruned (same columns as ``arcs``),
+            for reports that show every admissible mode of a lane.
         customers: customer, service_class, max_days, target_share.
         bom: product, material, quantity_per_unit.
         total_demand: units/yr of all finished products.
@@ -47,6 +50,7 @@ class Network:
     suppliers: pd.DataFrame
     settings: dict
     pruned: dict = field(default_factory=dict)
+    arcs_all: pd.DataFrame | None = None
 
     @property
     def total_demand(self) -> float:
@@ -213,6 +217,7 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
     arcs["within_window"] = arcs["destination_kind"].eq("customer") & (arcs["transit_days"] <= window + 1e-9)
 
     pruned = {}
+    arcs_all = arcs
     if prune:
         arcs, n = prune_dominated(arcs, whole_lane=bool(s["policy"]["one_mode_per_lane"]))
         pruned["dominated_mode_arcs"] = n
@@ -229,11 +234,13 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
     options = options.sort_values(["dc", "size"], key=lambda c: c.map(order) if c.name == "dc" else c)
     options = options.reset_index(drop=True)
 
-    dem = t["demand"][t["demand"]["quantity"] > 0][["customer", "product", "quantity"]].reset_index(drop=True)
+    dem = t["demand"][t["demand"]["quantity"] > 0][["customer", "product", "quantity", "demand_cv"]].reset_index(drop=True)
+    product_cv = pd.to_numeric(dem["product"].map(pinfo["demand_cv"]), errors="coerce")
+    dem["demand_cv"] = pd.to_numeric(dem["demand_cv"], errors="coerce").fillna(product_cv).fillna(0.0).astype(float)
     penalty = float(s["policy"]["unmet_penalty_per_unit"])
     dem["penalty"] = penalty if penalty > 0 else 2.0 * dem["product"].map(pinfo["unit_value"]).astype(float)
 
     return Network(arcs=arcs, make=make, options=options, demand=dem, customers=customers,
                    bom=t["bill_of_materials"][["product", "material", "quantity_per_unit"]].reset_index(drop=True),
                    dcs=dcs, products=products.reset_index(drop=True),
-                   suppliers=t["suppliers"].reset_index(drop=True), settings=s, pruned=pruned)
+                   suppliers=t["suppliers"].reset_index(drop=True), settings=s, pruned=pruned, arcs_all=arcs_all)

@@ -8,6 +8,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from netopt.inventory_report import inventory_kpis, pipeline_table, safety_stock_table
+from netopt.mode_economics import mode_economics
 from netopt.network import Network
 
 TABLE_DOCS = {
@@ -20,6 +22,13 @@ TABLE_DOCS = {
     "unmet": "Demand not served (units/yr) and its penalty value",
     "cost": "Annual landed cost by component (currency/yr); rows sum to the total",
     "kpis": "Headline indicators with units",
+    "safety_stock": "Per DC and product: throughput (units/yr), the model's piecewise-linear safety stock and the "
+                    "exact formula for the customers served (units), approximation errors (ratio), cost (currency/yr)",
+    "pipeline": "In-transit stock per lane, mode and product by Little's law: units, value (currency), cost (currency/yr)",
+    "inventory_kpis": "Safety and in-transit stock per DC and for the network: value (currency), days of throughput, "
+                      "turns per year (cycle stock not modelled)",
+    "mode_economics": "Every admissible mode of each used lane and product: cost per unit and per year if all went "
+                      "by it, transit days, CO2e, the chosen mode and the cost of switching (currency/yr)",
 }
 
 EPS = 1e-7
@@ -119,6 +128,10 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
 
     cost_tab = pd.DataFrame({"component": list(cost), "amount": list(cost.values())})
     t["cost"] = cost_tab
+    t["safety_stock"] = safety_stock_table(net, flows, values)
+    t["pipeline"] = pipeline_table(net, flows)
+    t["inventory_kpis"] = inventory_kpis(net, flows, t["safety_stock"], t["pipeline"])
+    t["mode_economics"] = mode_economics(net, flows)
     t["kpis"] = kpis(net, t, cost)
     return t
 
@@ -161,4 +174,21 @@ def kpis(net: Network, t: dict[str, pd.DataFrame], cost: dict[str, float]) -> pd
          "days of sales at unit value"),
         ("co2e_tonnes", float(flows["co2_kg"].sum() / 1000.0), "t CO2e/yr"),
     ]
+    ss = t.get("safety_stock")
+    if ss is not None:
+        rows += [
+            ("safety_stock_units", float(ss["ss_units_exact"].sum()), "units (exact formula, customers served)"),
+            ("safety_stock_cost_model", float(ss["cost_model"].sum()), "currency/yr (piecewise-linear, in the objective)"),
+            ("safety_stock_cost_exact", float(ss["cost_exact"].sum()), "currency/yr (exact formula)"),
+            ("safety_stock_pwl_max_rel_error", float(ss["max_rel_error"].max()) if len(ss) else 0.0,
+             "ratio (curve vs. its piecewise-linear form, over the breakpoint range)"),
+        ]
+    inv = t.get("inventory_kpis")
+    if inv is not None and len(inv):
+        nw = inv[inv["level"] == "network"].iloc[0]
+        rows += [
+            ("network_inventory_value", float(nw["inventory_value"]), "currency (safety + in-transit stock)"),
+            ("network_inventory_days", float(nw["days_incl_transit"]), "days of sales at unit value"),
+            ("network_inventory_turns", float(nw["turns"]), "per year"),
+        ]
     return pd.DataFrame(rows, columns=["kpi", "value", "unit"])

@@ -15,6 +15,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+from netopt.emission_factors import schema_note as emission_schema_note
+
 INF = math.inf
 
 
@@ -236,7 +238,9 @@ _table(Table(
         _c("speed_km_per_day", "float", "km/day", True, None, "Door-to-door travelling speed", min=1e-9),
         _c("handling_days", "float", "days", False, 0.0, "Days added per shipment for loading, transfer, customs", min=0),
         _c("circuity", "float", "ratio", False, 1.0, "Route km per great-circle km", min=1),
-        _c("co2_kg_per_tonne_km", "float", "kg CO2e/(t·km)", False, 0.0, "Emission factor", min=0),
+        _c("co2_kg_per_tonne_km", "float", "kg CO2e/(t·km)", False, 0.0,
+           "Emission factor per tonne-km of route distance (CO2e = tonnes × km × factor); blank = 0. "
+           + emission_schema_note(), min=0),
         _c("min_km", "float", "km", False, 0.0, "Shortest lane this mode is used on", min=0),
         _c("max_km", "float", "km", False, INF, "Longest lane this mode is used on", min=0),
         _c("generate_lanes", "bool", "", False, True,
@@ -327,9 +331,13 @@ SETTINGS: tuple[Setting, ...] = (
             "Annual inventory carrying rate (capital, storage, risk)", min=0, max=5),
     Setting("inventory", "cycle_service_level", "float", "probability", 0.95,
             "Chance of no stock-out per replenishment cycle, for safety stock", min=0.5, max=0.99999),
-    Setting("inventory", "safety_stock", "bool", "", True, "Include safety stock at DCs in the cost"),
+    Setting("inventory", "safety_stock", "bool", "", True,
+            "Include safety stock at DCs in the cost: z·√(L·σd² + d²·σL²) per DC and product, pooled over the "
+            "customers served (square-root law), as a piecewise-linear curve of the DC's throughput"),
     Setting("inventory", "safety_stock_breakpoints", "int", "", 12,
-            "Breakpoints of the piecewise-linear safety-stock curve", min=2),
+            "Breakpoints of each DC's piecewise-linear safety-stock curve, 0 included, spaced geometrically from the "
+            "smallest customer demand to the DC's largest throughput; more = smaller error (reported), slower solve",
+            min=2),
     Setting("lanes", "legs", "list", "", ["supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer"],
             "Legs for which lanes are generated from coordinates: " + ", ".join(LEGS)),
     Setting("lanes", "max_dc_customer_km", "float", "km", -1.0,

@@ -1,0 +1,214 @@
+"""Cost–CO2 trade-off curve by the epsilon-constraint method.
+
+``frontier(case, points=N)`` returns N networks from the cost-optimal one to the CO2-minimal one:
+
+1. the cost-optimal solve (the case's own rules; a CO2 cap in the case stays the loosest cap):
+   total cost C* (currency/yr), transport CO2e E_max (t/yr);
+2. the CO2-minimal solve: minimise transport CO2e alone, with lost demand held at most at
+   the cost-optimal solve's (otherwise dropping demand would be the "greenest" network): E_min;
+3. for caps ε between E_min and E_max (evenly spaced; the last is E_min itself), minimise cost
+   subject to CO2e ≤ ε.  The caps are solved from the tightest to the loosest, each started from
+   the previous (tighter) network, which is feasible for the looser cap, so the costs found never
+   rise as the cap loosens: cost is non-decreasing down the table as the cap tightens.
+
+All solves share one compiled model in one HiGHS instance; only the objective, the cap row's
+bound and start solutions change.  Every point is checked by :func:`netopt.verify.verify`
+against the case with that cap.  Row 0 is the cost-optimal network, row N−1 the CO2-minimal one.
+
+Columns: point, co2_cap_t (t CO2e/yr; the cost-optimal point: the case's cap, NaN if none),
+co2_t, total_cost (currency/yr), delta_cost and delta_co2_t against the cost-optimal point,
+cost_per_t_abated (currency per t between this point and the previous one), dcs_open,
+dcs_open_names, safety_stock_cost, lost_units, tkm_share_<mode> (share of tonne-km by mode),
+mode_mix (text), status, gap, verified.
+
+In a ``scenarios.toml`` a scenario may ask for its frontier with ``frontier_points = N``
+(:func:`scenario_frontier`).
+"""
+
+from __future__ import annotations
+
+import copy
+from dataclasses import dataclass, field
+
+import highspy
+import numpy as np
+import pandas as pd
+
+from netopt.case import Case
+
+INF = highspy.kHighsInf
+CAP_TOL_REL = 1e-9  # slack on each cap (relative), so the previous network stays feasible
+CAP_TOL_ABS = 1e-6  # t CO2e
+
+
+@dataclass
+class FrontierRun:
+    """The frontier table and each point's result tables (same order)."""
+
+    table: pd.DataFrame
+    tables: list[dict[str, pd.DataFrame]] = field(default_factory=list)
+
+
+def _with_cap(case: Case, cap: float) -> Case:
+    settings = copy.deepcopy(case.settings)
+    settings["policy"]["co2_cap_tonnes"] = float(cap)
+    return Case(case.name, case.tables, settings, case.path, case.scenarios, case.warnings)
+
+
+def sweep(case: Case, points: int = 5, *, time_limit: float | None = None, mip_gap: float | None = None,
+          progress=None) -> FrontierRun:
+    """Solve the epsilon-constraint sweep (see module docstring); ``points`` ≥ 2 networks."""
+    from netopt.inventory_report import safety_stock_extra_cost
+    from netopt.lanes import build_lanes
+    from netopt.model import COST_COMPONENTS, build_model
+    from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
+    from netopt.network import build_network
+    from netopt.results import build_tables
+    from netopt.solver import compile_model
+    from netopt.verify import verify
+
+    points = int(points)
+    if points < 2:
+        raise ValueError("a frontier needs at least 2 points (the cost-optimal and the CO2-minimal network)")
+    say = progress or (lambda event, info=None: None)
+    sset = case.settings["solver"]
+    time_limit = float(sset["time_limit_s"] if time_limit is None else time_limit)
+    mip_gap = float(sset["mip_gap"] if mip_gap is None else mip_gap)
+    case_cap = float(case.settings["policy"]["co2_cap_tonnes"])
+
+    lanes = build_lanes(case)
+    # Build with a cap row (its bound is set per solve below).
+    net = build_network(_with_cap(case, 1e15), lanes)
+    b = build_model(net)
+    hm = compile_model(b)
+    h = hm.highs
+    if b.empty_infeasible:
+        return FrontierRun(pd.DataFrame([{"point": 0, "status": "infeasible", "verified": False}]))
+    prepare_solve(hm, time_limit=time_limit, mip_gap=mip_gap)
+    comp = getattr(b.model, "co2_cap", None)
+    row = hm.row(comp[0]) if comp is not None and 0 in comp else -1
+    flow_cols = hm.col_of["flow"]
+    co2_t = net.arcs["co2_kg_per_unit"].to_numpy(float) / 1000.0
+    lp = h.getLp()
+    n = int(lp.num_col_)
+    cost_vec = np.asarray(lp.col_cost_, dtype=float)
+
+    def set_cap(cap: float) -> None:
+        if row >= 0:
+            h.changeRowBounds(row, -INF, INF if cap < 0 else cap * (1 + CAP_TOL_REL) + CAP_TOL_ABS)
+
+    def co2_of(x: np.ndarray) -> float:
+        m = flow_cols >= 0
+        return float(co2_t[m] @ x[flow_cols[m]])
+
+    def run(start: np.ndarray | None, cuts: bool = False):
+        if cuts:  # pooling cuts at the LP optimum under the new cap (safety-stock models only)
+            add_pooling_cuts(hm)
+        if start is not None:
+            sol = highspy.HighsSolution()
+            sol.col_value = start.tolist()
+            sol.value_valid = True
+            h.setSolution(sol)
+        return hm.solve(time_limit=time_limit, mip_gap=mip_gap)
+
+    results: list[tuple[float, object, np.ndarray | None]] = []  # (cap, info, x)
+
+    # 1. Cost-optimal under the case's own rules.
+    set_cap(case_cap)
+    say("frontier", {"point": "cost-optimal"})
+    info0 = run(None)
+    if not info0.has_solution:
+        return FrontierRun(pd.DataFrame([{"point": 0, "status": info0.status, "verified": False}]))
+    x0 = np.asarray(h.getSolution().col_value, dtype=float)
+    e_max = co2_of(x0)
+
+    # 2. CO2-minimal: objective = t CO2e, lost demand held at the cost optimum's.
+    say("frontier", {"point": "CO2-minimal"})
+    co2_obj = np.zeros(n)
+    m = flow_cols >= 0
+    co2_obj[flow_cols[m]] = co2_t[m]
+    all_cols = np.arange(n, dtype=np.int32)
+    h.changeColsCost(n, all_cols, co2_obj)
+    unmet_cols = hm.col_of.get("unmet", np.zeros(0, np.int64))
+    unmet_cols = unmet_cols[unmet_cols >= 0].astype(np.int32)
+    lo = np.asarray(lp.col_lower_, dtype=float)
+    hi = np.asarray(lp.col_upper_, dtype=float)
+    if len(unmet_cols):
+        h.changeColsBounds(len(unmet_cols), unmet_cols, lo[unmet_cols], np.minimum(hi[unmet_cols], x0[unmet_cols]))
+    info_min = run(x0)
+    x_min = np.asarray(h.getSolution().col_value, dtype=float) if info_min.has_solution else x0
+    h.changeColsCost(n, all_cols, cost_vec)
+    if len(unmet_cols):
+        h.changeColsBounds(len(unmet_cols), unmet_cols, lo[unmet_cols], hi[unmet_cols])
+    e_min = min(co2_of(x_min), e_max)
+
+    # 3. Caps from the tightest to the loosest, each started from the previous network.
+    caps = [e_max + (e_min - e_max) * k / (points - 1) for k in range(points)]
+    start = x_min
+    for k in range(points - 1, 0, -1):
+        say("frontier", {"point": k, "cap_t": caps[k]})
+        set_cap(caps[k])
+        info = run(start, cuts=True)
+        x = np.asarray(h.getSolution().col_value, dtype=float) if info.has_solution else None
+        results.append((caps[k], info, x))
+        if x is not None:
+            start = x
+    results.append((case_cap if case_cap >= 0 else np.nan, info0, x0))
+    results.reverse()
+
+    rows, point_tables = [], []
+    base_cost = base_co2 = None
+    for k, (cap, info, x) in enumerate(results):
+        row_ = {"point": k, "co2_cap_t": cap, "status": info.status, "gap": info.gap}
+        if x is None:
+            rows.append(row_ | {"verified": False})
+            point_tables.append({})
+            continue
+        values = {name: np.where(cols >= 0, x[np.maximum(cols, 0)], 0.0) for name, cols in hm.col_of.items()}
+        cost = b.component_values(values)
+        cost = {c: float(cost.get(c, 0.0)) for c in COST_COMPONENTS} | {c: v for c, v in cost.items()
+                                                                          if c not in COST_COMPONENTS}
+        tables = build_tables(net, values, cost)
+        check_case = _with_cap(case, cap * (1 + CAP_TOL_REL) + CAP_TOL_ABS) if cap == cap else case
+        ver = verify(check_case, lanes, tables, float(info.objective), extra_cost=safety_stock_extra_cost(tables))
+        total = float(sum(cost.values()))
+        co2 = float(tables["flows"]["co2_kg"].sum() / 1000.0)
+        if base_cost is None:
+            base_cost, base_co2 = total, co2
+        d = tables["dcs"]
+        mm = tables["mode_mix"]
+        row_.update({
+            "co2_t": co2, "total_cost": total, "delta_cost": total - base_cost, "delta_co2_t": co2 - base_co2,
+            "dcs_open": int(d["open"].sum()), "dcs_open_names": " ".join(d.loc[d["open"], "dc"]),
+            "safety_stock_cost": cost.get("safety_stock", 0.0),
+            "lost_units": float(tables["unmet"]["lost_units"].sum()) if len(tables["unmet"]) else 0.0,
+        })
+        for mode, share in zip(mm["mode"], mm["share_of_tonne_km"]):
+            row_[f"tkm_share_{mode}"] = float(share)
+        row_["mode_mix"] = " / ".join(f"{mo} {s:.0%}" for mo, s in zip(mm["mode"], mm["share_of_tonne_km"]) if s >= 0.005)
+        row_["verified"] = bool(ver.passed)
+        rows.append(row_)
+        point_tables.append(tables)
+    table = pd.DataFrame(rows)
+    if "total_cost" in table:
+        d_cost = table["total_cost"].diff()
+        d_co2 = -table["co2_t"].diff()
+        table["cost_per_t_abated"] = np.where(d_co2 > 1e-9, d_cost / d_co2.where(d_co2 > 1e-9), np.nan)
+        share_cols = sorted(c for c in table.columns if c.startswith("tkm_share_"))
+        table[share_cols] = table[share_cols].fillna(0.0)
+        first = ["point", "co2_cap_t", "co2_t", "total_cost", "delta_cost", "delta_co2_t", "cost_per_t_abated",
+                 "dcs_open", "dcs_open_names", "safety_stock_cost", "lost_units"]
+        rest = [c for c in table.columns if c not in first and c not in share_cols]
+        table = table[first + share_cols + rest]
+    return FrontierRun(table, point_tables)
+
+
+def frontier(case: Case, points: int = 5, **kw) -> pd.DataFrame:
+    """The cost–CO2 frontier of ``case`` as a table (see module docstring); ``kw`` go to :func:`sweep`."""
+    return sweep(case, points, **kw).table
+
+
+def scenario_frontier(case: Case, scenario) -> pd.DataFrame | None:
+    """The frontier a scenario asks for with ``frontier_points = N`` (None when it asks for none)."""
+    n = int(getattr(scenario, "frontier_points", 0) or 0)
+    return frontier(case, points=n) if n >= 2 else None
