@@ -123,7 +123,8 @@ def case_summary(case: Case) -> list[str]:
         f"  customers   {n(t['customers'], 'customer'):>7,}",
         f"  products    {len(products):>7,}   ({len(products) - materials:,} finished, {materials:,} materials)",
         f"  demand      {demand['quantity'].sum():>15,.0f} units/year over {len(demand):,} customer-product rows",
-        f"  modes       {len(t['modes']):>7,}   ({', '.join(t['modes']['mode'].astype(str))})",
+        f"  modes       {len(t['modes']):>7,}" + (f"   ({', '.join(t['modes']['mode'].astype(str))})"
+                                                   if len(t["modes"]) else ""),
     ]
     if len(t["lanes"]):
         lines.append(f"  explicit lanes {len(t['lanes']):>4,}")
