@@ -9,6 +9,9 @@ from netopt.io import load_case
 
 __version__ = "0.1.0"
 
-__all__ = ["Case", "CaseError", "Problem", "load_case", "__version__"]
+__all__ = ["Case", "CaseError", "Problem", "load_case", "make_case", "solve", "Result", "run_scenarios", "__version__"]
 
 # --- further public entry points (solve, run, stress, ...) are added below this line.
+from netopt.api import Result, solve  # noqa: E402
+from netopt.frames import make_case  # noqa: E402
+from netopt.scenarios import run_scenarios  # noqa: E402

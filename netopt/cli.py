@@ -151,7 +151,13 @@ def cmd_check(args: argparse.Namespace) -> int:
 
 # --------------------------------------------------------------------------- main
 
-VERBS: list[Callable] = [add_template, add_check]
+def _solving_verbs() -> list[Callable]:
+    from netopt.commands import add_run, add_solve
+
+    return [add_solve, add_run]
+
+
+VERBS: list[Callable] = [add_template, add_check, *_solving_verbs()]
 """Functions that each add one verb's subparser (in the order shown by --help)."""
 
 
