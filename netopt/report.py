@@ -967,8 +967,9 @@ def comparison_table(comp: pd.DataFrame) -> dict:
             v = r[c]
             cls = "num" if k != "text" else ""
             if c == "verified":
-                cls = "ok" if bool(v) else "bad"
-                text = "yes" if bool(v) else "no"
+                ok = isinstance(v, (bool, np.bool_)) and bool(v)  # NaN (no plan to check) is not a pass
+                cls = "ok" if ok else "bad"
+                text = "yes" if ok else "no"
             elif c == "status":
                 text = str(v)
                 cls = "" if v == "optimal" else "warn"
