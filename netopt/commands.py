@@ -152,9 +152,7 @@ def print_comparison(comparison, console=None) -> None:
     cols = [(c, n) for c, n in TERMINAL_VIEW if c in comparison.columns]
     view = comparison[[c for c, _ in cols]].rename(columns=dict(cols))
     t = Table(title="Scenario comparison (money per year; Δ = recovery cost for disruptions)")
-    for c in view.columns:
-        t.add_column(str(c), justify="left" if c in ("scenario", "status") else "right",
-                     no_wrap=c == "scenario")
+    rows = []
     for row in view.itertuples(index=False):
         cells = []
         for c, v in zip(view.columns, row):
@@ -174,6 +172,16 @@ def print_comparison(comparison, console=None) -> None:
                     cells.append(f"{v:,.0f}")
             else:
                 cells.append(escape(str(v)))
+        rows.append(cells)
+    from rich.text import Text
+
+    for j, c in enumerate(view.columns):
+        # Numbers are never cut short: their columns are as wide as their widest cell; names wrap instead.
+        text = c in ("scenario", "status")
+        widest = max((Text.from_markup(r[j]).cell_len for r in rows), default=0)
+        t.add_column(str(c), justify="left" if text else "right", no_wrap=not text,
+                     min_width=None if text else widest, overflow="fold")
+    for cells in rows:
         t.add_row(*cells)
     con.print(t)
 

@@ -72,6 +72,8 @@ KNOWN_EXTRA = {  # extra table name → section title and one line on what it sh
                  "transit days ÷ 365)."),
     "inventory_kpis": ("Inventory indicators", "Safety and pipeline stock per DC and for the network, in days "
                        "of throughput and turns per year."),
+    "mode_economics": ("Mode economics", "Every admissible mode of the busiest lanes: yearly cost and CO2e if the "
+                       "lane's whole volume went by that mode, and the cost of switching to it."),
 }
 KNOWN_COLUMNS = {  # extra table name → the columns worth showing on the page (all are in the workbook)
     "safety_stock": ["dc", "product", "throughput", "customers_served", "lead_days", "ss_units_model",
@@ -81,6 +83,15 @@ KNOWN_COLUMNS = {  # extra table name → the columns worth showing on the page 
     "exposure": ["rank", "node", "type", "ttr_days", "tts_days", "lost_units", "lost_value", "rei", "tts_below_ttr"],
     "pipeline": ["origin", "destination", "mode", "product", "quantity", "transit_days", "in_transit_units",
                  "in_transit_value"],
+    "inventory_kpis": ["level", "dc", "throughput_units", "safety_stock_units", "safety_stock_value",
+                       "pipeline_value", "inventory_value", "days_on_hand", "days_incl_transit", "turns"],
+    "mode_economics": ["origin", "destination", "product", "mode", "chosen", "share", "transit_days", "total_cost",
+                       "co2_kg", "switch_cost", "cost_per_t_co2_saved"],
+}
+KNOWN_ORDER = {  # extra table name → (sort columns, ascending, rows shown): the largest first
+    "pipeline": (["in_transit_value"], [False], 25),
+    "mode_economics": (["quantity", "origin", "destination", "product", "total_cost"], [False, True, True, True, True],
+                       30),
 }
 KNOWN_COLUMNS["spof_ranking"] = KNOWN_COLUMNS["spof"]
 STANDARD_TABLES = {"flows", "production", "dcs", "supplier_shares", "mode_mix", "service", "unmet", "cost", "kpis"}
@@ -1046,10 +1057,16 @@ def _extra_sections(tables: dict[str, pd.DataFrame], currency: str) -> list[dict
         cols = [c for c in KNOWN_COLUMNS.get(name, []) if c in df.columns]
         trimmed = len(cols) >= 3 and len(cols) < len(df.columns)
         shown = df[cols] if trimmed else df
+        max_rows = MAX_TABLE_ROWS
+        if name in KNOWN_ORDER and set(KNOWN_ORDER[name][0]) <= set(df.columns):
+            by, ascending, max_rows = KNOWN_ORDER[name]
+            shown = shown.loc[df.sort_values(by, ascending=ascending, kind="stable").index]
+            if len(df) > max_rows:
+                note = (note + " " if note else "") + f"The {max_rows} largest rows by {by[0].replace('_', ' ')}."
         if trimmed:
             note = (note + " " if note else "") + "A selection of the columns; every column is in results.xlsx."
         out.append({"id": "extra-" + re.sub(r"[^a-z0-9]+", "-", name.lower()).strip("-"), "title": title,
-                    "note": note, "chart": chart, "table": table(shown, tid=f"table-{name}")})
+                    "note": note, "chart": chart, "table": table(shown, tid=f"table-{name}", max_rows=max_rows)})
     return out
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import argparse
 import json
 import math
 import re
@@ -369,13 +368,18 @@ def test_report_of_a_run_without_a_plan():
     assert records(p.tables["diagnosis"])[0]["where"] == "customer X, product Y"
 
 
-def test_solve_verb_writes_report_and_json(tmp_path, capsys):
-    from netopt.commands import cmd_solve
+def cli(*argv) -> int:
+    """Run the netopt command line in-process; its exit code."""
+    from netopt.cli import main
 
+    with pytest.raises(SystemExit) as done:
+        main([str(a) for a in argv])
+    return int(done.value.code)
+
+
+def test_solve_verb_writes_report_and_json(tmp_path, capsys):
     case = report_case_dir(tmp_path)
-    args = argparse.Namespace(case=str(case), out=str(tmp_path / "solved"), time_limit=None, gap=None, threads=None,
-                              json=True, quiet=False, no_report=False)
-    code = cmd_solve(args)
+    code = cli("solve", case, "--out", tmp_path / "solved", "--json")
     summary = json.loads(capsys.readouterr().out)  # --json: stdout is JSON and nothing else
     assert summary["status"] == "optimal"
     assert code == (0 if summary["verified"] else 4)
@@ -383,24 +387,29 @@ def test_solve_verb_writes_report_and_json(tmp_path, capsys):
     assert (tmp_path / "solved" / "results.xlsx").is_file()
 
 
-def test_run_verb_json_and_quiet(tmp_path, capsys):
-    from netopt.commands import cmd_run
-
+def test_run_verb_json_quiet_and_no_report(tmp_path, capsys):
     case = report_case_dir(tmp_path)
-
-    def args(**kw):
-        base = dict(case=str(case), out=str(tmp_path / "ran"), time_limit=None, gap=None, threads=None, json=False,
-                    quiet=False, no_report=False, only="fra_closed", cold=False, list=False)
-        return argparse.Namespace(**(base | kw))
-
-    code = cmd_run(args(json=True))
+    code = cli("run", case, "--out", tmp_path / "ran", "--only", "fra_closed", "--json")
     rows = json.loads(capsys.readouterr().out)  # --json: the comparison as JSON records, nothing else on stdout
     assert [r["scenario"] for r in rows] == ["base", "fra_closed"]
     assert code == (0 if all(r["verified"] for r in rows) else 4)
     assert (tmp_path / "ran" / "report.html").is_file()
-    cmd_run(args(quiet=True, out=str(tmp_path / "quiet"), no_report=True))
+    cli("run", case, "--out", tmp_path / "quiet", "--only", "fra_closed", "--quiet", "--no-report")
     assert capsys.readouterr().out == ""  # --quiet: nothing on stdout
     assert not (tmp_path / "quiet" / "report.html").exists()  # --no-report is honoured
+    assert (tmp_path / "quiet" / "results.xlsx").is_file()
+
+
+def test_run_verb_table_keeps_every_digit(tmp_path, capsys, monkeypatch):
+    # Narrow terminal: names may wrap, but no number in the comparison table is cut short.
+    monkeypatch.setenv("COLUMNS", "72")
+    case = report_case_dir(tmp_path)
+    cli("run", case, "--out", tmp_path / "ran", "--only", "fra_closed")
+    text = capsys.readouterr().out
+    comp = pd.read_csv(tmp_path / "ran" / "comparison.csv")
+    for total in comp["total_cost"]:
+        assert f"{total:,.0f}" in text
+    assert "…" not in text
 
 
 def test_report_is_fast(run, tmp_path):
