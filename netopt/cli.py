@@ -152,12 +152,13 @@ def cmd_check(args: argparse.Namespace) -> int:
 # --------------------------------------------------------------------------- main
 
 def _solving_verbs() -> list[Callable]:
+    """Verbs that solve live in netopt.commands (imported late: it imports this module)."""
     from netopt.commands import add_run, add_solve
 
     return [add_solve, add_run]
 
 
-VERBS: list[Callable] = [add_template, add_check, *_solving_verbs()]
+VERBS: list[Callable] = [add_template, add_check]
 """Functions that each add one verb's subparser (in the order shown by --help)."""
 
 
@@ -174,7 +175,7 @@ def build_parser() -> argparse.ArgumentParser:
         epilog="Exit codes: 0 ok, 2 invalid input, 3 infeasible, 4 solver failure.")
     parser.add_argument("--version", action="version", version=f"netopt {__version__}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")
-    for add in VERBS:
+    for add in VERBS + _solving_verbs():
         add(sub)
     return parser
 
