@@ -170,7 +170,8 @@ def time_to_recover(case: Case) -> pd.Series:
     return pd.Series(out, name="time_to_recover_days", dtype=float)
 
 
-SAFETY_STOCK_UNITS = ("safety_stock_units", "safety_stock", "units")
+SAFETY_STOCK_UNITS = ("ss_units_exact", "safety_stock_units", "ss_units_model", "ss_units", "safety_stock", "units")
+"""Units column of a ``safety_stock`` result table, first found wins (the exact formula at the chosen flows first)."""
 
 
 def base_stock(base) -> tuple[pd.DataFrame, str]:
@@ -179,7 +180,7 @@ def base_stock(base) -> tuple[pd.DataFrame, str]:
     - pipeline: units in transit on each lane into a site = flow (units/yr) × transit days / 365
       (Little's law), counted at the destination it is travelling to;
     - safety stock: from a ``safety_stock`` result table when the base has one (a site or
-      dc column, a product column and a units column).
+      dc column, a product column and a units column, see :data:`SAFETY_STOCK_UNITS`).
     """
     f = base.tables["flows"]
     pipe = f.assign(units=f["quantity"].to_numpy(float) * f["transit_days"].to_numpy(float) / DAYS_PER_YEAR)
@@ -194,7 +195,7 @@ def base_stock(base) -> tuple[pd.DataFrame, str]:
             s = ss[[site_col, "product", unit_col]].set_axis(["site", "product", "units"], axis=1)
             s = s.groupby(["site", "product"], as_index=False)["units"].sum().assign(source="safety_stock")
             parts.append(s)
-            note = "pipeline stock plus safety stock from the base's safety_stock table"
+            note = f"pipeline stock plus safety stock ({unit_col} of the base's safety_stock table)"
         else:
             note = "pipeline stock only (the base's safety_stock table has no site, product and units columns)"
     stock = pd.concat(parts, ignore_index=True)

@@ -486,7 +486,7 @@ def _rules_bent(relief: Relief | None, bent: np.ndarray) -> str:
         f = m & (relief.family == fam)
         if f.any():
             where = ", ".join(sorted(set(relief.label[f].tolist()))[:3]) + (" …" if f.sum() > 3 else "")
-            parts.append(f"{fam} ×{int(f.sum())} ({where}; {bent[f].sum():,.0f} units)")
+            parts.append(f"{fam} ×{int(f.sum())} ({where}: {bent[f].sum():,.0f} units)")
     return "; ".join(parts)
 
 
@@ -524,11 +524,13 @@ def run_task(spec: SweepSpec, el: dict) -> dict:
     each keeps its held model in a per-thread cache keyed by ``spec.key``.
     """
     st = worker_state(spec)
+    cpu0 = time.process_time()
     row = {"id": el["id"], "type": el["type"], "element": el["element"], "base_units": el["base_units"]}
     row.update(hold_resolve(st, el))
     if spec.redesign:
         row.update(redesign_resolve(spec, el))
     row["ran_on"] = _where()
+    row["cpu_seconds"] = time.process_time() - cpu0  # this process's CPU time for the task
     return row
 
 
@@ -868,6 +870,37 @@ need mitigation. Method: Simchi-Levi, Schmidt & Wei (Harvard Business Review, 20
 (Interfaces 45(5), 2015)."""
 
 
+def stress_command(case_path: str, out_dir: str, *, workers: int | None = None, scheduler: str | None = None,
+                   redesign: bool = False, only: list[str] | None = None, fresh: bool = False,
+                   rules: str = "priced", quiet: bool = False) -> int:
+    """``netopt stress CASE --out DIR``: load, stress, print the summary; the exit code.
+
+    0 done; 3 the base is infeasible; 4 the base has no solution for another reason
+    (time limit, solver error).  Bad input raises :class:`CaseError` (the CLI's exit code 2).
+    """
+    import sys
+
+    from netopt.io import load_case
+
+    case = load_case(case_path)
+    say = (lambda s: None) if quiet else (lambda s: print(s, file=sys.stderr))
+    if case.warnings:
+        say(f"{len(case.warnings)} warning(s):")
+        for p in case.warnings:
+            say(f"  {p}")
+    try:
+        tables = stress(case, out_dir, workers=workers, scheduler=scheduler, redesign=redesign, elements=only,
+                        progress=not quiet, fresh=fresh, rules=rules, say=say)
+    except StressError as e:
+        print(f"error: {e}", file=sys.stderr)
+        return 3 if e.status in ("infeasible", "unbounded") else 4
+    if not quiet:
+        for line in summary_lines(tables):
+            print(line)
+        print(f"results written to {out_dir}")
+    return 0
+
+
 def _fmt_money(x) -> str:
     if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
         return "-"
@@ -908,9 +941,16 @@ def summary_lines(tables: dict[str, pd.DataFrame], top: int = 10) -> list[str]:
 
 def markdown_top(spof: pd.DataFrame, top: int = 10, currency: str = "") -> str:
     """The top rows of the sweep as a Markdown table (for a case README)."""
-    out = [f"| # | element | type | recovery cost ({currency}/yr) | lost units/yr | lost value ({currency}/yr) "
-           "| customers affected | took over |", "|---|---|---|---:|---:|---:|---:|---|"]
+    def text(x, n=2):
+        if not isinstance(x, str) or not x:
+            return "–"
+        return "; ".join(x.split("; ")[:n])
+
+    out = [f"| # | element | type | impact ({currency}/yr) | recovery cost ({currency}/yr) | lost units/yr "
+           f"| lost value ({currency}/yr) | rules bent | customers affected | took over (units/yr) |",
+           "|---:|---|---|---:|---:|---:|---:|---|---:|---|"]
     for r in spof.head(top).itertuples():
-        out.append(f"| {r.rank} | {r.element} | {r.type} | {_fmt_money(r.recovery_cost)} | {_fmt_money(r.lost_units)} "
-                   f"| {_fmt_money(r.lost_value)} | {int(r.customers_affected)} | {r.took_over or '–'} |")
+        out.append(f"| {r.rank} | {r.element} | {r.type} | {_fmt_money(r.impact)} | {_fmt_money(r.recovery_cost)} "
+                   f"| {_fmt_money(r.lost_units)} | {_fmt_money(r.lost_value)} | {text(r.rules_bent, 1)} "
+                   f"| {int(r.customers_affected)} | {text(r.took_over)} |")
     return "\n".join(out)

@@ -166,11 +166,16 @@ def test_pipeline_stock_by_littles_law_gives_tts():
     by = stock.set_index("site")["units"]
     assert by["DC"] == pytest.approx(600.0) and by["C"] == pytest.approx(200.0)
     assert "pipeline" in note
+    base.tables.pop("safety_stock", None)
     out, _ = exposure(case, base, nodes=["A", "DC"])
     out = out.set_index("node")
     assert out.loc["A", "tts_days"] == pytest.approx(8.0, rel=1e-9)
     # The DC down: what travels into it is stuck there; only the 200 units on the last leg arrive: 2 days.
     assert out.loc["DC", "tts_days"] == pytest.approx(2.0, rel=1e-9)
+    # A safety-stock table adds its units at the DC: 300 more units = 3 more days with the supplier out.
+    base.tables["safety_stock"] = pd.DataFrame({"dc": ["DC"], "product": ["P"], "ss_units_exact": [300.0]})
+    out, note = exposure(case, base, nodes=["A"])
+    assert out.iloc[0]["tts_days"] == pytest.approx(11.0, rel=1e-9) and "safety stock" in note
 
 
 def test_time_to_recover_from_columns_with_settings_default():

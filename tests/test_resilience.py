@@ -19,8 +19,8 @@ from randcase import random_case
 from netopt.api import solve
 from netopt.case import CaseError
 from netopt.frames import make_case
-from netopt.resilience import (JOURNAL, element_changes, read_journal, run_sweep, stress, summary_lines,
-                               sweep_elements)
+from netopt.resilience import (JOURNAL, element_changes, read_journal, run_sweep, stress, stress_command,
+                               summary_lines, sweep_elements)
 from netopt.scenarios import Scenario, run_scenarios
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -141,7 +141,7 @@ def test_priced_rules_bend_a_service_window_instead_of_losing_demand():
     assert hard["lost_units"] == pytest.approx(1000.0)
     assert priced["lost_units"] == pytest.approx(0.0, abs=1e-9)
     assert priced["recovery_cost"] == pytest.approx(1000.0 * (1.0 - 3.0))  # barge is cheaper, only late
-    assert priced["rules_bent"] == "service_window ×1 (C; 1,000 units)"
+    assert priced["rules_bent"] == "service_window ×1 (C: 1,000 units)"
     # The bent promise is priced at what the base paid to keep it (its shadow price, 3 − 1 = 2 per unit,
     # plus a 1e-4 tie-breaker), so the impact is ≈ 0: nothing is lost but the promise.
     assert priced["rule_relief_cost"] == pytest.approx(1000.0 * (2.0 + 1e-4), rel=1e-9)
@@ -273,3 +273,16 @@ def test_stress_writes_results_and_summary(solved, tmp_path):
     facts = dict(zip(tables2["info"]["key"], tables2["info"]["value"]))
     assert facts["sweep_resolved_now"] == "0"
     pd.testing.assert_frame_equal(tables2["spof"], tables["spof"])
+
+
+def test_stress_command_exit_codes(tiny_case_dir, tmp_path, capsys):
+    """0 with results written; 3 when the base is infeasible (plant capacity 100 < demand 1,500 widgets,
+    lost demand not allowed), with nothing written."""
+    out = tmp_path / "ok"
+    assert stress_command(str(tiny_case_dir), str(out), workers=0) == 0
+    assert (out / "spof_ranking.csv").exists() and "single points of failure" in capsys.readouterr().out
+    plants = tiny_case_dir / "plants.csv"
+    plants.write_text(plants.read_text().replace(",20000,", ",100,"))
+    bad = tmp_path / "bad"
+    assert stress_command(str(tiny_case_dir), str(bad), workers=0, quiet=True) == 3
+    assert not (bad / "spof_ranking.csv").exists()
