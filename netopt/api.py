@@ -199,6 +199,7 @@ def diagnose_infeasibility(net: Network, formulation: str = "tight", fixed: np.n
     """
     b = build_model(net, formulation=formulation, elastic=True, fixed_open=fixed)
     hm = compile_model(b)
+    prepare_solve(hm, time_limit=120.0, mip_gap=1e-3)  # safety-stock binaries only
     info = hm.solve(time_limit=120.0, mip_gap=1e-3)
     rows = []
     if not info.has_solution:

@@ -7,6 +7,7 @@ A case may hold ``scenarios.toml`` with ``[[scenario]]`` entries::
     description = "Ocean lane Ningbo → Poznań lost for the year"
     based_on = ""            # optional: another scenario whose changes come first
     resolve = "both"         # redesign (default) | hold | both
+    frontier_points = 5      # optional: also the cost–CO2 frontier of this scenario (netopt.frontier)
 
       [[scenario.change]]
       kind = "close_lane"
@@ -65,6 +66,7 @@ class Scenario:
     description: str = ""
     based_on: str = ""
     resolve: str = "redesign"
+    frontier_points: int = 0  # ≥ 2: also sweep this scenario's cost–CO2 frontier (netopt.frontier)
 
 
 def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml") -> list[Scenario]:
@@ -96,11 +98,16 @@ def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml"
             if kind not in CHANGE_KINDS:
                 problems.append(Problem(label, None, None,
                                         f"{where}, change {i}: unknown kind '{kind}' (one of: {', '.join(CHANGE_KINDS)})"))
-        unknown = set(sc) - {"name", "description", "based_on", "resolve", "change"}
+        unknown = set(sc) - {"name", "description", "based_on", "resolve", "change", "frontier_points"}
+        points = sc.get("frontier_points", 0)
+        if isinstance(points, bool) or not isinstance(points, int) or (points != 0 and points < 2):
+            problems.append(Problem(label, None, None, f"{where}: frontier_points must be a whole number ≥ 2 "
+                                                       f"(or 0 for none), not {points!r}"))
+            points = 0
         for u in sorted(unknown):
             problems.append(Problem(label, None, None, f"{where}: unknown entry '{u}' (ignored)", "warning"))
         out.append(Scenario(name, [dict(c) for c in changes], str(sc.get("description", "")),
-                            str(sc.get("based_on", "")).strip(), resolve))
+                            str(sc.get("based_on", "")).strip(), resolve, points))
     names = {s.name for s in out}
     for s in out:
         if s.based_on and s.based_on not in names:
@@ -418,6 +425,11 @@ class HeldNetwork:
         # so every later re-solve starts from this basis.
         if self.is_lp:
             self.hm.relax_integrality()
+        else:
+            from netopt.model.safety_stock import prepare_solve
+
+            prepare_solve(self.hm, time_limit=float(case.settings["solver"]["time_limit_s"]),
+                          mip_gap=float(case.settings["solver"]["mip_gap"]))  # safety-stock binaries only
         self.build_seconds = time.perf_counter() - t0
         info = self.hm.solve(time_limit=float(case.settings["solver"]["time_limit_s"]),
                              mip_gap=float(case.settings["solver"]["mip_gap"]))
@@ -580,6 +592,7 @@ class ScenarioRun:
     results: dict[str, object] = field(default_factory=dict)
     comparison: pd.DataFrame = field(default_factory=pd.DataFrame)
     scenarios: list[Scenario] = field(default_factory=list)
+    frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)  # scenario → cost–CO2 frontier table
 
 
 def _solve_or_lose(case: Case, **kw):
@@ -602,7 +615,8 @@ def run_scenarios(case: Case, names: list[str] | None = None, progress=None, war
 
     Args:
         names: scenario names to run (None = all in the case).
-        progress: callable(event: str, info: dict) — events "start", "done".
+        progress: callable(event: str, info: dict) — events "start", "done" (and "frontier_start",
+            "frontier_done" for a scenario with ``frontier_points``).
         warm: hold-the-network re-solves warm in a kept HiGHS model where possible.
     """
     from netopt.api import solve
@@ -673,6 +687,13 @@ def run_scenarios(case: Case, names: list[str] | None = None, progress=None, war
             rows.append(comparison_row(label, s.based_on, how, r, base, method, sec, s.description,
                                        lost_allowed=lost_allowed))
             say("done", {"name": label, "status": r.status, "seconds": sec})
+        if s.frontier_points:
+            from netopt.frontier import scenario_frontier
+
+            say("frontier_start", {"name": s.name, "points": s.frontier_points})
+            t1 = time.perf_counter()
+            run.frontiers[s.name] = scenario_frontier(sc_case, s)
+            say("frontier_done", {"name": s.name, "points": s.frontier_points, "seconds": time.perf_counter() - t1})
     run.comparison = pd.DataFrame(rows)
     return run
 
