@@ -10,7 +10,6 @@ import math
 from pathlib import Path
 
 import numpy as np
-import pandas as pd
 import pytest
 from scipy.optimize import minimize_scalar
 from scipy.stats import norm
@@ -298,3 +297,17 @@ def test_demo_reports_safety_stock_pipeline_and_kpis(demo):
     assert set(inv.loc[inv["level"] == "dc", "dc"]) == set(t["dcs"].loc[t["dcs"]["open"], "dc"])
     assert (inv["turns"] > 0).all()
     assert inv["turns"].to_numpy() == pytest.approx(DAYS / inv["days_incl_transit"].to_numpy())
+
+
+def test_verification_prices_safety_stock_from_the_flows(demo):
+    # The verifier's safety-stock cost is the curve at each DC's throughput from the flows table, not the
+    # solver's value; the solver's objective must agree with it (relative 1e-6).
+    from netopt.verify import verify
+
+    v = demo.verification
+    assert v.recomputed_cost["safety_stock"] == pytest.approx(demo.tables["safety_stock"]["cost_pwl"].sum(), rel=1e-12)
+    assert v.objective_rel_diff < 1e-6
+    # Leaving safety stock out of the recomputation leaves a gap of exactly that cost.
+    bare = verify(load_case(DEMO), demo.lanes, demo.tables, demo.objective)
+    assert not bare.passed
+    assert demo.objective - bare.recomputed_objective == pytest.approx(demo.cost["safety_stock"], rel=1e-6)
