@@ -54,6 +54,7 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import highspy
 import numpy as np
 import pandas as pd
 
@@ -292,22 +293,16 @@ def add_relief(held) -> Relief:
         for k in ok:
             r = int(rows[k])
             rows_all.append(r)
-            sign_all.append(1.0 if row_lo[r] > -highspy_inf() else -1.0)  # ≥ rows gain, ≤ rows lose
+            sign_all.append(1.0 if row_lo[r] > -highspy.kHighsInf else -1.0)  # ≥ rows gain, ≤ rows lose
             fam.append(name)
             lab.append(str(labels.iloc[k, 0]))
             price.append(abs(float(dual[r])) + RELIEF_EPS)
     n = len(rows_all)
     if n:
-        h.addCols(n, np.array(price), np.zeros(n), np.full(n, highspy_inf()), n, np.arange(n, dtype=np.int32),
+        h.addCols(n, np.array(price), np.zeros(n), np.full(n, highspy.kHighsInf), n, np.arange(n, dtype=np.int32),
                   np.array(rows_all, dtype=np.int32), np.array(sign_all))
     return Relief(cols=np.arange(n0, n0 + n), family=np.array(fam, dtype=object), label=np.array(lab, dtype=object),
                   price=np.array(price))
-
-
-def highspy_inf() -> float:
-    import highspy
-
-    return float(highspy.kHighsInf)
 
 
 @dataclass
