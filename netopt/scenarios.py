@@ -401,6 +401,8 @@ class HeldNetwork:
         from netopt.network import build_network
         from netopt.solver import compile_model
 
+        from netopt.model.safety_stock import add_held_lines, held_lines
+
         self.case = case
         settings = copy.deepcopy(case.settings)
         settings["policy"]["allow_unmet_demand"] = True
@@ -411,14 +413,25 @@ class HeldNetwork:
         if held is None:
             raise ValueError("HeldNetwork needs a base result or the held DC decisions")
         self.lanes = build_lanes(case) if lanes is None else lanes
-        self.net = build_network(self.case_unmet, self.lanes)
+        # Safety stock is priced on one line per curve at the base throughput (not the curve's
+        # binaries), so the held model stays a linear program; see safety_stock.held_lines.
+        model_settings = copy.deepcopy(settings)
+        ss_on = bool(settings["inventory"]["safety_stock"])
+        model_settings["inventory"]["safety_stock"] = False
+        self.net = build_network(Case(case.name, case.tables, model_settings, case.path), self.lanes)
+        self.ss_lines = pd.DataFrame()
+        if ss_on:
+            if base is None or not base.has_solution:
+                raise ValueError("HeldNetwork with safety stock needs the base result (its throughput per DC)")
+            self.ss_lines = held_lines(self.net, base.tables["flows"])
         self.held = dict(held)
         fixed = _fixed_options(self.net, self.held)
         self.fixed = fixed
         t0 = time.perf_counter()
         # Openings are fixed, so the strong linking rows are redundant ("plain"), and a generous
         # big M for unlimited DC capacity lets demand be scaled by bound changes alone.
-        self.builder = build_model(self.net, formulation="plain", fixed_open=fixed, big_m_factor=self.BIG_M_FACTOR)
+        self.builder = build_model(self.net, formulation="plain", fixed_open=fixed, big_m_factor=self.BIG_M_FACTOR,
+                                   extra=lambda b: add_held_lines(b, self.ss_lines))
         self.hm = compile_model(self.builder)
         self.is_lp = set(self.builder.vars) <= {"flow", "make", "unmet", "open"}
         # With openings fixed and no other binaries the model is an LP: solve it once, cold,
@@ -576,8 +589,11 @@ class HeldNetwork:
                 held[ch["dc"]] = False
         sc_unmet = Case(sc_case.name, sc_case.tables, copy.deepcopy(sc_case.settings), sc_case.path)
         sc_unmet.settings["policy"]["allow_unmet_demand"] = True
+        from netopt.model.safety_stock import held_lines_cost
+
         res.verification = verify(sc_unmet, lanes, res.tables, info.objective,
-                                  fixed_open={d: bool(v) for d, v in held.items()})
+                                  fixed_open={d: bool(v) for d, v in held.items()},
+                                  extra_cost={"safety_stock": held_lines_cost(self.ss_lines, res.tables)})
         res.lanes = lanes
         return res
 

@@ -235,3 +235,25 @@ def test_warm_resolves_equal_cold_rebuilds(seed):
         assert warm is not None and warm.verification.passed
         cold = solve(c, hold=base.held_openings(), mip_gap=1e-9)
         assert warm.objective == pytest.approx(cold.objective, rel=1e-6)
+
+
+def test_held_network_with_safety_stock_is_an_lp_exact_at_the_base():
+    """Held re-solves price safety stock on the line of each curve's segment at the base throughput:
+    equal to the curve at the base (so the held base costs what the base costs) and above it elsewhere
+    (the curve is concave), so the hold-the-network answer is never below the redesign."""
+    products = [{"product": "P", "unit_weight_kg": 8.0, "unit_value": 60.0, "demand_cv": 0.4},
+                {"product": "M", "kind": "material", "unit_weight_kg": 2.0, "unit_value": 2.0}]
+    case = random_case(7, extra={"products": products}, settings={"inventory": {"safety_stock": True}})
+    base = cost(case)
+    assert base.cost["safety_stock"] > 0
+    held = HeldNetwork(case, base)
+    assert held.is_lp
+    assert held.base_info.objective == pytest.approx(base.objective, rel=1e-6)
+    d = base.tables["dcs"]
+    dc = d.loc[d["open"], "dc"].iloc[0]
+    changes = [{"kind": "site_out", "site": dc}]
+    c = apply_changes(case, sc("x", *changes, {"kind": "policy", "allow_unmet_demand": True}))
+    warm = held.solve(c, changes)
+    assert warm is not None and warm.verification.passed
+    redesign = cost(c)
+    assert redesign.objective <= warm.objective * (1 + REL)

@@ -16,7 +16,7 @@ COST_COMPONENTS = ("supply", "production", "dc_fixed", "dc_closing", "dc_handlin
 
 
 def build_model(net: Network, formulation: str = "tight", elastic: bool = False,
-                fixed_open: np.ndarray | None = None, big_m_factor: float = 1.0) -> Builder:
+                fixed_open: np.ndarray | None = None, big_m_factor: float = 1.0, extra=None) -> Builder:
     """Build the Pyomo model of ``net``.
 
     Args:
@@ -27,6 +27,7 @@ def build_model(net: Network, formulation: str = "tight", elastic: bool = False,
         fixed_open: 0/1 per opening option to hold the network (re-route only).
         big_m_factor: multiplies the demand-based bound used for unlimited DC capacity
             (a held network raises it so demand can be scaled by bound changes alone).
+        extra: optional callable(builder) adding further terms before the objective is made.
     """
     b = Builder(net=net, elastic=elastic)
     openings.add(b, fixed_open=fixed_open)
@@ -37,5 +38,7 @@ def build_model(net: Network, formulation: str = "tight", elastic: bool = False,
     transport.add(b)
     inventory.add(b)
     safety_stock.add(b)
+    if extra is not None:
+        extra(b)
     b.finish()
     return b
