@@ -20,6 +20,7 @@ install: $(STAMP)
 demo: $(STAMP)
 	$(VENV)/bin/netopt check cases/brackenholt
 	$(VENV)/bin/netopt run cases/brackenholt --out out/brackenholt
+	$(VENV)/bin/netopt stress cases/brackenholt --out out/brackenholt-stress
 
 test: $(STAMP)
 	$(PY) -m pytest -q

@@ -311,3 +311,38 @@ def cmd_run(args: argparse.Namespace) -> int:
         print("error: an independent check failed; see verification.csv in the scenario folders", file=sys.stderr)
         return EXIT_SOLVER
     return EXIT_OK
+
+
+# --------------------------------------------------------------------------- stress
+
+def add_stress(sub) -> None:
+    p = sub.add_parser(
+        "stress", parents=[COMMON],
+        help="single points of failure and time-to-survive exposure of the base network",
+        description="Take each supplier, plant, open DC and used lane out of the solved base network one at a "
+                    "time, re-route holding the network (and optionally redesign), and rank them by recovery cost "
+                    "and lost demand. Then, per site, the time the network survives on its stock (time to "
+                    "survive) against the time to restore it (time to recover), and the demand lost meanwhile. "
+                    "Runs on all local cores, or on a Dask cluster; an interrupted sweep resumes where it stopped.")
+    p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
+    p.add_argument("--out", required=True, metavar="DIR", help="results folder (spof_ranking.csv, exposure.csv, stress.xlsx, summary.json; the sweep journal lets an interrupted run resume)")
+    p.add_argument("--workers", type=int, metavar="N",
+                   help="local worker processes (default: all cores; 0 = in this process)")
+    p.add_argument("--scheduler", metavar="ADDR",
+                   help="address of a running Dask scheduler (e.g. tcp://10.0.0.5:8786) to run the sweep there")
+    p.add_argument("--redesign", action="store_true", help="also re-optimise DC decisions for each loss (slower)")
+    p.add_argument("--only", metavar="TYPES", help="comma-separated element types to sweep: supplier,plant,dc,lane")
+    p.add_argument("--fresh", action="store_true", help="ignore the journal of an earlier, interrupted sweep")
+    p.add_argument("--hard-rules", action="store_true",
+                   help="never bend service windows, share limits or the CO2 cap during a disruption "
+                        "(default: bending is allowed at each rule's base shadow price, and reported)")
+    p.set_defaults(func=cmd_stress)
+
+
+def cmd_stress(args: argparse.Namespace) -> int:
+    from netopt.resilience import stress_command
+
+    only = [x.strip() for x in args.only.split(",") if x.strip()] if args.only else None
+    return stress_command(args.case, args.out, workers=args.workers, scheduler=args.scheduler,
+                          redesign=args.redesign, only=only, fresh=args.fresh,
+                          rules="hard" if args.hard_rules else "priced", quiet=args.quiet)
