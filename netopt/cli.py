@@ -153,9 +153,9 @@ def cmd_check(args: argparse.Namespace) -> int:
 
 def _solving_verbs() -> list[Callable]:
     """Verbs that solve live in netopt.commands (imported late: it imports this module)."""
-    from netopt.commands import add_run, add_solve, add_stress
+    from netopt.commands import add_frontier, add_run, add_solve, add_stress
 
-    return [add_solve, add_run, add_stress]
+    return [add_solve, add_run, add_stress, add_frontier]
 
 
 VERBS: list[Callable] = [add_template, add_check]

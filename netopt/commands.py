@@ -346,3 +346,50 @@ def cmd_stress(args: argparse.Namespace) -> int:
     return stress_command(args.case, args.out, workers=args.workers, scheduler=args.scheduler,
                           redesign=args.redesign, only=only, fresh=args.fresh,
                           rules="hard" if args.hard_rules else "priced", quiet=args.quiet)
+
+
+# --------------------------------------------------------------------------- frontier
+
+def add_frontier(sub) -> None:
+    p = sub.add_parser(
+        "frontier", parents=[COMMON],
+        help="cost–CO2 trade-off curve: the cheapest network at each CO2 level",
+        description="Solve the cost-optimal and the CO2-minimal network, then the cheapest network at N-2 CO2e caps "
+                    "evenly between them (epsilon constraint). Each point lists total cost, CO2e, DCs open and the "
+                    "mode mix, and the cost per tonne abated. A scenario can ask for the same with "
+                    "frontier_points = N in scenarios.toml (then `netopt run` writes it).")
+    p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
+    p.add_argument("--out", required=True, metavar="DIR", help="results folder (frontier.csv, frontier.xlsx)")
+    p.add_argument("--points", type=int, default=5, metavar="N", help="points on the curve, ends included (default 5)")
+    p.add_argument("--json", action="store_true", help="print the frontier as JSON on stdout")
+    p.set_defaults(func=cmd_frontier)
+
+
+def cmd_frontier(args: argparse.Namespace) -> int:
+    from rich.table import Table
+
+    from netopt.frontier import frontier
+    from netopt.io import load_case
+    from netopt.output import atomic_folder, write_workbook
+
+    if args.points < 2:
+        print("error: --points must be at least 2 (the two ends of the curve)", file=sys.stderr)
+        return 2
+    case = load_case(args.case)
+    print_warnings(args, case)
+    table = frontier(case, points=args.points)
+    with atomic_folder(args.out) as tmp:
+        table.to_csv(tmp / "frontier.csv", index=False)
+        write_workbook({"frontier": table}, tmp / "frontier.xlsx")
+    if args.json:
+        print(json.dumps(_json(table.to_dict(orient="records")), indent=2))
+    elif not args.quiet:
+        t = Table(title="Cost–CO2 frontier (per year)")
+        for c in ("point", "co2_t", "total_cost", "cost_per_t_abated", "dcs_open", "mode_mix"):
+            t.add_column(c.replace("_", " "), justify="left" if c == "mode_mix" else "right")
+        for r in table.itertuples(index=False):
+            t.add_row(str(r.point), f"{r.co2_t:,.0f}", _money(r.total_cost), _money(getattr(r, "cost_per_t_abated", None)),
+                      str(r.dcs_open), str(r.mode_mix))
+        _console().print(t)
+        say(args, f"results written to {args.out}")
+    return EXIT_OK if table["status"].isin(["optimal", "time_limit"]).all() else EXIT_SOLVER

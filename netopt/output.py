@@ -286,7 +286,12 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
             if label == "base":
                 continue
             write_result_files(r, tmp / "scenarios" / _label_folder(label), workbook=False)
+        frontiers = {f"frontier_{_label_folder(name)}": df for name, df in getattr(run, "frontiers", {}).items()
+                     if df is not None}
+        for name, df in frontiers.items():
+            df.to_csv(tmp / f"{name}.csv", index=False)
         sheets = {"comparison": run.comparison}
+        sheets.update(frontiers)
         sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
         sheets.update(extra_sheets or {})
         write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER, currency=_currency_of(run.base))
@@ -300,7 +305,8 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
             except ImportError:
                 pass
             else:
-                write_report(run, tmp / "report.html")
+                extra = {("frontier" if len(frontiers) == 1 else k): v for k, v in frontiers.items()}
+                write_report(run, tmp / "report.html", extra=extra or None)
     return out
 
 

@@ -952,11 +952,23 @@ COMPARISON_COLUMNS = [  # column, label, format, sense (+1: higher is worse, -1:
 MONEY_COLUMNS = ("total_cost", "delta_cost", "delta_pct")
 
 
-def _money_tolerance(comp: pd.DataFrame) -> float:
-    """Cost changes smaller than this (currency/yr) are within the solver's optimality gap: not coloured."""
+def _money_tolerance(comp: pd.DataFrame, row) -> float:
+    """A cost change smaller than this (currency/yr) is within the optimality gaps of the base and
+    of this row's solve: not coloured.  Each row uses its own gap, so one time-limited scenario
+    does not hide the changes of the others."""
     base_total = float(comp["total_cost"].iloc[0]) if "total_cost" in comp else float("nan")
-    gaps = pd.to_numeric(comp.get("gap", pd.Series([0.0])), errors="coerce").replace([np.inf], np.nan).fillna(0.0)
-    return max(float(gaps.max()), 1e-9) * abs(base_total) if np.isfinite(base_total) else 0.5
+    if not np.isfinite(base_total):
+        return 0.5
+
+    def gap(v):
+        g = pd.to_numeric(pd.Series([v]), errors="coerce").iloc[0]
+        return 0.0 if g is None or not np.isfinite(g) else float(g)
+
+    base_gap = gap(comp["gap"].iloc[0]) if "gap" in comp else 0.0
+    row_gap = gap(row.get("gap", 0.0))
+    total = float(row.get("total_cost", base_total))
+    scale = max(abs(base_total), abs(total) if np.isfinite(total) else 0.0)
+    return max(base_gap + row_gap, 1e-9) * scale
 
 
 def comparison_table(comp: pd.DataFrame) -> dict:
@@ -969,7 +981,6 @@ def comparison_table(comp: pd.DataFrame) -> dict:
     if "status" in comp and comp["status"].eq("optimal").all():
         cols = [c for c in cols if c[0] != "status"]
     base = comp.iloc[0]
-    tol = _money_tolerance(comp)
     base_total = float(base.get("total_cost", np.nan))
     rows = []
     for _, r in comp.iterrows():
@@ -990,7 +1001,7 @@ def comparison_table(comp: pd.DataFrame) -> dict:
             if sense and r.name != comp.index[0] and numeric and np.isfinite(float(v)):
                 if c in MONEY_COLUMNS:
                     d = float(r["total_cost"]) - base_total if c != "total_cost" else float(v) - base_total
-                    changed = abs(d) > tol
+                    changed = abs(d) > _money_tolerance(comp, r)
                 else:
                     b = base[c]
                     d = float(v) - float(b) if b is not None and np.isfinite(float(b)) else 0.0
@@ -1152,7 +1163,7 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
                     for m in r.tables["mode_mix"]["mode"]:
                         colours.setdefault(m, mode_colours(list(colours) + [m])[m])
             ctx["comparison"] = comparison_table(run.comparison)
-            ctx["comparison_tol"] = _money_tolerance(run.comparison)
+            ctx["comparison_tol"] = _money_tolerance(run.comparison, run.comparison.iloc[0])
             ctx["cost_bars"] = cost_bars_svg(labels, [run.results[lab].cost for lab in labels], currency,
                                              tol=ctx["comparison_tol"])
             desc = run.comparison[["scenario", "description", "resolve", "method"]].copy() \
