@@ -660,3 +660,35 @@ def test_cli_without_verb_exits_2(capsys):
     with pytest.raises(SystemExit) as info:
         main([])
     assert info.value.code == 2
+
+
+def test_broken_copy_of_the_demo_case_reports_every_error_and_exits_2(tmp_path):
+    """The demo case, copied and broken in three tables at once: one report naming each, exit code 2."""
+    import shutil
+    import subprocess
+    import sys
+
+    demo = Path(__file__).resolve().parents[1] / "cases" / "brackenholt"
+    broken = tmp_path / "broken"
+    shutil.copytree(demo, broken)
+    dem = (broken / "demand.csv").read_text().splitlines()
+    cols = dem[0].split(",")
+    row = dem[1].split(",")
+    row[cols.index("quantity")] = "-40"  # negative demand on line 2
+    dem[1] = ",".join(row)
+    dem.append(dem[2].replace(dem[2].split(",")[0], "C_NOWHERE", 1))  # unknown customer on the last line
+    (broken / "demand.csv").write_text("\n".join(dem) + "\n")
+    dcs = (broken / "dcs.csv").read_text().splitlines()
+    cols = dcs[0].split(",")
+    row = dcs[1].split(",")
+    row[cols.index("lat")] = "123.4"  # latitude out of range on line 2
+    dcs[1] = ",".join(row)
+    (broken / "dcs.csv").write_text("\n".join(dcs) + "\n")
+    p = subprocess.run([sys.executable, "-m", "netopt", "check", str(broken)], capture_output=True, text=True)
+    assert p.returncode == 2
+    assert "Traceback" not in p.stderr
+    assert "demand.csv" in p.stderr or "demand" in p.stderr
+    assert "row 2, column 'quantity'" in p.stderr
+    assert f"row {len(dem)}, column 'customer'" in p.stderr and "C_NOWHERE" in p.stderr
+    assert "dcs, row 2, column 'lat'" in p.stderr or ("dcs" in p.stderr and "column 'lat'" in p.stderr)
+    assert p.stderr.count("ERROR") >= 3
