@@ -388,7 +388,9 @@ def solve_rows(results: dict[tuple[str, str], dict]) -> list[list[str]]:
         ratio = ""
         if form == "tight" and other and "error" not in other:
             ratio = _fmt(r["wall_s"] / other["wall_s"], ".3f")
-            if other["status"] != "optimal":
+            if r["status"] != "optimal":
+                ratio = "n/a (tight stopped)"
+            elif other["status"] != "optimal":
                 ratio = "≤ " + ratio  # plain stopped at the limit: its true time is longer
         rows.append([size, form, r["status"], f"{ms['columns']:,}", f"{ms['rows']:,}", f"{ms['nonzeros']:,}",
                      str(ms["binaries"]), _fmt(r["build_s"]), _fmt(r["highs_s"]), _fmt(r["wall_s"]),
@@ -628,6 +630,8 @@ def main(argv: list[str] | None = None) -> int:
             results[(size, form)] = _median_run(runs)
     resolves = None
     rsize = args.resolves_size
+    if rsize not in sizes and (args.resolves > 0 or redesigns > 0):
+        log(f"re-solve section skipped: --resolves-size {rsize} is not among --sizes")
     if rsize in sizes and (args.resolves > 0 or redesigns > 0):
         log(f"[{datetime.now():%H:%M:%S}] {rsize} re-solves: {args.resolves} hold, {redesigns} redesign ...")
         resolves = _run_worker(["--worker", "resolves", "--size", rsize, "--resolves", str(args.resolves),
