@@ -149,6 +149,7 @@ class HighsModel:
         if self.integrality.any():
             self.highs.changeColsIntegrality(n, np.arange(n, dtype=np.int32),
                                              np.zeros(n, dtype=np.uint8))
+            self.integrality = np.zeros(n, dtype=np.uint8)  # now reported as an LP: bound = objective, gap 0
 
     def row(self, constraint) -> int:
         return self.row_of.get(id(constraint), -1)

@@ -257,3 +257,12 @@ def test_held_network_with_safety_stock_is_an_lp_exact_at_the_base():
     assert warm is not None and warm.verification.passed
     redesign = cost(c)
     assert redesign.objective <= warm.objective * (1 + REL)
+
+
+def test_warm_hold_reports_lp_bound_and_zero_gap(base_case, base):
+    """A held network is a linear program: its solve reports bound = objective and gap 0, not MIP fields."""
+    held = HeldNetwork(base_case, base)
+    assert held.base_info.gap == 0.0 and held.base_info.bound == pytest.approx(held.base_info.objective)
+    changes = [{"kind": "scale_demand", "factor": 1.05}]
+    warm = held.solve(apply_changes(base_case, sc("x", *changes)), changes)
+    assert warm.status == "optimal" and warm.gap == 0.0 and warm.bound == pytest.approx(warm.objective)
