@@ -333,7 +333,9 @@ SETTINGS: tuple[Setting, ...] = (
             "Chance of no stock-out per replenishment cycle, for safety stock", min=0.5, max=0.99999),
     Setting("inventory", "safety_stock", "bool", "", True,
             "Include safety stock at DCs in the cost: z·√(L·σd² + d²·σL²) per DC and product, pooled over the "
-            "customers served (square-root law), as a piecewise-linear curve of the DC's throughput"),
+            "customers served (square-root law), as a piecewise-linear curve of the DC's throughput. The curve adds "
+            "yes/no variables per DC and product and can slow the search several-fold on large networks: switch it "
+            "off for screening runs"),
     Setting("inventory", "safety_stock_breakpoints", "int", "", 12,
             "Breakpoints of each DC's piecewise-linear safety-stock curve, 0 included, spaced geometrically from the "
             "smallest customer demand to the DC's largest throughput; more = smaller error (reported), slower solve",
