@@ -20,7 +20,10 @@ import os
 import re
 import shutil
 import tempfile
-import tomllib
+try:
+    import tomllib
+except ModuleNotFoundError:  # Python 3.10: the same parser, as the tomli package
+    import tomli as tomllib
 from pathlib import Path
 
 import pandas as pd
