@@ -57,3 +57,22 @@ def random_case(seed: int, n_dcs: int = 4, n_customers: int = 8, n_suppliers: in
     for sec, vals in (settings or {}).items():
         s.setdefault(sec, {}).update(vals)
     return make_case(tables, s, name=f"random-{seed}")
+
+
+def lane_loss_case():
+    """One plant F, one customer C with demand 1,000 units/yr, direct lanes F→C by road at 2.00/unit and
+    by air at 7.00/unit, transit 0 days (no pipeline cost), one DC too dear to open, no safety stock.
+    Hand-checkable: losing the road lane costs 1,000 × (7 − 2) = 5,000/yr."""
+    return make_case({
+        "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 10.0}],
+        "suppliers": [],
+        "plants": [{"plant": "F", "product": "P", "lat": 48.0, "lon": 2.0}],
+        "dcs": [{"dc": "D", "lat": 45.0, "lon": 5.0, "fixed_cost": 1e9}],
+        "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
+        "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
+        "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False},
+                  {"mode": "air", "cost_per_tonne_km": 1.0, "speed_km_per_day": 5000, "generate_lanes": False}],
+        "lanes": [{"origin": "F", "destination": "C", "mode": "road", "cost_per_unit": 2.0, "transit_days": 0.0},
+                  {"origin": "F", "destination": "C", "mode": "air", "cost_per_unit": 7.0, "transit_days": 0.0}],
+    }, {"lanes": {"legs": ["plant-customer", "plant-dc", "dc-customer"], "prune_dominated": False},
+        "inventory": {"safety_stock": False}})

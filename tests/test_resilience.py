@@ -14,7 +14,7 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
-from randcase import random_case
+from randcase import lane_loss_case, random_case
 
 from netopt.api import solve
 from netopt.case import CaseError
@@ -88,19 +88,7 @@ def test_recovery_cost_of_losing_a_lane_closed_form():
     and air takes over all 1,000 units.  Losing the plant loses all q units at the penalty 2 × unit value
     = 20/unit (policy default): lost value 20,000; the 2,000/yr of road freight is no longer spent
     (recovery cost −2,000), so the impact is 18,000."""
-    case = make_case({
-        "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 10.0}],
-        "suppliers": [],
-        "plants": [{"plant": "F", "product": "P", "lat": 48.0, "lon": 2.0}],
-        "dcs": [{"dc": "D", "lat": 45.0, "lon": 5.0, "fixed_cost": 1e9}],
-        "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
-        "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
-        "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False},
-                  {"mode": "air", "cost_per_tonne_km": 1.0, "speed_km_per_day": 5000, "generate_lanes": False}],
-        "lanes": [{"origin": "F", "destination": "C", "mode": "road", "cost_per_unit": 2.0, "transit_days": 0.0},
-                  {"origin": "F", "destination": "C", "mode": "air", "cost_per_unit": 7.0, "transit_days": 0.0}],
-    }, {"lanes": {"legs": ["plant-customer", "plant-dc", "dc-customer"], "prune_dominated": False},
-        "inventory": {"safety_stock": False}})
+    case = lane_loss_case()
     base = solve(case, mip_gap=1e-9)
     t, _ = run_sweep(case, base, workers=0, progress=False)
     t = t.set_index("id")

@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import pytest
-from randcase import random_case
+from randcase import lane_loss_case, random_case
 
 from netopt.api import solve
 from netopt.case import CaseError
-from netopt.frames import make_case
 from netopt.scenarios import HeldNetwork, Scenario, apply_changes, parse_scenarios, run_scenarios
 
 REL = 1e-6
@@ -192,19 +191,7 @@ def test_recovery_cost_of_losing_a_lane_closed_form():
     """One plant, one customer, demand q = 1,000 units/yr; direct road lane at 2.00/unit, air at 7.00/unit,
     transit 0 days (no pipeline cost).  Losing the road lane moves everything to air:
     recovery cost = q × (7 − 2) = 5,000/yr, the same held or redesigned (no DCs to change)."""
-    case = make_case({
-        "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 10.0}],
-        "suppliers": [],
-        "plants": [{"plant": "F", "product": "P", "lat": 48.0, "lon": 2.0}],
-        "dcs": [{"dc": "D", "lat": 45.0, "lon": 5.0, "fixed_cost": 1e9}],
-        "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
-        "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
-        "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False},
-                  {"mode": "air", "cost_per_tonne_km": 1.0, "speed_km_per_day": 5000, "generate_lanes": False}],
-        "lanes": [{"origin": "F", "destination": "C", "mode": "road", "cost_per_unit": 2.0, "transit_days": 0.0},
-                  {"origin": "F", "destination": "C", "mode": "air", "cost_per_unit": 7.0, "transit_days": 0.0}],
-    }, {"lanes": {"legs": ["plant-customer", "plant-dc", "dc-customer"], "prune_dominated": False},
-        "inventory": {"safety_stock": False}})
+    case = lane_loss_case()
     case.scenarios = [{"name": "road_lost", "resolve": "both",
                        "change": [{"kind": "close_lane", "origin": "F", "destination": "C", "mode": "road"}]}]
     run = run_scenarios(case)
