@@ -37,9 +37,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case
-from netopt.frames import make_case
-from netopt.geo import pairwise_km
+from netopt.data.case import Case
+from netopt.data.frames import make_case
+from netopt.network.geo import pairwise_km
 
 SIZES: dict[str, dict[str, int]] = {
     "tiny": {"suppliers": 6, "plants": 2, "dcs": 5, "customers": 12, "products": 2, "modes": 3},
@@ -108,7 +108,9 @@ def _uniform_points(rng: np.random.Generator, n: int, margin: float = 0.0) -> tu
     return lat, lon
 
 
-def _around(rng: np.random.Generator, lat0: np.ndarray, lon0: np.ndarray, sd_km: float) -> tuple[np.ndarray, np.ndarray]:
+def _around(
+    rng: np.random.Generator, lat0: np.ndarray, lon0: np.ndarray, sd_km: float
+) -> tuple[np.ndarray, np.ndarray]:
     """Points scattered (normal, ``sd_km`` km per axis) around the given centres, clipped to the box."""
     lat = lat0 + rng.normal(0.0, sd_km / KM_PER_DEG_LAT, len(lat0))
     lon = lon0 + rng.normal(0.0, sd_km / (KM_PER_DEG_LAT * np.cos(np.radians(lat0))), len(lat0))
@@ -150,12 +152,15 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
     p_value = rng.uniform(60.0, 400.0, K)  # EUR/unit
     m_weight = rng.uniform(1.0, 8.0, M)
     m_value = rng.uniform(0.5, 4.0, M)
-    products = pd.DataFrame({
-        "product": prod + mat, "kind": ["finished"] * K + ["material"] * M,
-        "unit_weight_kg": np.round(np.concatenate([p_weight, m_weight]), 2),
-        "unit_value": np.round(np.concatenate([p_value, m_value]), 2),
-        "demand_cv": np.concatenate([np.round(rng.uniform(0.1, 0.5, K), 2), np.zeros(M)]),
-    })
+    products = pd.DataFrame(
+        {
+            "product": prod + mat,
+            "kind": ["finished"] * K + ["material"] * M,
+            "unit_weight_kg": np.round(np.concatenate([p_weight, m_weight]), 2),
+            "unit_value": np.round(np.concatenate([p_value, m_value]), 2),
+            "demand_cv": np.concatenate([np.round(rng.uniform(0.1, 0.5, K), 2), np.zeros(M)]),
+        }
+    )
 
     # Bill of materials: product k uses material k mod M, and with probability 0.5 one other material.
     main = np.arange(K) % M
@@ -163,11 +168,13 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
     extra = rng.integers(0, M, K)
     has_extra = (rng.random(K) < 0.5) & (extra != main)
     qty_extra = rng.integers(1, 3, K).astype(float)
-    bom = pd.DataFrame({
-        "product": [prod[k] for k in range(K)] + [prod[k] for k in np.flatnonzero(has_extra)],
-        "material": [mat[m] for m in main] + [mat[m] for m in extra[has_extra]],
-        "quantity_per_unit": np.concatenate([qty_main, qty_extra[has_extra]]),
-    })
+    bom = pd.DataFrame(
+        {
+            "product": [prod[k] for k in range(K)] + [prod[k] for k in np.flatnonzero(has_extra)],
+            "material": [mat[m] for m in main] + [mat[m] for m in extra[has_extra]],
+            "quantity_per_unit": np.concatenate([qty_main, qty_extra[has_extra]]),
+        }
+    )
     use = np.zeros((K, M))
     use[np.arange(K), main] = qty_main
     use[np.flatnonzero(has_extra), extra[has_extra]] += qty_extra[has_extra]
@@ -194,8 +201,9 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
     qty = np.round(rng.lognormal(np.log(1500.0), 0.7, (C, K)) * size_factor[:, None])
     qty = np.maximum(qty, 10.0) * buys
     ci, ki = np.nonzero(buys)
-    demand = pd.DataFrame({"customer": np.asarray(cust_codes)[ci], "product": np.asarray(prod)[ki],
-                           "quantity": qty[ci, ki]})
+    demand = pd.DataFrame(
+        {"customer": np.asarray(cust_codes)[ci], "product": np.asarray(prod)[ki], "quantity": qty[ci, ki]}
+    )
     d_by_product = qty.sum(axis=0)  # units/yr per finished product
     total_demand = float(d_by_product.sum())
 
@@ -208,25 +216,42 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
     limit = float(np.ceil(limit))
 
     # ---- service: window 1.5 days; target only where some mode can meet it from a DC within the limit
-    modes = [m for m in _MODES[:spec["modes"]]]
+    modes = [m for m in _MODES[: spec["modes"]]]
     last_mile = [m for m in modes if "dc-customer" in m[7]]
     reach = max((SERVICE_WINDOW_DAYS - m[4]) * m[3] for m in last_mile)  # road km within the window
-    can_meet = (road_sorted[:, 0] <= min(reach, limit))
-    customers = pd.DataFrame({"customer": cust_codes, "lat": np.round(c_lat, 4), "lon": np.round(c_lon, 4),
-                              "region": [f"metro-{i + 1}" for i in c_metro],
-                              "service_class": np.where(can_meet, "standard", "remote")})
-    service_classes = pd.DataFrame({"service_class": ["standard", "remote"],
-                                    "max_days": [SERVICE_WINDOW_DAYS, SERVICE_WINDOW_DAYS],
-                                    "target_share": [SERVICE_TARGET, 0.0]})
+    can_meet = road_sorted[:, 0] <= min(reach, limit)
+    customers = pd.DataFrame(
+        {
+            "customer": cust_codes,
+            "lat": np.round(c_lat, 4),
+            "lon": np.round(c_lon, 4),
+            "region": [f"metro-{i + 1}" for i in c_metro],
+            "service_class": np.where(can_meet, "standard", "remote"),
+        }
+    )
+    service_classes = pd.DataFrame(
+        {
+            "service_class": ["standard", "remote"],
+            "max_days": [SERVICE_WINDOW_DAYS, SERVICE_WINDOW_DAYS],
+            "target_share": [SERVICE_TARGET, 0.0],
+        }
+    )
 
     # ---- plants: each makes each product with probability 0.7, at least 2 plants per product
     makes = _at_least(rng, rng.random((P, K)) < 0.7, 2)
     n_makers = makes.sum(axis=0)
     pi, pk = np.nonzero(makes)
     plant_cap = np.round(d_by_product[pk] * 1.6 / n_makers[pk] * rng.uniform(0.8, 1.2, len(pk)))
-    plants = pd.DataFrame({"plant": np.asarray(plant_codes)[pi], "product": np.asarray(prod)[pk],
-                           "lat": np.round(p_lat[pi], 4), "lon": np.round(p_lon[pi], 4),
-                           "capacity": plant_cap, "unit_cost": np.round(rng.uniform(1.0, 4.0, len(pk)), 2)})
+    plants = pd.DataFrame(
+        {
+            "plant": np.asarray(plant_codes)[pi],
+            "product": np.asarray(prod)[pk],
+            "lat": np.round(p_lat[pi], 4),
+            "lon": np.round(p_lon[pi], 4),
+            "capacity": plant_cap,
+            "unit_cost": np.round(rng.uniform(1.0, 4.0, len(pk)), 2),
+        }
+    )
 
     # ---- suppliers: each offers each material with probability 0.4, at least 3 per material
     offers = _at_least(rng, rng.random((S, M)) < 0.4, 3)
@@ -236,14 +261,18 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
     need_m = d_by_product @ use  # material units/yr if all demand is made
     si, sm = np.nonzero(offers)
     sup_cap = np.round(need_m[sm] * 2.2 / n_offers[sm] * rng.uniform(0.7, 1.3, len(sm)))
-    suppliers = pd.DataFrame({
-        "supplier": np.asarray(sup_codes)[si], "product": np.asarray(mat)[sm],
-        "lat": np.round(s_lat[si], 4), "lon": np.round(s_lon[si], 4),
-        "region": np.where(s_lon[si] < np.mean(LON_RANGE), "west", "east"),
-        "capacity": np.maximum(sup_cap, 1.0),
-        "unit_cost": np.round(m_value[sm] * rng.uniform(0.8, 1.2, len(sm)), 3),
-        "lead_time_sd_days": np.round(rng.uniform(0.5, 4.0, len(sm)), 1),
-    })
+    suppliers = pd.DataFrame(
+        {
+            "supplier": np.asarray(sup_codes)[si],
+            "product": np.asarray(mat)[sm],
+            "lat": np.round(s_lat[si], 4),
+            "lon": np.round(s_lon[si], 4),
+            "region": np.where(s_lon[si] < np.mean(LON_RANGE), "west", "east"),
+            "capacity": np.maximum(sup_cap, 1.0),
+            "unit_cost": np.round(m_value[sm] * rng.uniform(0.8, 1.2, len(sm)), 3),
+            "lead_time_sd_days": np.round(rng.uniform(0.5, 4.0, len(sm)), 1),
+        }
+    )
 
     # ---- explicit capacities on about a quarter of the supplier→plant road-FTL lanes
     plant_needs = (makes.astype(float) @ use) > 0  # (P, M)
@@ -253,24 +282,50 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
     # a plant's likely material intake (units/yr) if production is spread evenly over makers
     plant_intake = (makes / np.maximum(n_makers, 1) * d_by_product) @ use  # (P, M)
     lane_cap = np.round(plant_intake.sum(axis=1)[lp] * rng.uniform(0.15, 0.4, len(lp)))
-    lanes = pd.DataFrame({"origin": np.asarray(sup_codes)[ls], "destination": np.asarray(plant_codes)[lp],
-                          "mode": "road-FTL", "product": "", "capacity": np.maximum(lane_cap, 1.0)})
+    lanes = pd.DataFrame(
+        {
+            "origin": np.asarray(sup_codes)[ls],
+            "destination": np.asarray(plant_codes)[lp],
+            "mode": "road-FTL",
+            "product": "",
+            "capacity": np.maximum(lane_cap, 1.0),
+        }
+    )
 
     # ---- DCs: capacity ≈ 1.5–2.5 × the average load if 40 % open; fixed cost scaled to open ≈ 40 %
     dc_cap = np.round(total_demand / (OPEN_SHARE_TARGET * D) * rng.uniform(1.5, 2.5, D))
     fixed = _dc_fixed_costs(rng, D, total_demand, float(np.average(p_weight, weights=d_by_product)), limit)
     existing = rng.random(D) < 0.1
-    dcs = pd.DataFrame({
-        "dc": dc_codes, "lat": np.round(d_lat, 4), "lon": np.round(d_lon, 4),
-        "status": np.where(existing, "existing", "candidate"), "fixed_cost": np.round(fixed, -2),
-        "capacity": dc_cap, "handling_cost": np.round(rng.uniform(0.3, 1.0, D), 2),
-        "closing_cost": np.where(existing, np.round(0.3 * fixed, -2), 0.0),
-        "region": [f"metro-{i + 1}" for i in d_metro],
-    })
+    dcs = pd.DataFrame(
+        {
+            "dc": dc_codes,
+            "lat": np.round(d_lat, 4),
+            "lon": np.round(d_lon, 4),
+            "status": np.where(existing, "existing", "candidate"),
+            "fixed_cost": np.round(fixed, -2),
+            "capacity": dc_cap,
+            "handling_cost": np.round(rng.uniform(0.3, 1.0, D), 2),
+            "closing_cost": np.where(existing, np.round(0.3 * fixed, -2), 0.0),
+            "region": [f"metro-{i + 1}" for i in d_metro],
+        }
+    )
 
-    mode_table = pd.DataFrame([{"mode": m[0], "cost_per_tonne_km": m[1], "fixed_cost_per_unit": m[2],
-                                "speed_km_per_day": m[3], "handling_days": m[4], "circuity": ROAD_CIRCUITY,
-                                "co2_kg_per_tonne_km": m[5], "min_km": m[6], "legs": m[7]} for m in modes])
+    mode_table = pd.DataFrame(
+        [
+            {
+                "mode": m[0],
+                "cost_per_tonne_km": m[1],
+                "fixed_cost_per_unit": m[2],
+                "speed_km_per_day": m[3],
+                "handling_days": m[4],
+                "circuity": ROAD_CIRCUITY,
+                "co2_kg_per_tonne_km": m[5],
+                "min_km": m[6],
+                "legs": m[7],
+            }
+            for m in modes
+        ]
+    )
 
     name = size if isinstance(size, str) else "custom"
     settings = {
@@ -280,14 +335,24 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
         "lanes": {"max_dc_customer_km": limit},
         "inventory": {"safety_stock": bool(safety_stock)},
     }
-    tables = {"products": products, "suppliers": suppliers, "plants": plants, "bill_of_materials": bom,
-              "dcs": dcs, "customers": customers, "demand": demand, "service_classes": service_classes,
-              "modes": mode_table, "lanes": lanes}
+    tables = {
+        "products": products,
+        "suppliers": suppliers,
+        "plants": plants,
+        "bill_of_materials": bom,
+        "dcs": dcs,
+        "customers": customers,
+        "demand": demand,
+        "service_classes": service_classes,
+        "modes": mode_table,
+        "lanes": lanes,
+    }
     return make_case(tables, settings, name=settings["case"]["name"])
 
 
-def _dc_fixed_costs(rng: np.random.Generator, n_dc: int, total_demand: float, mean_weight_kg: float,
-                    limit_km: float) -> np.ndarray:
+def _dc_fixed_costs(
+    rng: np.random.Generator, n_dc: int, total_demand: float, mean_weight_kg: float, limit_km: float
+) -> np.ndarray:
     """Annual fixed cost per DC, EUR/yr.
 
     Scale: the outbound road-LTL freight of all demand over a distance of the order of

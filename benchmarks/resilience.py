@@ -35,13 +35,20 @@ import pandas as pd
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
-from generator import synthetic_case  # noqa: E402
+from generator import synthetic_case
 
-from netopt.api import solve  # noqa: E402
-from netopt.lanes import build_lanes  # noqa: E402
-from netopt.resilience import (element_changes, held_case, hold_resolve, make_spec, run_sweep,  # noqa: E402
-                               sweep_elements, worker_state)
-from netopt.scenarios import HeldNetwork, Scenario, apply_changes  # noqa: E402
+from netopt.api import solve
+from netopt.network.lanes import build_lanes
+from netopt.studies.resilience import (
+    element_changes,
+    held_case,
+    hold_resolve,
+    make_spec,
+    run_sweep,
+    sweep_elements,
+    worker_state,
+)
+from netopt.studies.scenarios import HeldNetwork, Scenario, apply_changes
 
 
 def sample_elements(case, base, n: int, seed: int) -> pd.DataFrame:
@@ -93,10 +100,17 @@ def main(argv: list[str] | None = None) -> dict:
     base = solve(case, time_limit=a.base_time_limit, mip_gap=1e-2)
     if not base.has_solution:
         raise SystemExit(f"the base design has no solution within {a.base_time_limit} s ({base.status})")
-    out["base"] = {"status": base.status, "gap": base.gap, "seconds": time.perf_counter() - t0,
-                   "arcs": base.model_size.get("arcs"), "dcs_open": int(base.tables["dcs"]["open"].sum())}
-    print(f"base: {base.status}, gap {base.gap:.4f}, {out['base']['seconds']:.1f} s, {out['base']['arcs']} arcs",
-          flush=True)
+    out["base"] = {
+        "status": base.status,
+        "gap": base.gap,
+        "seconds": time.perf_counter() - t0,
+        "arcs": base.model_size.get("arcs"),
+        "dcs_open": int(base.tables["dcs"]["open"].sum()),
+    }
+    print(
+        f"base: {base.status}, gap {base.gap:.4f}, {out['base']['seconds']:.1f} s, {out['base']['arcs']} arcs",
+        flush=True,
+    )
 
     el = sample_elements(case, base, a.tasks, a.seed)
     rows = el.to_dict("records")
@@ -111,10 +125,17 @@ def main(argv: list[str] | None = None) -> dict:
     t0 = time.perf_counter()
     warm = {r["id"]: hold_resolve(st, r) for r in rows}
     warm_s = time.perf_counter() - t0
-    out["warm"] = {"model_build_seconds": build, "seconds": warm_s, "resolves_per_second": len(rows) / warm_s,
-                   "mean_highs_seconds": float(np.mean([w["seconds"] for w in warm.values()]))}
-    print(f"warm: model built once in {build:.1f} s; {len(rows)} re-solves in {warm_s:.1f} s = "
-          f"{len(rows) / warm_s:.2f}/s", flush=True)
+    out["warm"] = {
+        "model_build_seconds": build,
+        "seconds": warm_s,
+        "resolves_per_second": len(rows) / warm_s,
+        "mean_highs_seconds": float(np.mean([w["seconds"] for w in warm.values()])),
+    }
+    print(
+        f"warm: model built once in {build:.1f} s; {len(rows)} re-solves in {warm_s:.1f} s = "
+        f"{len(rows) / warm_s:.2f}/s",
+        flush=True,
+    )
 
     # rebuild, in process (a spread of element types)
     pick = [rows[i] for i in np.linspace(0, len(rows) - 1, num=min(a.rebuild, len(rows))).astype(int)]
@@ -125,16 +146,23 @@ def main(argv: list[str] | None = None) -> dict:
         w = warm[r["id"]]["total_cost"] - float(spec.base_cost.get("safety_stock", 0.0))
         worst = max(worst, abs(obj - w) / max(1.0, abs(obj)))
         print(f"  rebuild {r['id']}: {s:.1f} s", flush=True)
-    out["rebuild"] = {"elements": [r["id"] for r in pick], "seconds": secs,
-                      "resolves_per_second": len(secs) / sum(secs), "max_rel_objective_diff_vs_warm": worst}
+    out["rebuild"] = {
+        "elements": [r["id"] for r in pick],
+        "seconds": secs,
+        "resolves_per_second": len(secs) / sum(secs),
+        "max_rel_objective_diff_vs_warm": worst,
+    }
     out["warm_over_rebuild"] = out["warm"]["resolves_per_second"] / out["rebuild"]["resolves_per_second"]
-    print(f"rebuild: {np.mean(secs):.1f} s each = {out['rebuild']['resolves_per_second']:.3f}/s; "
-          f"warm/rebuild = {out['warm_over_rebuild']:.0f}x; objectives agree to {worst:.1e}", flush=True)
+    print(
+        f"rebuild: {np.mean(secs):.1f} s each = {out['rebuild']['resolves_per_second']:.3f}/s; "
+        f"warm/rebuild = {out['warm_over_rebuild']:.0f}x; objectives agree to {worst:.1e}",
+        flush=True,
+    )
 
     # pools (the forkserver is started first so neither pool's time includes it)
     from concurrent.futures import ProcessPoolExecutor
 
-    from netopt.resilience import _pool_context
+    from netopt.studies.resilience import _pool_context
 
     t0 = time.perf_counter()
     with ProcessPoolExecutor(1, mp_context=_pool_context()) as ex:
@@ -156,12 +184,20 @@ def main(argv: list[str] | None = None) -> dict:
         # Share of a CPU each worker got while tasks ran (1.0 = a core of its own): the CPU time of the
         # tasks after the first, over n workers × the time between the first and the last result.
         cpu_share = sum(cpu[1:]) / (n * window) if window > 0 else float("nan")
-        out[f"pool_{n}"] = {"wall_seconds": wall, "wall_rate": len(ids) / wall, "steady_rate": steady_rate(stamps),
-                            "cpu_seconds_per_task": float(np.mean(cpu)), "cpu_share_per_worker": cpu_share,
-                            "ran_on": info["ran_on"]}
-        print(f"pool of {n}: wall {wall:.1f} s ({len(ids) / wall:.2f}/s incl. start-up and model build), "
-              f"steady {steady_rate(stamps):.2f}/s, {np.mean(cpu):.3f} CPU s per task, each worker got "
-              f"{cpu_share:.0%} of a CPU", flush=True)
+        out[f"pool_{n}"] = {
+            "wall_seconds": wall,
+            "wall_rate": len(ids) / wall,
+            "steady_rate": steady_rate(stamps),
+            "cpu_seconds_per_task": float(np.mean(cpu)),
+            "cpu_share_per_worker": cpu_share,
+            "ran_on": info["ran_on"],
+        }
+        print(
+            f"pool of {n}: wall {wall:.1f} s ({len(ids) / wall:.2f}/s incl. start-up and model build), "
+            f"steady {steady_rate(stamps):.2f}/s, {np.mean(cpu):.3f} CPU s per task, each worker got "
+            f"{cpu_share:.0%} of a CPU",
+            flush=True,
+        )
     if a.workers > 1:
         p1, pn = out["pool_1"], out[f"pool_{a.workers}"]
         out["speedup_steady"] = pn["steady_rate"] / p1["steady_rate"]

@@ -53,6 +53,7 @@ RESOLVE_AGREE = 1e-6  # relative objective agreement of warm and cold hold re-so
 
 # ====================================================================== workers (subprocesses)
 
+
 def _peak_mb() -> float:
     """Peak resident memory of this process so far, MB (Linux ru_maxrss is in KiB)."""
     return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
@@ -74,13 +75,14 @@ def _finite(x) -> float | None:
     return x if x == x and abs(x) != float("inf") else None
 
 
-def worker_solve(size: str, formulation: str, seed: int, time_limit: float, mip_gap: float,
-                 safety_stock: bool = False) -> dict:
+def worker_solve(
+    size: str, formulation: str, seed: int, time_limit: float, mip_gap: float, safety_stock: bool = False
+) -> dict:
     """Solve one (size, formulation) MIP and its LP relaxation; peak memory is taken after the MIP."""
     from benchmarks.generator import synthetic_case
     from netopt.api import solve
+    from netopt.engine.highs import compile_model
     from netopt.model import build_model
-    from netopt.solver import compile_model
 
     t0 = time.perf_counter()
     case = synthetic_case(size, seed, safety_stock=safety_stock)
@@ -97,8 +99,15 @@ def worker_solve(size: str, formulation: str, seed: int, time_limit: float, mip_
                 reached["large"] = float(info["elapsed"])
 
     t0 = time.perf_counter()
-    res = solve(case, formulation=formulation, time_limit=time_limit, mip_gap=mip_gap, threads=THREADS,
-                keep_model=True, progress=progress)
+    res = solve(
+        case,
+        formulation=formulation,
+        time_limit=time_limit,
+        mip_gap=mip_gap,
+        threads=THREADS,
+        keep_model=True,
+        progress=progress,
+    )
     wall = time.perf_counter() - t0
     peak = _peak_mb()
     hinfo = res.highs_model.highs.getInfo()
@@ -106,16 +115,30 @@ def worker_solve(size: str, formulation: str, seed: int, time_limit: float, mip_
     build_s = sum(t.get(k, 0.0) for k in ("lanes", "build", "compile", "handover"))
     highs_s = float(t["highs"])
     out = {
-        "kind": "solve", "size": size, "formulation": formulation, "seed": seed, "time_limit": time_limit,
-        "mip_gap_setting": mip_gap, "status": res.status, "objective": _finite(res.objective),
-        "bound": _finite(res.bound), "gap": _finite(res.gap), "nodes": int(hinfo.mip_node_count),
+        "kind": "solve",
+        "size": size,
+        "formulation": formulation,
+        "seed": seed,
+        "time_limit": time_limit,
+        "mip_gap_setting": mip_gap,
+        "status": res.status,
+        "objective": _finite(res.objective),
+        "bound": _finite(res.bound),
+        "gap": _finite(res.gap),
+        "nodes": int(hinfo.mip_node_count),
         "simplex_iterations": int(hinfo.simplex_iteration_count),
-        "model_size": res.model_size, "timings": t, "generate_s": generate_s, "wall_s": wall, "build_s": build_s,
-        "highs_s": highs_s, "pipeline_ratio": wall / highs_s if highs_s > 0 else None,
-        "peak_mb": peak, "peak_mb_before_solve": peak_before,
+        "model_size": res.model_size,
+        "timings": t,
+        "generate_s": generate_s,
+        "wall_s": wall,
+        "build_s": build_s,
+        "highs_s": highs_s,
+        "pipeline_ratio": wall / highs_s if highs_s > 0 else None,
+        "peak_mb": peak,
+        "peak_mb_before_solve": peak_before,
         "verified": bool(res.verification.passed) if res.verification else None,
         "open_dcs": int(res.tables["dcs"]["open"].sum()) if res.has_solution else None,
-        "dcs": int(len(case.tables["dcs"])),
+        "dcs": len(case.tables["dcs"]),
         "highs_s_to_large_gap": reached.get("large"),
     }
     if out["highs_s_to_large_gap"] is None and out["gap"] is not None and out["gap"] <= LARGE_GAP_TARGET:
@@ -180,8 +203,12 @@ def _pick_scenarios(base, n: int) -> list[tuple[str, list[dict]]]:
             continue
         seen_s.add(o)
         cap = float(np.floor(0.5 * f))
-        cap_cands.append((f"cap {o}→{d} {m} at {cap:.0f}",
-                          [{"kind": "cap_lane", "origin": o, "destination": d, "mode": m, "capacity": cap}]))
+        cap_cands.append(
+            (
+                f"cap {o}→{d} {m} at {cap:.0f}",
+                [{"kind": "cap_lane", "origin": o, "destination": d, "mode": m, "capacity": cap}],
+            )
+        )
 
     out = []
     li = ci = 0
@@ -215,22 +242,31 @@ def _mip_bounds(base, changes: list[dict]):
     return (np.concatenate(cols).astype(np.int32), np.concatenate(lo), np.concatenate(hi))
 
 
-def worker_resolves(size: str, seed: int, n: int, redesigns: int, time_limit: float, mip_gap: float,
-                    safety_stock: bool = False) -> dict:
+def worker_resolves(
+    size: str, seed: int, n: int, redesigns: int, time_limit: float, mip_gap: float, safety_stock: bool = False
+) -> dict:
     """Hold-the-network re-solves warm vs cold, and redesign re-solves on the kept MIP vs cold."""
     import numpy as np
 
     from benchmarks.generator import synthetic_case
     from netopt.api import solve
-    from netopt.scenarios import HeldNetwork, Scenario, apply_changes
+    from netopt.studies.scenarios import HeldNetwork, Scenario, apply_changes
 
     case = synthetic_case(size, seed, safety_stock=safety_stock)
     t0 = time.perf_counter()
     base = solve(case, formulation="tight", time_limit=time_limit, mip_gap=mip_gap, threads=THREADS, keep_model=True)
-    out = {"kind": "resolves", "size": size, "seed": seed, "base_status": base.status,
-           "base_objective": _finite(base.objective), "base_gap": _finite(base.gap),
-           "base_wall_s": time.perf_counter() - t0, "base_highs_s": base.timings["highs"],
-           "hold": [], "redesign": []}
+    out = {
+        "kind": "resolves",
+        "size": size,
+        "seed": seed,
+        "base_status": base.status,
+        "base_objective": _finite(base.objective),
+        "base_gap": _finite(base.gap),
+        "base_wall_s": time.perf_counter() - t0,
+        "base_highs_s": base.timings["highs"],
+        "hold": [],
+        "redesign": [],
+    }
     if not base.has_solution:
         out["error"] = f"base has no solution ({base.status})"
         return out
@@ -252,20 +288,30 @@ def worker_resolves(size: str, seed: int, n: int, redesigns: int, time_limit: fl
         t0 = time.perf_counter()
         c = solve(sc_case, hold=held_open, time_limit=time_limit, mip_gap=mip_gap, threads=THREADS, diagnose=False)
         cold_wall = time.perf_counter() - t0
-        row = {"scenario": name, "warm_used": w is not None,
-               "warm_status": w.status if w else None, "warm_objective": _finite(w.objective) if w else None,
-               "warm_resolve_s": w.timings.get("total") if w else None,
-               "warm_highs_s": w.timings.get("highs") if w else None, "warm_with_tables_s": warm_wall,
-               "cold_status": c.status, "cold_objective": _finite(c.objective), "cold_s": cold_wall,
-               "cold_highs_s": c.timings.get("highs"),
-               "lost_units": float(w.tables["unmet"]["lost_units"].sum()) if (w and w.has_solution) else None}
+        row = {
+            "scenario": name,
+            "warm_used": w is not None,
+            "warm_status": w.status if w else None,
+            "warm_objective": _finite(w.objective) if w else None,
+            "warm_resolve_s": w.timings.get("total") if w else None,
+            "warm_highs_s": w.timings.get("highs") if w else None,
+            "warm_with_tables_s": warm_wall,
+            "cold_status": c.status,
+            "cold_objective": _finite(c.objective),
+            "cold_s": cold_wall,
+            "cold_highs_s": c.timings.get("highs"),
+            "lost_units": float(w.tables["unmet"]["lost_units"].sum()) if (w and w.has_solution) else None,
+        }
         if row["warm_objective"] is not None and row["cold_objective"] is not None:
             row["rel_diff"] = abs(row["warm_objective"] - row["cold_objective"]) / max(1.0, abs(row["cold_objective"]))
         else:
             row["rel_diff"] = None
         out["hold"].append(row)
-        print(f"  hold {name}: warm {row['warm_resolve_s']} s, cold {cold_wall:.2f} s, diff {row['rel_diff']}",
-              file=sys.stderr, flush=True)
+        print(
+            f"  hold {name}: warm {row['warm_resolve_s']} s, cold {cold_wall:.2f} s, diff {row['rel_diff']}",
+            file=sys.stderr,
+            flush=True,
+        )
     del held
 
     # (b) redesign: the kept base MIP model with bound changes (HiGHS restarts its search) vs a cold rebuild.
@@ -285,22 +331,36 @@ def worker_resolves(size: str, seed: int, n: int, redesigns: int, time_limit: fl
         t0 = time.perf_counter()
         c = solve(cases[name], time_limit=time_limit, mip_gap=mip_gap, threads=THREADS, diagnose=False)
         cold_wall = time.perf_counter() - t0
-        row = {"scenario": name, "warm_status": wi.status, "warm_objective": _finite(wi.objective),
-               "warm_gap": _finite(wi.gap), "warm_s": warm_wall, "warm_highs_s": wi.solver_seconds,
-               "warm_nodes": wi.nodes, "cold_status": c.status, "cold_objective": _finite(c.objective),
-               "cold_gap": _finite(c.gap), "cold_s": cold_wall, "cold_highs_s": c.timings.get("highs")}
+        row = {
+            "scenario": name,
+            "warm_status": wi.status,
+            "warm_objective": _finite(wi.objective),
+            "warm_gap": _finite(wi.gap),
+            "warm_s": warm_wall,
+            "warm_highs_s": wi.solver_seconds,
+            "warm_nodes": wi.nodes,
+            "cold_status": c.status,
+            "cold_objective": _finite(c.objective),
+            "cold_gap": _finite(c.gap),
+            "cold_s": cold_wall,
+            "cold_highs_s": c.timings.get("highs"),
+        }
         if row["warm_objective"] is not None and row["cold_objective"] is not None:
             row["rel_diff"] = abs(row["warm_objective"] - row["cold_objective"]) / max(1.0, abs(row["cold_objective"]))
         else:
             row["rel_diff"] = None
         out["redesign"].append(row)
-        print(f"  redesign {name}: warm {warm_wall:.1f} s, cold {cold_wall:.1f} s, diff {row['rel_diff']}",
-              file=sys.stderr, flush=True)
+        print(
+            f"  redesign {name}: warm {warm_wall:.1f} s, cold {cold_wall:.1f} s, diff {row['rel_diff']}",
+            file=sys.stderr,
+            flush=True,
+        )
     out["peak_mb"] = _peak_mb()
     return out
 
 
 # ====================================================================== driver
+
 
 def _run_worker(argv: list[str], log) -> dict:
     """Run this script as a worker subprocess; return its result dict (or an error dict)."""
@@ -310,11 +370,10 @@ def _run_worker(argv: list[str], log) -> dict:
     for line in p.stderr.splitlines():
         if line.startswith("  hold ") or line.startswith("  redesign "):
             log(line)
-    found = [line[len(MARK):] for line in p.stdout.splitlines() if line.startswith(MARK)]
+    found = [line[len(MARK) :] for line in p.stdout.splitlines() if line.startswith(MARK)]
     if p.returncode != 0 or not found:
         tail = "\n".join(p.stderr.strip().splitlines()[-15:])
-        return {"error": f"worker exited {p.returncode}: {tail}", "argv": argv,
-                "process_s": time.perf_counter() - t0}
+        return {"error": f"worker exited {p.returncode}: {tail}", "argv": argv, "process_s": time.perf_counter() - t0}
     out = json.loads(found[-1])
     out["process_s"] = time.perf_counter() - t0
     return out
@@ -371,10 +430,16 @@ def _machine() -> dict:
             from importlib.metadata import version
 
             versions[mod] = version(mod)
-        except Exception:  # noqa: BLE001 - report what is there
+        except Exception:
             versions[mod] = "?"
-    return {"cpu": cpu, "cores": os.cpu_count(), "memory": mem, "python": platform.python_version(),
-            "versions": versions, "load": os.getloadavg()}
+    return {
+        "cpu": cpu,
+        "cores": os.cpu_count(),
+        "memory": mem,
+        "python": platform.python_version(),
+        "versions": versions,
+        "load": os.getloadavg(),
+    }
 
 
 def solve_rows(results: dict[tuple[str, str], dict]) -> list[list[str]]:
@@ -392,16 +457,49 @@ def solve_rows(results: dict[tuple[str, str], dict]) -> list[list[str]]:
                 ratio = "n/a (tight stopped)"
             elif other["status"] != "optimal":
                 ratio = "≤ " + ratio  # plain stopped at the limit: its true time is longer
-        rows.append([size, form, r["status"], f"{ms['columns']:,}", f"{ms['rows']:,}", f"{ms['nonzeros']:,}",
-                     str(ms["binaries"]), _fmt(r["build_s"]), _fmt(r["highs_s"]), _fmt(r["wall_s"]),
-                     _fmt(r["pipeline_ratio"], ".3f"), _pct(r["lp_gap"]), _pct(r["gap"], 4), str(r["nodes"]),
-                     _fmt(r["peak_mb"], ".0f"), ratio, "yes" if r["verified"] else "NO"])
+        rows.append(
+            [
+                size,
+                form,
+                r["status"],
+                f"{ms['columns']:,}",
+                f"{ms['rows']:,}",
+                f"{ms['nonzeros']:,}",
+                str(ms["binaries"]),
+                _fmt(r["build_s"]),
+                _fmt(r["highs_s"]),
+                _fmt(r["wall_s"]),
+                _fmt(r["pipeline_ratio"], ".3f"),
+                _pct(r["lp_gap"]),
+                _pct(r["gap"], 4),
+                str(r["nodes"]),
+                _fmt(r["peak_mb"], ".0f"),
+                ratio,
+                "yes" if r["verified"] else "NO",
+            ]
+        )
     return rows
 
 
-SOLVE_HEADER = ["size", "formulation", "status", "variables", "constraints", "nonzeros", "binaries", "build s",
-                "HiGHS s", "total s", "pipeline ratio", "LP bound gap", "final gap", "nodes", "peak MB",
-                "tight/plain time", "verified"]
+SOLVE_HEADER = [
+    "size",
+    "formulation",
+    "status",
+    "variables",
+    "constraints",
+    "nonzeros",
+    "binaries",
+    "build s",
+    "HiGHS s",
+    "total s",
+    "pipeline ratio",
+    "LP bound gap",
+    "final gap",
+    "nodes",
+    "peak MB",
+    "tight/plain time",
+    "verified",
+]
 
 
 def target_rows(results: dict[tuple[str, str], dict], time_limit: float) -> list[list[str]]:
@@ -410,9 +508,13 @@ def target_rows(results: dict[tuple[str, str], dict], time_limit: float) -> list
         if "error" in r or r.get("pipeline_ratio") is None:
             continue
         met = r["pipeline_ratio"] <= PIPELINE_RATIO_TARGET
-        rows.append([f"pipeline ≤ {PIPELINE_RATIO_TARGET}× HiGHS time ({size}, {form})",
-                     f"{r['pipeline_ratio']:.3f}× (overhead {r['wall_s'] - r['highs_s']:.2f} s on "
-                     f"{r['highs_s']:.2f} s)", "met" if met else "not met"])
+        rows.append(
+            [
+                f"pipeline ≤ {PIPELINE_RATIO_TARGET}× HiGHS time ({size}, {form})",
+                f"{r['pipeline_ratio']:.3f}× (overhead {r['wall_s'] - r['highs_s']:.2f} s on {r['highs_s']:.2f} s)",
+                "met" if met else "not met",
+            ]
+        )
     t, p = results.get(("medium", "tight")), results.get(("medium", "plain"))
     if t and p and "error" not in t and "error" not in p:
         proven = t["status"] == "optimal" and t["gap"] is not None and t["gap"] <= MEDIUM_GAP_TARGET
@@ -423,31 +525,63 @@ def target_rows(results: dict[tuple[str, str], dict], time_limit: float) -> list
             verdict = "met"
         elif proven and not plain_done:
             # plain's true time is unknown (> its wall time): the ratio is only an upper bound
-            verdict = (f"undecided: plain stopped at the limit; met only if plain needs > "
-                       f"{t['wall_s'] * MEDIUM_SPEEDUP_TARGET:.0f} s (rerun with --time-limit ≥ that)")
+            verdict = (
+                f"undecided: plain stopped at the limit; met only if plain needs > "
+                f"{t['wall_s'] * MEDIUM_SPEEDUP_TARGET:.0f} s (rerun with --time-limit ≥ that)"
+            )
         else:
             verdict = "not met"
-        rows.append(["medium proven optimal (gap ≤ 0.01 %) in < 1/3 of plain's time",
-                     f"tight {t['status']} gap {_pct(t['gap'], 4)} in {t['wall_s']:.1f} s; plain {p['wall_s']:.1f} s"
-                     f"{plain_note}; ratio {'≤ ' if not plain_done else ''}{t['wall_s'] / p['wall_s']:.3f}",
-                     verdict])
+        rows.append(
+            [
+                "medium proven optimal (gap ≤ 0.01 %) in < 1/3 of plain's time",
+                f"tight {t['status']} gap {_pct(t['gap'], 4)} in {t['wall_s']:.1f} s; plain {p['wall_s']:.1f} s"
+                f"{plain_note}; ratio {'≤ ' if not plain_done else ''}{t['wall_s'] / p['wall_s']:.3f}",
+                verdict,
+            ]
+        )
     lt = results.get(("large", "tight"))
     if lt and "error" not in lt:
         hs = lt.get("highs_s_to_large_gap")
         when = None if hs is None else lt["build_s"] + hs
         met = when is not None and when <= LARGE_SECONDS_TARGET
         note = "" if time_limit >= LARGE_SECONDS_TARGET else f" (run with --time-limit {time_limit:g} s < 600 s)"
-        rows.append(["large to ≤ 0.5 % gap within 10 min (2 cores, threads=1)",
-                     ("never reached" if when is None else f"reached after {when:.1f} s (build + HiGHS)")
-                     + f"; final gap {_pct(lt['gap'], 3)} after {lt['wall_s']:.1f} s" + note,
-                     "met" if met else "not met"])
+        rows.append(
+            [
+                "large to ≤ 0.5 % gap within 10 min (2 cores, threads=1)",
+                ("never reached" if when is None else f"reached after {when:.1f} s (build + HiGHS)")
+                + f"; final gap {_pct(lt['gap'], 3)} after {lt['wall_s']:.1f} s"
+                + note,
+                "met" if met else "not met",
+            ]
+        )
     return rows
 
 
-HOLD_HEADER = ["scenario", "warm status", "lost units", "warm s (bounds+run)", "warm HiGHS s", "warm s incl. tables+verify",
-               "cold status", "cold s (rebuild)", "cold HiGHS s", "speed-up", "rel. diff", "agree ≤ 1e-6"]
-REDESIGN_HEADER = ["scenario", "warm status", "warm s", "warm nodes", "cold status", "cold s", "cold HiGHS s",
-                   "rel. diff", "within MIP gap"]
+HOLD_HEADER = [
+    "scenario",
+    "warm status",
+    "lost units",
+    "warm s (bounds+run)",
+    "warm HiGHS s",
+    "warm s incl. tables+verify",
+    "cold status",
+    "cold s (rebuild)",
+    "cold HiGHS s",
+    "speed-up",
+    "rel. diff",
+    "agree ≤ 1e-6",
+]
+REDESIGN_HEADER = [
+    "scenario",
+    "warm status",
+    "warm s",
+    "warm nodes",
+    "cold status",
+    "cold s",
+    "cold HiGHS s",
+    "rel. diff",
+    "within MIP gap",
+]
 
 
 def hold_rows(rs: dict) -> list[list[str]]:
@@ -459,9 +593,22 @@ def hold_rows(rs: dict) -> list[list[str]]:
         agree = h["rel_diff"] is not None and h["rel_diff"] <= RESOLVE_AGREE
         if h["rel_diff"] is None and h["warm_status"] == h["cold_status"] and h["cold_objective"] is None:
             agree = True  # both without a solution
-        rows.append([h["scenario"], str(h["warm_status"]), _fmt(h["lost_units"], ".0f"), _fmt(h["warm_resolve_s"], ".3f"), _fmt(h["warm_highs_s"], ".3f"),
-                     _fmt(h["warm_with_tables_s"], ".2f"), h["cold_status"], _fmt(h["cold_s"], ".2f"),
-                     _fmt(h["cold_highs_s"], ".2f"), sp, _fmt(h["rel_diff"], ".1e"), "yes" if agree else "NO"])
+        rows.append(
+            [
+                h["scenario"],
+                str(h["warm_status"]),
+                _fmt(h["lost_units"], ".0f"),
+                _fmt(h["warm_resolve_s"], ".3f"),
+                _fmt(h["warm_highs_s"], ".3f"),
+                _fmt(h["warm_with_tables_s"], ".2f"),
+                h["cold_status"],
+                _fmt(h["cold_s"], ".2f"),
+                _fmt(h["cold_highs_s"], ".2f"),
+                sp,
+                _fmt(h["rel_diff"], ".1e"),
+                "yes" if agree else "NO",
+            ]
+        )
     return rows
 
 
@@ -470,9 +617,19 @@ def redesign_rows(rs: dict) -> list[list[str]]:
     for h in rs.get("redesign", []):
         tol = 2 * MIP_GAP
         ok = h["rel_diff"] is not None and h["rel_diff"] <= tol
-        rows.append([h["scenario"], h["warm_status"], _fmt(h["warm_s"], ".1f"), str(h["warm_nodes"]), h["cold_status"],
-                     _fmt(h["cold_s"], ".1f"), _fmt(h["cold_highs_s"], ".1f"), _fmt(h["rel_diff"], ".1e"),
-                     "yes" if ok else "NO"])
+        rows.append(
+            [
+                h["scenario"],
+                h["warm_status"],
+                _fmt(h["warm_s"], ".1f"),
+                str(h["warm_nodes"]),
+                h["cold_status"],
+                _fmt(h["cold_s"], ".1f"),
+                _fmt(h["cold_highs_s"], ".1f"),
+                _fmt(h["rel_diff"], ".1e"),
+                "yes" if ok else "NO",
+            ]
+        )
     return rows
 
 
@@ -492,16 +649,22 @@ def _summary(rs: dict) -> list[str]:
     lines = []
     if "error" in rs:
         return [f"Re-solve run failed: {rs['error']}"]
-    lines.append(f"Base (tight MIP, {rs['size']}): {rs['base_status']}, objective {rs['base_objective']:,.2f}, "
-                 f"gap {_pct(rs['base_gap'], 4)}, {rs['base_wall_s']:.1f} s.")
-    lines.append(f"Warm set-up (build the held model, relax integrality, first LP solve): {rs['warm_setup_s']:.2f} s, "
-                 f"{rs['warm_setup_status']}, objective {rs['warm_base_objective']:,.2f}.")
+    lines.append(
+        f"Base (tight MIP, {rs['size']}): {rs['base_status']}, objective {rs['base_objective']:,.2f}, "
+        f"gap {_pct(rs['base_gap'], 4)}, {rs['base_wall_s']:.1f} s."
+    )
+    lines.append(
+        f"Warm set-up (build the held model, relax integrality, first LP solve): {rs['warm_setup_s']:.2f} s, "
+        f"{rs['warm_setup_status']}, objective {rs['warm_base_objective']:,.2f}."
+    )
     hold = [h for h in rs.get("hold", []) if h.get("warm_resolve_s")]
     if hold:
         w = statistics.median(h["warm_resolve_s"] for h in hold)
         c = statistics.median(h["cold_s"] for h in hold)
-        lines.append(f"Hold-the-network: median warm re-solve {w:.3f} s vs median cold rebuild {c:.2f} s "
-                     f"({c / w:.0f}× faster warm).")
+        lines.append(
+            f"Hold-the-network: median warm re-solve {w:.3f} s vs median cold rebuild {c:.2f} s "
+            f"({c / w:.0f}× faster warm)."
+        )
     red = rs.get("redesign", [])
     if red:
         w = statistics.median(h["warm_s"] for h in red)
@@ -510,19 +673,22 @@ def _summary(rs: dict) -> list[str]:
     return lines
 
 
-def report(results, resolves, machine, command, started, finished, time_limit,
-           safety_stock: bool = False) -> tuple[str, str]:
+def report(
+    results, resolves, machine, command, started, finished, time_limit, safety_stock: bool = False
+) -> tuple[str, str]:
     """(plain text for the terminal, Markdown for the file)."""
     srows = solve_rows(results)
     trows = target_rows(results, time_limit)
-    head = [f"netopt benchmark — {started} to {finished}",
-            f"Machine: {machine['cpu']}, {machine['cores']} cores, {machine['memory']}; Python {machine['python']}, "
-            + ", ".join(f"{k} {v}" for k, v in machine["versions"].items()),
-            f"Load average at start {machine['load_start'][0]:.2f}, at end {machine['load_end'][0]:.2f} "
-            "(above ~1 means other processes shared the cores).",
-            f"HiGHS threads={THREADS}, mip_rel_gap={MIP_GAP:g}, time limit {time_limit:g} s per solve; "
-            f"safety stock {'on' if safety_stock else 'off'} in the generated cases.",
-            f"Command: {command}"]
+    head = [
+        f"netopt benchmark — {started} to {finished}",
+        f"Machine: {machine['cpu']}, {machine['cores']} cores, {machine['memory']}; Python {machine['python']}, "
+        + ", ".join(f"{k} {v}" for k, v in machine["versions"].items()),
+        f"Load average at start {machine['load_start'][0]:.2f}, at end {machine['load_end'][0]:.2f} "
+        "(above ~1 means other processes shared the cores).",
+        f"HiGHS threads={THREADS}, mip_rel_gap={MIP_GAP:g}, time limit {time_limit:g} s per solve; "
+        f"safety stock {'on' if safety_stock else 'off'} in the generated cases.",
+        f"Command: {command}",
+    ]
     text = "\n".join(head) + "\n\nSolves\n" + _text_table(SOLVE_HEADER, srows)
     text += "\n\nTargets\n" + _text_table(["target", "measured", "verdict"], trows)
     md = "# netopt benchmark results\n\n" + "\n".join(f"- {h}" for h in head) + "\n\n## Solves\n\n"
@@ -555,17 +721,26 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--time-limit", type=float, default=600.0, help="HiGHS time limit per solve, s")
     ap.add_argument("--repeats", type=int, default=1, help="runs per (size, formulation); medians are reported")
     ap.add_argument("--resolves", type=int, default=10, help="hold-the-network re-solve scenarios on medium (0 = skip)")
-    ap.add_argument("--redesigns", type=int, default=None, help="redesign (full MIP) re-solves on medium "
-                                                                  "(default: same as --resolves)")
-    ap.add_argument("--resolves-size", default="medium", help="size for the re-solve section (run when it is "
-                                                                "among --sizes)")
+    ap.add_argument(
+        "--redesigns",
+        type=int,
+        default=None,
+        help="redesign (full MIP) re-solves on medium (default: same as --resolves)",
+    )
+    ap.add_argument(
+        "--resolves-size", default="medium", help="size for the re-solve section (run when it is among --sizes)"
+    )
     ap.add_argument("--seed", type=int, default=0, help="generator seed")
     ap.add_argument("--out", default=str(ROOT / "benchmarks" / "results.md"), help="Markdown report path")
-    ap.add_argument("--safety-stock", action="store_true",
-                    help="switch on the safety-stock curve (inventory.safety_stock) in the generated cases")
+    ap.add_argument(
+        "--safety-stock",
+        action="store_true",
+        help="switch on the safety-stock curve (inventory.safety_stock) in the generated cases",
+    )
     ap.add_argument("--json", default=None, help="also write the raw measurements as JSON here")
-    ap.add_argument("--from-json", default=None,
-                    help="do not solve: render the report again from a --json file of an earlier run")
+    ap.add_argument(
+        "--from-json", default=None, help="do not solve: render the report again from a --json file of an earlier run"
+    )
     ap.add_argument("--worker", choices=("solve", "resolves"), help=argparse.SUPPRESS)
     ap.add_argument("--size", help=argparse.SUPPRESS)
     ap.add_argument("--formulation", help=argparse.SUPPRESS)
@@ -577,16 +752,24 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     if args.worker == "resolves":
         red = args.resolves if args.redesigns is None else args.redesigns
-        _emit(worker_resolves(args.size, args.seed, args.resolves, red, args.time_limit, args.mip_gap,
-                              args.safety_stock))
+        _emit(
+            worker_resolves(args.size, args.seed, args.resolves, red, args.time_limit, args.mip_gap, args.safety_stock)
+        )
         return 0
 
     if args.from_json:
         raw = json.loads(Path(args.from_json).read_text(encoding="utf-8"))
         results = {(r["size"], r["formulation"]): r for r in raw["solves"]}
-        text, md = report(results, raw["resolves"], raw["machine"], raw["command"], raw["started"], raw["finished"],
-                          float(raw.get("time_limit") or raw["solves"][0].get("time_limit", 600.0)),
-                          bool(raw.get("safety_stock", False)))
+        text, md = report(
+            results,
+            raw["resolves"],
+            raw["machine"],
+            raw["command"],
+            raw["started"],
+            raw["finished"],
+            float(raw.get("time_limit") or raw["solves"][0].get("time_limit", 600.0)),
+            bool(raw.get("safety_stock", False)),
+        )
         print(text)
         _write_atomic(Path(args.out), md)
         print(f"wrote {args.out}", file=sys.stderr)
@@ -624,8 +807,10 @@ def main(argv: list[str] | None = None) -> int:
                 if "error" in r:
                     log("  " + r["error"])
                 else:
-                    log(f"  {r['status']} obj {r['objective']} gap {r['gap']} HiGHS {r['highs_s']:.2f} s "
-                        f"total {r['wall_s']:.2f} s nodes {r['nodes']} LP gap {r['lp_gap']}")
+                    log(
+                        f"  {r['status']} obj {r['objective']} gap {r['gap']} HiGHS {r['highs_s']:.2f} s "
+                        f"total {r['wall_s']:.2f} s nodes {r['nodes']} LP gap {r['lp_gap']}"
+                    )
                 runs.append(r)
             results[(size, form)] = _median_run(runs)
     resolves = None
@@ -634,17 +819,36 @@ def main(argv: list[str] | None = None) -> int:
         log(f"re-solve section skipped: --resolves-size {rsize} is not among --sizes")
     if rsize in sizes and (args.resolves > 0 or redesigns > 0):
         log(f"[{datetime.now():%H:%M:%S}] {rsize} re-solves: {args.resolves} hold, {redesigns} redesign ...")
-        resolves = _run_worker(["--worker", "resolves", "--size", rsize, "--resolves", str(args.resolves),
-                                "--redesigns", str(redesigns), *common], log)
+        resolves = _run_worker(
+            [
+                "--worker",
+                "resolves",
+                "--size",
+                rsize,
+                "--resolves",
+                str(args.resolves),
+                "--redesigns",
+                str(redesigns),
+                *common,
+            ],
+            log,
+        )
     machine["load_end"] = os.getloadavg()
     finished = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     text, md = report(results, resolves, machine, command, started, finished, args.time_limit, args.safety_stock)
     print(text)
     _write_atomic(Path(args.out), md)
     if args.json:
-        raw = {"machine": machine, "command": command, "started": started, "finished": finished,
-               "time_limit": args.time_limit, "safety_stock": args.safety_stock,
-               "solves": [v for v in results.values()], "resolves": resolves}
+        raw = {
+            "machine": machine,
+            "command": command,
+            "started": started,
+            "finished": finished,
+            "time_limit": args.time_limit,
+            "safety_stock": args.safety_stock,
+            "solves": [v for v in results.values()],
+            "resolves": resolves,
+        }
         _write_atomic(Path(args.json), json.dumps(raw, indent=1, default=_json_default))
     log(f"wrote {args.out}")
     return 0

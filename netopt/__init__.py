@@ -2,16 +2,17 @@
 
 Load a case with :func:`load_case` (a folder of CSV files with ``settings.toml``, or
 one ``.xlsx`` workbook); bad input raises :class:`CaseError` listing every problem.
+Then :func:`solve` it, or :func:`run_scenarios` for the base and its what-ifs.
+
+The package reads as the pipeline (each stage imports only the stages before it):
+``data`` (schema, reading, checks) → ``network`` (distances, lanes, arc table) →
+``model`` (one module per modelling concept) → ``engine`` (hand-over to HiGHS, solve,
+held networks, result tables, verification) → ``studies`` (scenarios, frontier,
+resilience) → ``present`` (files, workbook, terminal, report) → ``cli``.
 """
 
-from netopt.case import Case, CaseError, Problem
-from netopt.io import load_case
+from netopt.api import Case, CaseError, Problem, Result, load_case, make_case, run_scenarios, solve
 
 __version__ = "0.1.0"
 
-__all__ = ["Case", "CaseError", "Problem", "load_case", "make_case", "solve", "Result", "run_scenarios", "__version__"]
-
-# --- further public entry points (solve, run, stress, ...) are added below this line.
-from netopt.api import Result, solve  # noqa: E402
-from netopt.frames import make_case  # noqa: E402
-from netopt.scenarios import run_scenarios  # noqa: E402
+__all__ = ["Case", "CaseError", "Problem", "Result", "__version__", "load_case", "make_case", "run_scenarios", "solve"]

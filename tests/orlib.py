@@ -24,12 +24,29 @@ from pathlib import Path
 import networkx as nx
 import numpy as np
 
-from netopt.case import Case
-from netopt.frames import make_case
+from netopt.data.case import Case
+from netopt.data.frames import make_case
 
 DATA = Path(__file__).parent / "data" / "orlib"
-CAP_NAMES = ["cap41", "cap42", "cap43", "cap44", "cap51", "cap61", "cap62", "cap63", "cap64",
-             "cap71", "cap72", "cap73", "cap74", "cap101", "cap102", "cap103", "cap104"]
+CAP_NAMES = [
+    "cap41",
+    "cap42",
+    "cap43",
+    "cap44",
+    "cap51",
+    "cap61",
+    "cap62",
+    "cap63",
+    "cap64",
+    "cap71",
+    "cap72",
+    "cap73",
+    "cap74",
+    "cap101",
+    "cap102",
+    "cap103",
+    "cap104",
+]
 PMED_NAMES = [f"pmed{i}" for i in range(1, 11)]
 
 _PRODUCT = "unit"
@@ -57,7 +74,7 @@ def read_cap(path: Path) -> dict:
     cost = np.empty((m, n))
     for j in range(n):
         demand[j] = float(tok[k])
-        cost[:, j] = [float(x) for x in tok[k + 1:k + 1 + m]]
+        cost[:, j] = [float(x) for x in tok[k + 1 : k + 1 + m]]
         k += 1 + m
     if k != len(tok):
         raise ValueError(f"{path}: {len(tok) - k} tokens left after {m} warehouses and {n} customers")
@@ -80,19 +97,43 @@ def cap_case(path: Path, name: str | None = None) -> Case:
     m, n = d["m"], d["n"]
     wh = [f"W{i + 1}" for i in range(m)]
     cu = [f"C{j + 1}" for j in range(n)]
-    lanes = [{"origin": _PLANT, "destination": w, "mode": _MODE, "cost_per_unit": 0.0, "transit_days": 0.0,
-              "distance_km": 0.0} for w in wh]
+    lanes = [
+        {
+            "origin": _PLANT,
+            "destination": w,
+            "mode": _MODE,
+            "cost_per_unit": 0.0,
+            "transit_days": 0.0,
+            "distance_km": 0.0,
+        }
+        for w in wh
+    ]
     for j in range(n):
         for i in range(m):
-            lanes.append({"origin": wh[i], "destination": cu[j], "mode": _MODE,
-                          "cost_per_unit": d["cost"][i, j] / d["demand"][j], "transit_days": 0.0,
-                          "distance_km": 0.0})
+            lanes.append(
+                {
+                    "origin": wh[i],
+                    "destination": cu[j],
+                    "mode": _MODE,
+                    "cost_per_unit": d["cost"][i, j] / d["demand"][j],
+                    "transit_days": 0.0,
+                    "distance_km": 0.0,
+                }
+            )
     tables = {
         "products": [{"product": _PRODUCT, "unit_weight_kg": 0.0, "unit_value": 0.0}],
         "suppliers": [],
         "plants": [{"plant": _PLANT, "product": _PRODUCT, "lat": 0.0, "lon": 0.0, "unit_cost": 0.0}],
-        "dcs": [{"dc": w, "lat": 0.0, "lon": 0.0, "fixed_cost": float(d["fixed_cost"][i]),
-                 "capacity": float(d["capacity"][i])} for i, w in enumerate(wh)],
+        "dcs": [
+            {
+                "dc": w,
+                "lat": 0.0,
+                "lon": 0.0,
+                "fixed_cost": float(d["fixed_cost"][i]),
+                "capacity": float(d["capacity"][i]),
+            }
+            for i, w in enumerate(wh)
+        ],
         "customers": [{"customer": c, "lat": 0.0, "lon": 0.0} for c in cu],
         "demand": [{"customer": c, "product": _PRODUCT, "quantity": float(d["demand"][j])} for j, c in enumerate(cu)],
         "modes": [{"mode": _MODE, "cost_per_tonne_km": 0.0, "speed_km_per_day": 1.0, "generate_lanes": False}],
@@ -106,7 +147,7 @@ def read_pmed(path: Path) -> tuple[int, int, list[tuple[int, int, int]]]:
     """Parse an OR-Library pmedN file: (n vertices, p medians, edges (i, j, cost) 1-based, in file order)."""
     tok = [int(x) for x in Path(path).read_text().split()]
     n, e, p = tok[:3]
-    edges = [tuple(tok[3 + 3 * k: 6 + 3 * k]) for k in range(e)]
+    edges = [tuple(tok[3 + 3 * k : 6 + 3 * k]) for k in range(e)]
     if 3 + 3 * e != len(tok):
         raise ValueError(f"{path}: expected {e} edges, found {(len(tok) - 3) / 3}")
     return n, p, edges
@@ -140,12 +181,29 @@ def pmed_case(path: Path, name: str | None = None) -> tuple[Case, int]:
     dist = pmed_distances(n, edges)
     dcs = [f"D{i + 1}" for i in range(n)]
     cu = [f"V{j + 1}" for j in range(n)]
-    lanes = [{"origin": _PLANT, "destination": d, "mode": _MODE, "cost_per_unit": 0.0, "transit_days": 0.0,
-              "distance_km": 0.0} for d in dcs]
+    lanes = [
+        {
+            "origin": _PLANT,
+            "destination": d,
+            "mode": _MODE,
+            "cost_per_unit": 0.0,
+            "transit_days": 0.0,
+            "distance_km": 0.0,
+        }
+        for d in dcs
+    ]
     for i in range(n):
         for j in range(n):
-            lanes.append({"origin": dcs[i], "destination": cu[j], "mode": _MODE,
-                          "cost_per_unit": float(dist[i, j]), "transit_days": 0.0, "distance_km": 0.0})
+            lanes.append(
+                {
+                    "origin": dcs[i],
+                    "destination": cu[j],
+                    "mode": _MODE,
+                    "cost_per_unit": float(dist[i, j]),
+                    "transit_days": 0.0,
+                    "distance_km": 0.0,
+                }
+            )
     tables = {
         "products": [{"product": _PRODUCT, "unit_weight_kg": 0.0, "unit_value": 0.0}],
         "suppliers": [],
@@ -156,6 +214,8 @@ def pmed_case(path: Path, name: str | None = None) -> tuple[Case, int]:
         "modes": [{"mode": _MODE, "cost_per_tonne_km": 0.0, "speed_km_per_day": 1.0, "generate_lanes": False}],
         "lanes": lanes,
     }
-    settings = {"inventory": {"holding_rate": 0.0, "safety_stock": False},
-                "policy": {"min_open_dcs": p, "max_open_dcs": p}}
+    settings = {
+        "inventory": {"holding_rate": 0.0, "safety_stock": False},
+        "policy": {"min_open_dcs": p, "max_open_dcs": p},
+    }
     return make_case(tables, settings, name=name or Path(path).stem), p

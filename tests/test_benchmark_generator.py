@@ -24,8 +24,8 @@ from benchmarks.generator import (  # noqa: E402
     size_spec,
     synthetic_case,
 )
-from netopt.case import Case  # noqa: E402
-from netopt.lanes import build_lanes  # noqa: E402
+from netopt.data.case import Case  # noqa: E402
+from netopt.network.lanes import build_lanes  # noqa: E402
 
 TINY = {"suppliers": 6, "plants": 2, "dcs": 5, "customers": 12, "products": 2, "modes": 4}
 
@@ -120,8 +120,12 @@ def test_lane_limit_aims_at_the_nearest_dcs():
     assert 8 <= per_customer.median() <= 16
     # Road distance = great-circle × circuity: check one lane against geographiclib.
     row = last.iloc[0]
-    gc = Geodesic.WGS84.Inverse(row["origin_lat"], row["origin_lon"], row["destination_lat"],
-                                row["destination_lon"])["s12"] / 1000.0
+    gc = (
+        Geodesic.WGS84.Inverse(row["origin_lat"], row["origin_lon"], row["destination_lat"], row["destination_lon"])[
+            "s12"
+        ]
+        / 1000.0
+    )
     assert row["distance_km"] == pytest.approx(gc * ROAD_CIRCUITY, rel=0.006)  # sphere vs ellipsoid ≤ 0.5 %
 
 

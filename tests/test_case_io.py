@@ -7,19 +7,19 @@ Row numbers are checked against the file text or the workbook as openpyxl reads 
 from __future__ import annotations
 
 import math
-import tomllib
 
 import openpyxl
 import pandas as pd
 import pytest
+import tomllib
 from casekit import TINY, TINY_SETTINGS, make_case_dir, tiny_rows, write_rows
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from pandas.testing import assert_frame_equal
 
 from netopt import Case, CaseError, load_case
-from netopt.io import case_from_tables, settings_toml, write_case_csv, write_case_workbook
-from netopt.schema import SETTINGS, TABLES, setting_defaults
+from netopt.data.io import case_from_tables, settings_toml, write_case_csv, write_case_workbook
+from netopt.data.schema import SETTINGS, TABLES, setting_defaults
 
 
 def errors_of(path):
@@ -29,8 +29,11 @@ def errors_of(path):
 
 
 def find(problems, table, row, column, text=None):
-    hits = [p for p in problems if (p.table, p.row, p.column) == (table, row, column)
-            and (text is None or text in p.message)]
+    hits = [
+        p
+        for p in problems
+        if (p.table, p.row, p.column) == (table, row, column) and (text is None or text in p.message)
+    ]
     assert hits, f"no problem at {table}/{row}/{column} ~ {text!r}; got:\n" + "\n".join(map(str, problems))
     return hits[0]
 
@@ -44,6 +47,7 @@ def assert_same_case(a: Case, b: Case):
 
 
 # --------------------------------------------------------------------------- loading a folder
+
 
 def test_load_types_defaults_and_row_numbers(tiny_case_dir):
     case = load_case(tiny_case_dir)
@@ -81,13 +85,15 @@ def test_case_name_falls_back_to_folder(tmp_path):
 
 
 def test_bom_whitespace_crlf_and_trailing_rows(tmp_path):
-    text = ("\ufeff customer , product,quantity ,demand_cv\r\n"
-            "CU-BRU ,  widget,1000,\r\n"
-            " CU-BRU,gadget , 200 ,0.5\r\n"
-            "CU-MUC,widget,500,\r\n"
-            ",,,\r\n"
-            "\r\n"
-            ",,,\r\n")
+    text = (
+        "\ufeff customer , product,quantity ,demand_cv\r\n"
+        "CU-BRU ,  widget,1000,\r\n"
+        " CU-BRU,gadget , 200 ,0.5\r\n"
+        "CU-MUC,widget,500,\r\n"
+        ",,,\r\n"
+        "\r\n"
+        ",,,\r\n"
+    )
     case = load_case(make_case_dir(tmp_path, demand=text))
     d = case.tables["demand"]
     assert list(d.index) == [2, 3, 4]
@@ -164,8 +170,10 @@ def test_toml_syntax_error_names_the_line(tmp_path):
 
 
 def test_scenarios_kept_raw(tmp_path):
-    text = ('[[scenario]]\nname = "no Paris"\nclose = ["DC-PAR"]\n\n'
-            '[[scenario]]\nname = "demand +10%"\ndemand_factor = 1.1\n[scenario.settings]\nmip_gap = 0.01\n')
+    text = (
+        '[[scenario]]\nname = "no Paris"\nclose = ["DC-PAR"]\n\n'
+        '[[scenario]]\nname = "demand +10%"\ndemand_factor = 1.1\n[scenario.settings]\nmip_gap = 0.01\n'
+    )
     case = load_case(make_case_dir(tmp_path, scenarios=text))
     assert case.scenarios == tomllib.loads(text)["scenario"]
 
@@ -199,6 +207,7 @@ def test_case_from_tables_accepts_text_frames():
 
 # --------------------------------------------------------------------------- workbooks
 
+
 def _workbook(path, sheets: dict[str, list[list]]):
     wb = openpyxl.Workbook()
     wb.remove(wb.active)
@@ -217,17 +226,26 @@ def _tiny_sheets():
     for name, rows in TINY.items():
         cols = list(rows[0])
         sheets[name] = [cols] + [[r[c] if r[c] != "" else None for c in cols] for r in rows]
-    sheets["settings"] = [["section", "name", "value"], ["case", "name", "tiny wb"], ["solver", "threads", 2],
-                          ["policy", "single_sourcing", True], ["lanes", "legs", "plant-dc|dc-customer|supplier-dc|"
-                                                                                  "supplier-plant|plant-customer"]]
+    sheets["settings"] = [
+        ["section", "name", "value"],
+        ["case", "name", "tiny wb"],
+        ["solver", "threads", 2],
+        ["policy", "single_sourcing", True],
+        ["lanes", "legs", "plant-dc|dc-customer|supplier-dc|supplier-plant|plant-customer"],
+    ]
     return sheets
 
 
 def test_workbook_loads_with_sheet_rows_and_typed_cells(tmp_path):
     sheets = _tiny_sheets()
     # numbers as numbers (openpyxl writes them as numeric cells), a blank row in the middle
-    sheets["demand"] = [["customer", "product", "quantity"], ["CU-BRU", "widget", 1000], [None, None, None],
-                        ["CU-BRU", "gadget", 200.0], ["CU-MUC", "widget", "lots"]]
+    sheets["demand"] = [
+        ["customer", "product", "quantity"],
+        ["CU-BRU", "widget", 1000],
+        [None, None, None],
+        ["CU-BRU", "gadget", 200.0],
+        ["CU-MUC", "widget", "lots"],
+    ]
     path = _workbook(tmp_path / "case.xlsx", sheets)
     probs = errors_of(path)
     # locate 'lots' with openpyxl itself
@@ -267,6 +285,7 @@ def test_workbook_unknown_sheet_warns_and_schema_sheet_is_ignored(tmp_path):
 
 # --------------------------------------------------------------------------- writing and round trips
 
+
 def test_round_trip_csv_folder_workbook_and_back(tiny_case_dir, tmp_path):
     first = load_case(tiny_case_dir)
     book = write_case_workbook(first, tmp_path / "out" / "tiny.xlsx")
@@ -289,14 +308,28 @@ def test_written_settings_parse_with_tomllib(tiny_case_dir):
 NUM = st.floats(min_value=0, max_value=1e12, allow_nan=False, allow_infinity=False)
 
 
-@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow,
-                                                                   HealthCheck.function_scoped_fixture])
-@given(weights=st.lists(NUM, min_size=3, max_size=3), caps=st.lists(st.one_of(NUM, st.just(math.inf)),
-                                                                       min_size=3, max_size=3),
-       codes=st.lists(st.text(alphabet=st.characters(min_codepoint=33, max_codepoint=0x2FFF,
-                                                     blacklist_categories=("Cc", "Cs", "Zs", "Zl", "Zp"),
-                                                     blacklist_characters=",\"|"), min_size=1, max_size=8),
-                      min_size=2, max_size=2, unique=True))
+@settings(
+    max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture]
+)
+@given(
+    weights=st.lists(NUM, min_size=3, max_size=3),
+    caps=st.lists(st.one_of(NUM, st.just(math.inf)), min_size=3, max_size=3),
+    codes=st.lists(
+        st.text(
+            alphabet=st.characters(
+                min_codepoint=33,
+                max_codepoint=0x2FFF,
+                blacklist_categories=("Cc", "Cs", "Zs", "Zl", "Zp"),
+                blacklist_characters=',"|',
+            ),
+            min_size=1,
+            max_size=8,
+        ),
+        min_size=2,
+        max_size=2,
+        unique=True,
+    ),
+)
 def test_round_trip_keeps_every_value(tmp_path_factory, weights, caps, codes):
     """Any float (written as the shortest repr) and any code survive CSV → workbook → CSV."""
     rows = tiny_rows()

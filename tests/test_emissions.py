@@ -12,14 +12,15 @@ import pytest
 
 from netopt import load_case
 from netopt.api import solve
-from netopt.emission_factors import DEFAULT_FACTORS, default_factor, emission_factors_frame
-from netopt.frames import make_case
-from netopt.schema import TABLES
+from netopt.data.emission_factors import DEFAULT_FACTORS, default_factor, emission_factors_frame
+from netopt.data.frames import make_case
+from netopt.data.schema import TABLES
 
 DEMO = Path(__file__).resolve().parent.parent / "cases" / "brackenholt"
 
 
 # ----------------------------------------------------------------------------- default factors
+
 
 def test_default_factors_order_air_road_rail_ocean():
     # Common practice (trade-facts §1 "Ordering and ranges"): air ≫ road > rail > sea per tonne-km.
@@ -30,14 +31,17 @@ def test_default_factors_order_air_road_rail_ocean():
     assert f["short_sea"] > f["ocean"]
 
 
-@pytest.mark.parametrize("mode,value,where", [
-    ("air", 0.498, "GLEC Framework v3.0"),          # GLEC v3.0 (2023) Table 1, freighter > 1,500 km, TTW
-    ("road", 0.08473, "Table 7e"),                  # Defra/DECC 2012 Annex 7 Table 7e, artic > 33 t, direct
-    ("road_ltl", 0.12366, "Table 7e"),              # same table, all HGVs, direct
-    ("rail", 0.03159, "Mode Shift Centre"),         # Defra direct factor quoted by the Mode Shift Centre
-    ("ocean", 0.01536, "Mode Shift Centre"),        # same page, deep-sea container >= 3,000 TEU
-    ("short_sea", 0.029703, "Mode Shift Centre"),   # same page, short-sea container < 3,000 TEU
-])
+@pytest.mark.parametrize(
+    "mode,value,where",
+    [
+        ("air", 0.498, "GLEC Framework v3.0"),  # GLEC v3.0 (2023) Table 1, freighter > 1,500 km, TTW
+        ("road", 0.08473, "Table 7e"),  # Defra/DECC 2012 Annex 7 Table 7e, artic > 33 t, direct
+        ("road_ltl", 0.12366, "Table 7e"),  # same table, all HGVs, direct
+        ("rail", 0.03159, "Mode Shift Centre"),  # Defra direct factor quoted by the Mode Shift Centre
+        ("ocean", 0.01536, "Mode Shift Centre"),  # same page, deep-sea container >= 3,000 TEU
+        ("short_sea", 0.029703, "Mode Shift Centre"),  # same page, short-sea container < 3,000 TEU
+    ],
+)
 def test_default_factors_are_the_published_values(mode, value, where):
     # Values as listed in trade-facts §1 with their edition and table.
     row = next(r for r in DEFAULT_FACTORS if r["mode"] == mode)
@@ -70,26 +74,47 @@ def test_demo_modes_use_the_default_factors():
 
 # ----------------------------------------------------------------------------- one lane, two modes
 
+
 def _lane_case(policy: dict | None = None, **settings):
     """Plant F → customer C, 1,000 units/yr of 20 kg over 1,000 km: road 0.10 EUR/t·km and 0.1 kg CO2e/t·km,
     rail 0.12 EUR/t·km and 0.03 kg CO2e/t·km, both 1 day in transit."""
-    s = {"lanes": {"legs": ["plant-customer"], "prune_dominated": False}, "solver": {"mip_gap": 1e-9},
-         "policy": dict(policy or {})}
+    s = {
+        "lanes": {"legs": ["plant-customer"], "prune_dominated": False},
+        "solver": {"mip_gap": 1e-9},
+        "policy": dict(policy or {}),
+    }
     s.update(settings)
-    return make_case({
-        "products": [{"product": "P", "unit_weight_kg": 20.0, "unit_value": 10.0}],
-        "suppliers": [],
-        "plants": [{"plant": "F", "product": "P", "lat": 49.0, "lon": 7.0}],
-        "dcs": [{"dc": "D", "lat": 48.0, "lon": 8.0, "fixed_cost": 1e9}],
-        "customers": [{"customer": "C", "lat": 47.5, "lon": 8.2}],
-        "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
-        "modes": [{"mode": "road", "cost_per_tonne_km": 0.10, "speed_km_per_day": 600, "generate_lanes": False,
-                   "co2_kg_per_tonne_km": 0.10},
-                  {"mode": "rail", "cost_per_tonne_km": 0.12, "speed_km_per_day": 400, "generate_lanes": False,
-                   "co2_kg_per_tonne_km": 0.03}],
-        "lanes": [{"origin": "F", "destination": "C", "mode": m, "distance_km": 1000.0, "transit_days": 1.0}
-                  for m in ("road", "rail")],
-    }, s)
+    return make_case(
+        {
+            "products": [{"product": "P", "unit_weight_kg": 20.0, "unit_value": 10.0}],
+            "suppliers": [],
+            "plants": [{"plant": "F", "product": "P", "lat": 49.0, "lon": 7.0}],
+            "dcs": [{"dc": "D", "lat": 48.0, "lon": 8.0, "fixed_cost": 1e9}],
+            "customers": [{"customer": "C", "lat": 47.5, "lon": 8.2}],
+            "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
+            "modes": [
+                {
+                    "mode": "road",
+                    "cost_per_tonne_km": 0.10,
+                    "speed_km_per_day": 600,
+                    "generate_lanes": False,
+                    "co2_kg_per_tonne_km": 0.10,
+                },
+                {
+                    "mode": "rail",
+                    "cost_per_tonne_km": 0.12,
+                    "speed_km_per_day": 400,
+                    "generate_lanes": False,
+                    "co2_kg_per_tonne_km": 0.03,
+                },
+            ],
+            "lanes": [
+                {"origin": "F", "destination": "C", "mode": m, "distance_km": 1000.0, "transit_days": 1.0}
+                for m in ("road", "rail")
+            ],
+        },
+        s,
+    )
 
 
 def test_co2e_per_lane_is_tonnes_times_km_times_factor():
@@ -142,7 +167,7 @@ def test_co2_cap_below_the_cleanest_network_is_infeasible_and_diagnosed():
 
 def test_verifier_catches_a_broken_cap():
     # Independent verification recomputes CO2e from inputs: a solution over the cap fails it.
-    from netopt.verify import verify
+    from netopt.engine.verify import verify
 
     capped = _lane_case({"co2_cap_tonnes": 1.0})
     free = solve(_lane_case())

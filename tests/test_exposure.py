@@ -15,8 +15,8 @@ import pytest
 from randcase import random_case
 
 from netopt.api import solve
-from netopt.exposure import base_stock, exposure, single_tier_exposure, time_to_recover
-from netopt.frames import make_case
+from netopt.data.frames import make_case
+from netopt.studies.exposure import base_stock, exposure, single_tier_exposure, time_to_recover
 
 # --------------------------------------------------------------------------- published worked example
 
@@ -39,8 +39,9 @@ def test_published_single_tier_example_reproduced_exactly():
     active = {"0": ALL_LINKS}
     for n, s in enumerate(SUPPLIERS, start=1):
         active[str(n)] = {lk for lk in ALL_LINKS if lk[0] != s}
-    out = single_tier_exposure(SUPPLIERS, DEMAND, INVENTORY, LOSS, active, {n: 2.0 for n in active},
-                               tts_cap=999.0).set_index("scenario")
+    out = single_tier_exposure(
+        SUPPLIERS, DEMAND, INVENTORY, LOSS, active, dict.fromkeys(active, 2.0), tts_cap=999.0
+    ).set_index("scenario")
     for n, (impact, lost, rei, tts) in PUBLISHED.items():
         assert out.loc[n, "performance_impact"] == pytest.approx(impact, abs=1e-6)
         assert out.loc[n, "lost_units"] == pytest.approx(lost, abs=1e-9)
@@ -59,24 +60,44 @@ def _example_as_network():
     the one DC carries at most c_i units/day of all products together (the published Σ_j y_ij ≤ c_i).
     Penalty = 2 × unit value (policy default), so unit values 2,500 and 3,250 give losses 5,000 and 6,500.
     """
-    sup = [{"supplier": s, "product": p, "lat": 50.0 + k, "lon": 5.0, "unit_cost": 1.0}
-           for k, s in enumerate(SUPPLIERS) for p in DEMAND]
-    lanes = [{"origin": s, "destination": "DC", "mode": "road", "cost_per_unit": 1.0 + 0.1 * k, "transit_days": 0.0,
-              "capacity": c * 365.0} for k, (s, c) in enumerate(SUPPLIERS.items())]
+    sup = [
+        {"supplier": s, "product": p, "lat": 50.0 + k, "lon": 5.0, "unit_cost": 1.0}
+        for k, s in enumerate(SUPPLIERS)
+        for p in DEMAND
+    ]
+    lanes = [
+        {
+            "origin": s,
+            "destination": "DC",
+            "mode": "road",
+            "cost_per_unit": 1.0 + 0.1 * k,
+            "transit_days": 0.0,
+            "capacity": c * 365.0,
+        }
+        for k, (s, c) in enumerate(SUPPLIERS.items())
+    ]
     lanes.append({"origin": "DC", "destination": "C", "mode": "road", "cost_per_unit": 1.0, "transit_days": 0.0})
-    return make_case({
-        "products": [{"product": "P1", "unit_weight_kg": 1.0, "unit_value": 2500.0},
-                     {"product": "P2", "unit_weight_kg": 1.0, "unit_value": 3250.0}],
-        "suppliers": sup,
-        "plants": [],
-        "dcs": [{"dc": "DC", "lat": 48.0, "lon": 2.0, "status": "existing"}],
-        "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
-        "demand": [{"customer": "C", "product": p, "quantity": d * 365.0} for p, d in DEMAND.items()],
-        "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False}],
-        "lanes": lanes,
-    }, {"lanes": {"legs": ["supplier-dc", "dc-customer"], "prune_dominated": False},
-        "inventory": {"safety_stock": False}, "policy": {"allow_unmet_demand": True},
-        "resilience": {"time_to_recover_days": 2.0}})
+    return make_case(
+        {
+            "products": [
+                {"product": "P1", "unit_weight_kg": 1.0, "unit_value": 2500.0},
+                {"product": "P2", "unit_weight_kg": 1.0, "unit_value": 3250.0},
+            ],
+            "suppliers": sup,
+            "plants": [],
+            "dcs": [{"dc": "DC", "lat": 48.0, "lon": 2.0, "status": "existing"}],
+            "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
+            "demand": [{"customer": "C", "product": p, "quantity": d * 365.0} for p, d in DEMAND.items()],
+            "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False}],
+            "lanes": lanes,
+        },
+        {
+            "lanes": {"legs": ["supplier-dc", "dc-customer"], "prune_dominated": False},
+            "inventory": {"safety_stock": False},
+            "policy": {"allow_unmet_demand": True},
+            "resilience": {"time_to_recover_days": 2.0},
+        },
+    )
 
 
 def test_network_model_reproduces_the_published_example():
@@ -100,25 +121,43 @@ def test_network_model_reproduces_the_published_example():
 
 # --------------------------------------------------------------------------- hand-computable cases
 
+
 def _one_dc_case(alt_capacity_per_day: float | None, transit_in: float = 0.0, transit_out: float = 0.0):
     """Supplier A (and optionally B with a capacity) → DC → customer; demand D = 100 units/day."""
     sup = [{"supplier": "A", "product": "P", "lat": 51.0, "lon": 4.0, "unit_cost": 10.0}]
-    lanes = [{"origin": "A", "destination": "DC", "mode": "road", "cost_per_unit": 1.0, "transit_days": transit_in},
-             {"origin": "DC", "destination": "C", "mode": "road", "cost_per_unit": 1.0, "transit_days": transit_out}]
+    lanes = [
+        {"origin": "A", "destination": "DC", "mode": "road", "cost_per_unit": 1.0, "transit_days": transit_in},
+        {"origin": "DC", "destination": "C", "mode": "road", "cost_per_unit": 1.0, "transit_days": transit_out},
+    ]
     if alt_capacity_per_day is not None:
-        sup.append({"supplier": "B", "product": "P", "lat": 52.0, "lon": 5.0, "unit_cost": 12.0,
-                    "capacity": alt_capacity_per_day * 365.0})
+        sup.append(
+            {
+                "supplier": "B",
+                "product": "P",
+                "lat": 52.0,
+                "lon": 5.0,
+                "unit_cost": 12.0,
+                "capacity": alt_capacity_per_day * 365.0,
+            }
+        )
         lanes.append({"origin": "B", "destination": "DC", "mode": "road", "cost_per_unit": 1.0, "transit_days": 0.0})
-    return make_case({
-        "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 50.0}],
-        "suppliers": sup, "plants": [],
-        "dcs": [{"dc": "DC", "lat": 48.0, "lon": 2.0, "status": "existing"}],
-        "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
-        "demand": [{"customer": "C", "product": "P", "quantity": 100.0 * 365.0}],
-        "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False}],
-        "lanes": lanes,
-    }, {"lanes": {"legs": ["supplier-dc", "dc-customer"]}, "inventory": {"safety_stock": False},
-        "policy": {"allow_unmet_demand": True}})
+    return make_case(
+        {
+            "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 50.0}],
+            "suppliers": sup,
+            "plants": [],
+            "dcs": [{"dc": "DC", "lat": 48.0, "lon": 2.0, "status": "existing"}],
+            "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
+            "demand": [{"customer": "C", "product": "P", "quantity": 100.0 * 365.0}],
+            "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False}],
+            "lanes": lanes,
+        },
+        {
+            "lanes": {"legs": ["supplier-dc", "dc-customer"]},
+            "inventory": {"safety_stock": False},
+            "policy": {"allow_unmet_demand": True},
+        },
+    )
 
 
 def _tts(case, node, stock=None, cap=365.0):
@@ -190,6 +229,7 @@ def test_time_to_recover_from_columns_with_settings_default():
 
 # --------------------------------------------------------------------------- monotonicity
 
+
 @pytest.fixture(scope="module")
 def solved_random():
     case = random_case(7, n_dcs=4, n_customers=8)
@@ -218,7 +258,7 @@ def test_longer_time_to_recover_never_lowers_lost_demand(solved_random):
     case, base = solved_random
     prev = None
     for days in (1.0, 5.0, 14.0, 28.0, 60.0, 200.0):
-        out, _ = exposure(case, base, ttr={n: days for n in ("F", "D0", "D1", "D2", "D3", "S0", "S1", "S2")})
+        out, _ = exposure(case, base, ttr=dict.fromkeys(("F", "D0", "D1", "D2", "D3", "S0", "S1", "S2"), days))
         lost = out.set_index("node")[["lost_units", "lost_value"]].sort_index()
         if prev is not None:
             assert (lost["lost_value"] >= prev["lost_value"] - 1e-6).all(), days

@@ -17,9 +17,9 @@ from randcase import random_case
 
 from netopt import CaseError, load_case
 from netopt.api import solve
-from netopt.case import Case
-from netopt.frontier import CAP_TOL_ABS, CAP_TOL_REL, frontier, sweep
-from netopt.scenarios import parse_scenarios, run_scenarios
+from netopt.data.case import Case
+from netopt.studies.frontier import CAP_TOL_ABS, CAP_TOL_REL, frontier, sweep
+from netopt.studies.scenarios import parse_scenarios, run_scenarios
 
 DEMO = Path(__file__).resolve().parent.parent / "cases" / "brackenholt"
 REL = 1e-6
@@ -69,10 +69,16 @@ def test_frontier_is_monotone_with_independent_endpoints(seed):
 
 
 def test_frontier_with_safety_stock_binaries():
-    case = random_case(1, extra={"products": [
-        {"product": "P", "unit_weight_kg": 8.0, "unit_value": 60.0, "demand_cv": 0.4},
-        {"product": "M", "kind": "material", "unit_weight_kg": 2.0, "unit_value": 2.0}]},
-        settings={"inventory": {"safety_stock": True}})
+    case = random_case(
+        1,
+        extra={
+            "products": [
+                {"product": "P", "unit_weight_kg": 8.0, "unit_value": 60.0, "demand_cv": 0.4},
+                {"product": "M", "kind": "material", "unit_weight_kg": 2.0, "unit_value": 2.0},
+            ]
+        },
+        settings={"inventory": {"safety_stock": True}},
+    )
     run = sweep(case, points=4)
     table = run.table
     assert (table["safety_stock_cost"] > 0).all()
@@ -87,9 +93,14 @@ def test_frontier_needs_two_points():
 
 def test_scenario_file_asks_for_a_frontier():
     case = random_case(2)
-    case.scenarios = [{"name": "greener", "description": "frontier of the base with rail cheaper",
-                       "frontier_points": 3,
-                       "change": [{"kind": "scale_cost", "target": "mode_rate", "mode": "rail", "factor": 0.9}]}]
+    case.scenarios = [
+        {
+            "name": "greener",
+            "description": "frontier of the base with rail cheaper",
+            "frontier_points": 3,
+            "change": [{"kind": "scale_cost", "target": "mode_rate", "mode": "rail", "factor": 0.9}],
+        }
+    ]
     run = run_scenarios(case)
     assert set(run.frontiers) == {"greener"}
     table = run.frontiers["greener"]

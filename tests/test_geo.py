@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 from scipy.sparse import csr_matrix
 from scipy.sparse.csgraph import dijkstra
 
-from netopt.geo import EARTH_MEAN_RADIUS_KM, haversine_km, pairwise_km, shortest_path_km
+from netopt.network.geo import EARTH_MEAN_RADIUS_KM, haversine_km, pairwise_km, shortest_path_km
 
 # Real city coordinates (degrees), used only as test points.
 CITIES = {
@@ -30,8 +30,15 @@ CITIES = {
     "cape_town": (-33.9249, 18.4241),
     "anchorage": (61.2181, -149.9003),
 }
-PAIRS = [("london", "paris"), ("new_york", "los_angeles"), ("sydney", "tokyo"), ("singapore", "rotterdam"),
-         ("quito", "helsinki"), ("cape_town", "anchorage"), ("london", "cape_town")]
+PAIRS = [
+    ("london", "paris"),
+    ("new_york", "los_angeles"),
+    ("sydney", "tokyo"),
+    ("singapore", "rotterdam"),
+    ("quito", "helsinki"),
+    ("cape_town", "anchorage"),
+    ("london", "cape_town"),
+]
 
 
 def test_mean_radius_is_iugg_r1_of_wgs84():
@@ -39,7 +46,7 @@ def test_mean_radius_is_iugg_r1_of_wgs84():
     # a and f taken from geographiclib's constants (b = a(1 - f)).
     a = Constants.WGS84_a / 1000.0
     b = a * (1.0 - Constants.WGS84_f)
-    assert EARTH_MEAN_RADIUS_KM == pytest.approx((2 * a + b) / 3, abs=5e-5)
+    assert pytest.approx((2 * a + b) / 3, abs=5e-5) == EARTH_MEAN_RADIUS_KM
 
 
 @pytest.mark.parametrize("p, q", PAIRS)
@@ -105,6 +112,7 @@ def test_haversine_broadcasts_and_pairwise_shape():
 
 # ----------------------------------------------------------------------------- shortest paths
 
+
 def _edges(rows):
     return pd.DataFrame(rows, columns=["from_node", "to_node", "km", "mode"])
 
@@ -113,8 +121,16 @@ def test_shortest_path_hand_graph():
     # A-B 4 (and a parallel A-B 6, ignored), B-C 3, A-C 10, C-D 2; E-F 1 is a separate component.
     # By hand: A→C = min(10, 4+3) = 7; A→D = 7+2 = 9; B→D = 3+2 = 5; D→A = 9 (undirected);
     # A→F unreachable (NaN); X is not in the graph (NaN); A→A = 0.
-    e = _edges([("A", "B", 4, ""), ("A", "B", 6, ""), ("B", "C", 3, ""), ("A", "C", 10, ""),
-                ("C", "D", 2, ""), ("E", "F", 1, "")])
+    e = _edges(
+        [
+            ("A", "B", 4, ""),
+            ("A", "B", 6, ""),
+            ("B", "C", 3, ""),
+            ("A", "C", 10, ""),
+            ("C", "D", 2, ""),
+            ("E", "F", 1, ""),
+        ]
+    )
     sp = shortest_path_km(e, ["A", "B", "D", "X"], ["A", "C", "D", "F"])
     assert sp.loc["A", "C"] == 7
     assert sp.loc["A", "D"] == 9

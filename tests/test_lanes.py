@@ -7,9 +7,9 @@ import pandas as pd
 import pytest
 from geographiclib.geodesic import Geodesic
 
-from netopt.case import Case, CaseError
-from netopt.lanes import LANE_COLUMNS, build_lanes, lane_summary
-from netopt.schema import TABLES, setting_defaults
+from netopt.data.case import Case, CaseError
+from netopt.data.schema import TABLES, setting_defaults
+from netopt.network.lanes import LANE_COLUMNS, build_lanes, lane_summary
 
 R = 6371.0088  # mean Earth radius, km (IUGG R1 of WGS84, Moritz 1980)
 DEG_KM = R * math.pi / 180  # one degree along a meridian on that sphere: R·Δφ = 111.19508 km
@@ -40,10 +40,15 @@ def make_case(settings=None, **tables):
     return Case("test", out, s)
 
 
-ROAD = {"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 600.0, "handling_days": 0.5,
-        "circuity": 1.2, "max_km": 700.0}
-AIR = {"mode": "air", "cost_per_tonne_km": 1.0, "speed_km_per_day": 8000.0, "handling_days": 1.0,
-       "min_km": 500.0}
+ROAD = {
+    "mode": "road",
+    "cost_per_tonne_km": 0.1,
+    "speed_km_per_day": 600.0,
+    "handling_days": 0.5,
+    "circuity": 1.2,
+    "max_km": 700.0,
+}
+AIR = {"mode": "air", "cost_per_tonne_km": 1.0, "speed_km_per_day": 8000.0, "handling_days": 1.0, "min_km": 500.0}
 
 
 def base_tables(modes=(ROAD, AIR)):
@@ -53,21 +58,31 @@ def base_tables(modes=(ROAD, AIR)):
     has no demand), so DC D1 → Ck great-circle km = DEG_KM × latitude.
     """
     return dict(
-        products=[{"product": "F1", "unit_weight_kg": 10.0, "unit_value": 50.0},
-                  {"product": "F2", "unit_weight_kg": 5.0, "unit_value": 20.0},
-                  {"product": "M1", "kind": "material", "unit_weight_kg": 1.0, "unit_value": 2.0},
-                  {"product": "M2", "kind": "material", "unit_weight_kg": 1.0, "unit_value": 2.0}],
+        products=[
+            {"product": "F1", "unit_weight_kg": 10.0, "unit_value": 50.0},
+            {"product": "F2", "unit_weight_kg": 5.0, "unit_value": 20.0},
+            {"product": "M1", "kind": "material", "unit_weight_kg": 1.0, "unit_value": 2.0},
+            {"product": "M2", "kind": "material", "unit_weight_kg": 1.0, "unit_value": 2.0},
+        ],
         bill_of_materials=[{"product": "F1", "material": "M1", "quantity_per_unit": 2.0}],
-        suppliers=[{"supplier": "S1", "product": "M1", "lat": 10.0, "lon": 0.0, "unit_cost": 1.0},
-                   {"supplier": "S2", "product": "M2", "lat": 10.0, "lon": 1.0, "unit_cost": 1.0},
-                   {"supplier": "S3", "product": "F2", "lat": 10.0, "lon": 2.0, "unit_cost": 9.0}],
+        suppliers=[
+            {"supplier": "S1", "product": "M1", "lat": 10.0, "lon": 0.0, "unit_cost": 1.0},
+            {"supplier": "S2", "product": "M2", "lat": 10.0, "lon": 1.0, "unit_cost": 1.0},
+            {"supplier": "S3", "product": "F2", "lat": 10.0, "lon": 2.0, "unit_cost": 9.0},
+        ],
         plants=[{"plant": "P1", "product": "F1", "lat": 5.0, "lon": 0.0}],
         dcs=[{"dc": "D1", "lat": 0.0, "lon": 0.0}, {"dc": "D2", "lat": 0.0, "lon": 5.0}],
-        customers=[{"customer": "C1", "lat": 1.0, "lon": 0.0}, {"customer": "C2", "lat": 3.0, "lon": 0.0},
-                   {"customer": "C3", "lat": 6.0, "lon": 0.0}, {"customer": "C4", "lat": 2.0, "lon": 0.0}],
-        demand=[{"customer": "C1", "product": "F1", "quantity": 100.0},
-                {"customer": "C2", "product": "F2", "quantity": 50.0},
-                {"customer": "C3", "product": "F1", "quantity": 70.0}],
+        customers=[
+            {"customer": "C1", "lat": 1.0, "lon": 0.0},
+            {"customer": "C2", "lat": 3.0, "lon": 0.0},
+            {"customer": "C3", "lat": 6.0, "lon": 0.0},
+            {"customer": "C4", "lat": 2.0, "lon": 0.0},
+        ],
+        demand=[
+            {"customer": "C1", "product": "F1", "quantity": 100.0},
+            {"customer": "C2", "product": "F2", "quantity": 50.0},
+            {"customer": "C3", "product": "F1", "quantity": 70.0},
+        ],
         modes=list(modes),
     )
 
@@ -82,8 +97,12 @@ def pairs(lanes, mode=None, leg=None):
 
 
 def one(lanes, origin, destination, mode, product=""):
-    sel = lanes[(lanes["origin"] == origin) & (lanes["destination"] == destination)
-                & (lanes["mode"] == mode) & (lanes["product"] == product)]
+    sel = lanes[
+        (lanes["origin"] == origin)
+        & (lanes["destination"] == destination)
+        & (lanes["mode"] == mode)
+        & (lanes["product"] == product)
+    ]
     assert len(sel) == 1, sel
     return sel.iloc[0]
 
@@ -96,8 +115,12 @@ def test_columns_and_hand_checked_lane():
     # × road circuity 1.2 = 133.43410 km; transit = 133.43410 / 600 km/day + 0.5 handling = 0.72239 days.
     assert r["distance_km"] == pytest.approx(133.4340962802395, rel=1e-12)
     assert r["transit_days"] == pytest.approx(0.7223901604670658, rel=1e-12)
-    assert (r["origin_kind"], r["destination_kind"], r["leg"], r["source"]) == ("dc", "customer", "dc-customer",
-                                                                                "generated")
+    assert (r["origin_kind"], r["destination_kind"], r["leg"], r["source"]) == (
+        "dc",
+        "customer",
+        "dc-customer",
+        "generated",
+    )
     assert np.isnan(r["cost_per_unit"]) and r["capacity"] == np.inf
     assert (r["origin_lat"], r["origin_lon"], r["destination_lat"], r["destination_lon"]) == (0, 0, 1, 0)
     # the off-meridian lane D2 (0°, 5°E) → C1 agrees with geographiclib's geodesic on the same sphere
@@ -169,10 +192,18 @@ def test_max_dc_customer_km_setting():
 
 def test_explicit_row_overrides_generated_row():
     t = base_tables()
-    t["lanes"] = [{"origin": "D1", "destination": "C1", "mode": "road", "distance_km": 150.0,
-                   "cost_per_unit": 2.5, "capacity": 1000.0},
-                  # beyond road max_km 700 (800.6 km), still kept because the user asked for it
-                  {"origin": "D1", "destination": "C3", "mode": "road"}]
+    t["lanes"] = [
+        {
+            "origin": "D1",
+            "destination": "C1",
+            "mode": "road",
+            "distance_km": 150.0,
+            "cost_per_unit": 2.5,
+            "capacity": 1000.0,
+        },
+        # beyond road max_km 700 (800.6 km), still kept because the user asked for it
+        {"origin": "D1", "destination": "C3", "mode": "road"},
+    ]
     lanes = build_lanes(make_case(**t))
     r = one(lanes, "D1", "C1", "road")
     assert r["source"] == "explicit" and r["distance_km"] == 150 and r["cost_per_unit"] == 2.5
@@ -194,8 +225,9 @@ def test_explicit_transit_days_kept():
 
 def test_product_specific_explicit_lane_adds_a_row():
     t = base_tables()
-    t["lanes"] = [{"origin": "D1", "destination": "C1", "mode": "road", "product": "F1", "capacity": 100.0,
-                   "cost_per_unit": 0.8}]
+    t["lanes"] = [
+        {"origin": "D1", "destination": "C1", "mode": "road", "product": "F1", "capacity": 100.0, "cost_per_unit": 0.8}
+    ]
     lanes = build_lanes(make_case(**t))
     general = one(lanes, "D1", "C1", "road", "")
     specific = one(lanes, "D1", "C1", "road", "F1")
@@ -228,8 +260,10 @@ def test_available_false_removes_lanes():
 
 def test_available_false_removes_explicit_product_rows_too():
     t = base_tables()
-    t["lanes"] = [{"origin": "D1", "destination": "C1", "mode": "road", "product": "F1", "capacity": 5.0},
-                  {"origin": "D1", "destination": "C1", "mode": "road", "available": False}]
+    t["lanes"] = [
+        {"origin": "D1", "destination": "C1", "mode": "road", "product": "F1", "capacity": 5.0},
+        {"origin": "D1", "destination": "C1", "mode": "road", "available": False},
+    ]
     lanes = build_lanes(make_case(**t))
     assert ("D1", "C1") not in pairs(lanes, "road")
 
@@ -237,7 +271,7 @@ def test_available_false_removes_explicit_product_rows_too():
 def test_road_edges_give_distances():
     t = base_tables()
     t["road_edges"] = [
-        {"from_node": "D1", "to_node": "J1", "km": 50.0},       # every mode
+        {"from_node": "D1", "to_node": "J1", "km": 50.0},  # every mode
         {"from_node": "J1", "to_node": "C2", "km": 60.0},
         {"from_node": "D1", "to_node": "C2", "km": 20.0, "mode": "rail"},  # not for road or air
         {"from_node": "D1", "to_node": "C1", "km": 520.0, "mode": "air"},  # air only
@@ -260,26 +294,40 @@ def test_road_edges_give_distances():
 
 def test_bad_legs_and_explicit_lanes_reported_together():
     t = base_tables(modes=(ROAD, {**AIR, "legs": "dc-customer|dc-moon"}))
-    t["lanes"] = [{"origin": "NOWHERE", "destination": "C1", "mode": "road"},
-                  {"origin": "C1", "destination": "D1", "mode": "road"},
-                  {"origin": "S1", "destination": "C1", "mode": "road"},
-                  {"origin": "D1", "destination": "C1", "mode": "ship"}]
+    t["lanes"] = [
+        {"origin": "NOWHERE", "destination": "C1", "mode": "road"},
+        {"origin": "C1", "destination": "D1", "mode": "road"},
+        {"origin": "S1", "destination": "C1", "mode": "road"},
+        {"origin": "D1", "destination": "C1", "mode": "ship"},
+    ]
     with pytest.raises(CaseError) as err:
         build_lanes(make_case(settings={"lanes": {"legs": ["dc-customer", "plant-plant"]}}, **t))
     where = {(p.table, p.row, p.column) for p in err.value.problems}
-    assert where == {("settings", None, "lanes.legs"), ("modes", 3, "legs"), ("lanes", 2, "origin"),
-                     ("lanes", 3, "origin"), ("lanes", 4, "destination"), ("lanes", 5, "mode")}
+    assert where == {
+        ("settings", None, "lanes.legs"),
+        ("modes", 3, "legs"),
+        ("lanes", 2, "origin"),
+        ("lanes", 3, "origin"),
+        ("lanes", 4, "destination"),
+        ("lanes", 5, "mode"),
+    }
     msg = {(p.row, p.column): p.message for p in err.value.problems if p.table == "lanes"}
     assert "not a leg" in msg[(4, "destination")] and "unknown mode 'ship'" in msg[(5, "mode")]
     assert "'dc-moon'" in err.value.report() and "'plant-plant'" in err.value.report()
 
 
 def test_sorted_deterministically_and_summary():
-    case = make_case(settings={"lanes": {"legs": ["supplier-plant", "supplier-dc", "plant-dc", "plant-customer",
-                                                  "dc-customer", "dc-dc"]}}, **base_tables())
+    case = make_case(
+        settings={
+            "lanes": {"legs": ["supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer", "dc-dc"]}
+        },
+        **base_tables(),
+    )
     lanes = build_lanes(case)
-    order = {leg: i for i, leg in enumerate(["supplier-plant", "supplier-dc", "plant-dc", "plant-customer",
-                                             "dc-customer", "dc-dc"])}
+    order = {
+        leg: i
+        for i, leg in enumerate(["supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer", "dc-dc"])
+    }
     keys = list(zip(lanes["leg"].map(order), lanes["origin"], lanes["destination"], lanes["mode"], lanes["product"]))
     assert keys == sorted(keys)
     pd.testing.assert_frame_equal(lanes, build_lanes(case))
@@ -300,10 +348,21 @@ def test_random_network_matches_brute_force():
     nc, nd = 300, 20
     clat, clon = rng.uniform(35, 60, nc), rng.uniform(-10, 30, nc)
     dlat, dlon = rng.uniform(35, 60, nd), rng.uniform(-10, 30, nd)
-    t = base_tables(modes=(
-        {"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 600.0, "circuity": 1.25, "max_km": 900.0},
-        {"mode": "rail", "cost_per_tonne_km": 0.05, "speed_km_per_day": 400.0, "handling_days": 2.0,
-         "circuity": 1.1, "min_km": 300.0, "max_km": 2500.0, "legs": "dc-customer"}))
+    t = base_tables(
+        modes=(
+            {"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 600.0, "circuity": 1.25, "max_km": 900.0},
+            {
+                "mode": "rail",
+                "cost_per_tonne_km": 0.05,
+                "speed_km_per_day": 400.0,
+                "handling_days": 2.0,
+                "circuity": 1.1,
+                "min_km": 300.0,
+                "max_km": 2500.0,
+                "legs": "dc-customer",
+            },
+        )
+    )
     t["dcs"] = [{"dc": f"D{j}", "lat": dlat[j], "lon": dlon[j]} for j in range(nd)]
     t["customers"] = [{"customer": f"C{i}", "lat": clat[i], "lon": clon[i]} for i in range(nc)]
     t["demand"] = [{"customer": f"C{i}", "product": "F1", "quantity": 1.0} for i in range(nc)]

@@ -11,7 +11,7 @@ from randcase import random_case
 
 from netopt import load_case
 from netopt.api import solve
-from netopt.frames import make_case
+from netopt.data.frames import make_case
 
 DEMO = Path(__file__).resolve().parent.parent / "cases" / "brackenholt"
 DAYS = 365.0
@@ -20,21 +20,42 @@ DAYS = 365.0
 def _lane_case(carbon_price: float = 0.0):
     """Plant F → customer C, 1,000 units/yr of 20 kg (value 50, holding 25 %/yr) over 1,000 km:
     road 0.10 EUR/t·km, 1 day, 0.1 kg CO2e/t·km; rail 0.12 EUR/t·km, 3 days, 0.03 kg CO2e/t·km."""
-    return make_case({
-        "products": [{"product": "P", "unit_weight_kg": 20.0, "unit_value": 50.0}],
-        "suppliers": [],
-        "plants": [{"plant": "F", "product": "P", "lat": 49.0, "lon": 7.0}],
-        "dcs": [{"dc": "D", "lat": 48.0, "lon": 8.0, "fixed_cost": 1e9}],
-        "customers": [{"customer": "C", "lat": 47.5, "lon": 8.2}],
-        "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
-        "modes": [{"mode": "road", "cost_per_tonne_km": 0.10, "speed_km_per_day": 600, "generate_lanes": False,
-                   "co2_kg_per_tonne_km": 0.10},
-                  {"mode": "rail", "cost_per_tonne_km": 0.12, "speed_km_per_day": 400, "generate_lanes": False,
-                   "co2_kg_per_tonne_km": 0.03}],
-        "lanes": [{"origin": "F", "destination": "C", "mode": "road", "distance_km": 1000.0, "transit_days": 1.0},
-                  {"origin": "F", "destination": "C", "mode": "rail", "distance_km": 1000.0, "transit_days": 3.0}],
-    }, {"lanes": {"legs": ["plant-customer"]}, "inventory": {"holding_rate": 0.25},
-        "policy": {"carbon_price_per_tonne": carbon_price}, "solver": {"mip_gap": 1e-9}})
+    return make_case(
+        {
+            "products": [{"product": "P", "unit_weight_kg": 20.0, "unit_value": 50.0}],
+            "suppliers": [],
+            "plants": [{"plant": "F", "product": "P", "lat": 49.0, "lon": 7.0}],
+            "dcs": [{"dc": "D", "lat": 48.0, "lon": 8.0, "fixed_cost": 1e9}],
+            "customers": [{"customer": "C", "lat": 47.5, "lon": 8.2}],
+            "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
+            "modes": [
+                {
+                    "mode": "road",
+                    "cost_per_tonne_km": 0.10,
+                    "speed_km_per_day": 600,
+                    "generate_lanes": False,
+                    "co2_kg_per_tonne_km": 0.10,
+                },
+                {
+                    "mode": "rail",
+                    "cost_per_tonne_km": 0.12,
+                    "speed_km_per_day": 400,
+                    "generate_lanes": False,
+                    "co2_kg_per_tonne_km": 0.03,
+                },
+            ],
+            "lanes": [
+                {"origin": "F", "destination": "C", "mode": "road", "distance_km": 1000.0, "transit_days": 1.0},
+                {"origin": "F", "destination": "C", "mode": "rail", "distance_km": 1000.0, "transit_days": 3.0},
+            ],
+        },
+        {
+            "lanes": {"legs": ["plant-customer"]},
+            "inventory": {"holding_rate": 0.25},
+            "policy": {"carbon_price_per_tonne": carbon_price},
+            "solver": {"mip_gap": 1e-9},
+        },
+    )
 
 
 def test_single_lane_by_hand():

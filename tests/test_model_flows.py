@@ -21,7 +21,7 @@ import pytest
 from scipy.optimize import linprog
 
 from netopt.api import solve
-from netopt.frames import make_case
+from netopt.data.frames import make_case
 
 MODE = "truck"
 BASE_SETTINGS = {"inventory": {"holding_rate": 0.0, "safety_stock": False}}
@@ -41,14 +41,22 @@ def _tables(products, plants, dcs, customers, demand, lanes):
 
 
 def _lane(o, d, cost, cap=None, product=""):
-    row = {"origin": o, "destination": d, "mode": MODE, "product": product, "cost_per_unit": float(cost),
-           "transit_days": 0.0, "distance_km": 0.0}
+    row = {
+        "origin": o,
+        "destination": d,
+        "mode": MODE,
+        "product": product,
+        "cost_per_unit": float(cost),
+        "transit_days": 0.0,
+        "distance_km": 0.0,
+    }
     if cap is not None:
         row["capacity"] = float(cap)
     return row
 
 
 # ----------------------------------------------------------------------------- (a) min-cost flow
+
 
 def random_single_product(seed: int) -> dict:
     """Plants → DCs → customers (plus some direct plant → customer and DC → DC lanes), integer data."""
@@ -65,21 +73,49 @@ def random_single_product(seed: int) -> dict:
     hcost = {d: int(rng.integers(0, 5)) for d in D}
     fixed = {d: int(rng.integers(100, 1000)) for d in D}
     pd_lanes = {(p, d): (int(rng.integers(1, 30)), int(rng.integers(total // 4, total))) for p in P for d in D}
-    dc_lanes = {(d, c): (int(rng.integers(1, 40)), None if rng.random() < 0.5 else int(rng.integers(5, 80)))
-                for d in D for c in C if rng.random() < 0.8}
+    dc_lanes = {
+        (d, c): (int(rng.integers(1, 40)), None if rng.random() < 0.5 else int(rng.integers(5, 80)))
+        for d in D
+        for c in C
+        if rng.random() < 0.8
+    }
     pc_lanes = {(p, c): (int(rng.integers(30, 80)), None) for p in P for c in C if rng.random() < 0.3}
     dd_lanes = {(a, b): (int(rng.integers(1, 10)), None) for a in D for b in D if a != b and rng.random() < 0.3}
     for c in C:  # every customer reachable from every DC set through a costly direct lane
         pc_lanes.setdefault((P[0], c), (int(rng.integers(60, 90)), None))
-    return dict(P=P, D=D, C=C, dem=dem, pcap=pcap, pcost=pcost, dcap=dcap, hcost=hcost, fixed=fixed,
-                pd=pd_lanes, dc=dc_lanes, pc=pc_lanes, dd=dd_lanes)
+    return dict(
+        P=P,
+        D=D,
+        C=C,
+        dem=dem,
+        pcap=pcap,
+        pcost=pcost,
+        dcap=dcap,
+        hcost=hcost,
+        fixed=fixed,
+        pd=pd_lanes,
+        dc=dc_lanes,
+        pc=pc_lanes,
+        dd=dd_lanes,
+    )
 
 
 def single_product_case(g: dict):
-    plants = [{"plant": p, "product": "x", "lat": 0.0, "lon": 0.0, "capacity": g["pcap"][p],
-               "unit_cost": g["pcost"][p]} for p in g["P"]]
-    dcs = [{"dc": d, "lat": 0.0, "lon": 0.0, "fixed_cost": g["fixed"][d], "capacity": g["dcap"][d],
-            "handling_cost": g["hcost"][d]} for d in g["D"]]
+    plants = [
+        {"plant": p, "product": "x", "lat": 0.0, "lon": 0.0, "capacity": g["pcap"][p], "unit_cost": g["pcost"][p]}
+        for p in g["P"]
+    ]
+    dcs = [
+        {
+            "dc": d,
+            "lat": 0.0,
+            "lon": 0.0,
+            "fixed_cost": g["fixed"][d],
+            "capacity": g["dcap"][d],
+            "handling_cost": g["hcost"][d],
+        }
+        for d in g["D"]
+    ]
     lanes = [_lane(p, d, c, cap) for (p, d), (c, cap) in g["pd"].items()]
     lanes += [_lane(d, c, cost, cap) for (d, c), (cost, cap) in g["dc"].items()]
     lanes += [_lane(p, c, cost, cap) for (p, c), (cost, cap) in g["pc"].items()]
@@ -151,8 +187,20 @@ def test_held_network_cost_equals_networkx_min_cost_flow(seed):
 def test_held_network_cost_also_detects_infeasibility():
     # networkx raises NetworkXUnfeasible when total capacity is short; netopt must say infeasible.
     # Hand computation: one plant of capacity 50 cannot serve demand 60.
-    g = dict(P=["P0"], D=["D0"], C=["C0"], dem={"C0": 60}, pcap={"P0": 50}, pcost={"P0": 1}, dcap={"D0": 100},
-             hcost={"D0": 0}, fixed={"D0": 10}, pd={("P0", "D0"): (1, 100)}, dc={("D0", "C0"): (1, None)}, pc={})
+    g = dict(
+        P=["P0"],
+        D=["D0"],
+        C=["C0"],
+        dem={"C0": 60},
+        pcap={"P0": 50},
+        pcost={"P0": 1},
+        dcap={"D0": 100},
+        hcost={"D0": 0},
+        fixed={"D0": 10},
+        pd={("P0", "D0"): (1, 100)},
+        dc={("D0", "C0"): (1, None)},
+        pc={},
+    )
     assert networkx_cost(g, {"D0"}) is None
     res = solve(single_product_case(g), hold={"D0": True}, diagnose=False)
     assert res.status == "infeasible"
@@ -181,6 +229,7 @@ def test_free_solve_equals_best_networkx_subset_and_hold_round_trip(seed):
 
 # ----------------------------------------------------------------------------- (b) brute force, 2 products
 
+
 def random_two_product(seed: int) -> dict:
     """Two products sharing DC throughput and plant→DC lane capacity (not a single-commodity flow)."""
     rng = np.random.default_rng(seed)
@@ -199,15 +248,40 @@ def random_two_product(seed: int) -> dict:
     pd_l = {(p, d): (float(rng.integers(1, 25)), float(rng.integers(int(tot / 5), int(tot)))) for p in P for d in D}
     dc_l = {(d, c): float(rng.integers(1, 40)) for d in D for c in C}
     pc_l = {(p, c): float(rng.integers(50, 90)) for p in P for c in C if rng.random() < 0.4}
-    return dict(K=K, P=P, D=D, C=C, dem=dem, pcap=pcap, pcost=pcost, dcap=dcap, hcost=hcost, fixed=fixed,
-                pd=pd_l, dc=dc_l, pc=pc_l)
+    return dict(
+        K=K,
+        P=P,
+        D=D,
+        C=C,
+        dem=dem,
+        pcap=pcap,
+        pcost=pcost,
+        dcap=dcap,
+        hcost=hcost,
+        fixed=fixed,
+        pd=pd_l,
+        dc=dc_l,
+        pc=pc_l,
+    )
 
 
 def two_product_case(g: dict, settings: dict | None = None):
-    plants = [{"plant": p, "product": k, "lat": 0.0, "lon": 0.0, "capacity": g["pcap"][p, k],
-               "unit_cost": g["pcost"][p, k]} for p in g["P"] for k in g["K"]]
-    dcs = [{"dc": d, "lat": 0.0, "lon": 0.0, "fixed_cost": g["fixed"][d], "capacity": g["dcap"][d],
-            "handling_cost": g["hcost"][d]} for d in g["D"]]
+    plants = [
+        {"plant": p, "product": k, "lat": 0.0, "lon": 0.0, "capacity": g["pcap"][p, k], "unit_cost": g["pcost"][p, k]}
+        for p in g["P"]
+        for k in g["K"]
+    ]
+    dcs = [
+        {
+            "dc": d,
+            "lat": 0.0,
+            "lon": 0.0,
+            "fixed_cost": g["fixed"][d],
+            "capacity": g["dcap"][d],
+            "handling_cost": g["hcost"][d],
+        }
+        for d in g["D"]
+    ]
     lanes = [_lane(p, d, c, cap) for (p, d), (c, cap) in g["pd"].items()]
     lanes += [_lane(d, c, cost) for (d, c), cost in g["dc"].items()]
     lanes += [_lane(p, c, cost) for (p, c), cost in g["pc"].items()]
@@ -281,8 +355,15 @@ def linprog_cost(g: dict, open_dcs: tuple[str, ...]) -> float | None:
                     row[i] = 1
             A_ub.append(row)
             b_ub.append(g["pcap"][p, k])
-    r = linprog(cost, A_ub=np.array(A_ub) if A_ub else None, b_ub=b_ub or None, A_eq=np.array(A_eq), b_eq=b_eq,
-                bounds=(0, None), method="highs")
+    r = linprog(
+        cost,
+        A_ub=np.array(A_ub) if A_ub else None,
+        b_ub=b_ub or None,
+        A_eq=np.array(A_eq),
+        b_eq=b_eq,
+        bounds=(0, None),
+        method="highs",
+    )
     if r.status == 2:
         return None
     assert r.status == 0, r.message

@@ -16,7 +16,8 @@ import pandas as pd
 import pytest
 
 from netopt.api import solve
-from netopt.frames import make_case
+from netopt.data.frames import make_case
+
 
 def lane(o, d, cost=None, mode="m", days=0.0, km=0.0, **kw):
     """An explicit lane row (cost None = from the mode's rate, weight and distance)."""
@@ -50,24 +51,32 @@ def widget(value=0.0, weight=0.0, **kw):
 
 # ----------------------------------------------------------------------------- sourcing
 
+
 def sourcing_case(**policy):
     """Plants PA (demand 100) and PB (demand 50) make widgets from 2 steel each (BOM).
 
     Steel from S1 at 1, S2 at 2 (both region north), S3 at 4 (south); freight 0.
     Steel needed: PA 200, PB 100, total 300.
     """
-    return build({
-        "products": [widget(), {"product": "steel", "kind": "material", "unit_weight_kg": 0.0, "unit_value": 0.0}],
-        "suppliers": [site("supplier", s, product="steel", unit_cost=c, region=r)
-                      for s, c, r in [("S1", 1.0, "north"), ("S2", 2.0, "north"), ("S3", 4.0, "south")]],
-        "plants": [site("plant", p, product="widget") for p in ("PA", "PB")],
-        "bill_of_materials": [{"product": "widget", "material": "steel", "quantity_per_unit": 2.0}],
-        "customers": [site("customer", c) for c in ("CA", "CB")],
-        "demand": [{"customer": "CA", "product": "widget", "quantity": 100.0},
-                   {"customer": "CB", "product": "widget", "quantity": 50.0}],
-        "lanes": [lane(s, p, 0.0) for s in ("S1", "S2", "S3") for p in ("PA", "PB")]
-                 + [lane("PA", "CA", 0.0), lane("PB", "CB", 0.0)],
-    }, policy=policy)
+    return build(
+        {
+            "products": [widget(), {"product": "steel", "kind": "material", "unit_weight_kg": 0.0, "unit_value": 0.0}],
+            "suppliers": [
+                site("supplier", s, product="steel", unit_cost=c, region=r)
+                for s, c, r in [("S1", 1.0, "north"), ("S2", 2.0, "north"), ("S3", 4.0, "south")]
+            ],
+            "plants": [site("plant", p, product="widget") for p in ("PA", "PB")],
+            "bill_of_materials": [{"product": "widget", "material": "steel", "quantity_per_unit": 2.0}],
+            "customers": [site("customer", c) for c in ("CA", "CB")],
+            "demand": [
+                {"customer": "CA", "product": "widget", "quantity": 100.0},
+                {"customer": "CB", "product": "widget", "quantity": 50.0},
+            ],
+            "lanes": [lane(s, p, 0.0) for s in ("S1", "S2", "S3") for p in ("PA", "PB")]
+            + [lane("PA", "CA", 0.0), lane("PB", "CB", 0.0)],
+        },
+        policy=policy,
+    )
 
 
 def share_unit_cost(s: float) -> float:
@@ -135,6 +144,7 @@ def test_min_active_suppliers(k, min_share, unit):
 
 # ----------------------------------------------------------------------------- service
 
+
 def service_case(target: float, classes: list[dict] | None = None):
     """Customer CU (100 units) via DC FAST (1 day, cost 10/unit) or DC SLOW (5 days, cost 2/unit)."""
     tables = {
@@ -143,8 +153,12 @@ def service_case(target: float, classes: list[dict] | None = None):
         "dcs": [site("dc", "FAST"), site("dc", "SLOW")],
         "customers": [site("customer", "CU", service_class="standard" if classes is None else "express")],
         "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
-        "lanes": [lane("PL", "FAST", 0.0), lane("PL", "SLOW", 0.0),
-                  lane("FAST", "CU", 10.0, days=1.0), lane("SLOW", "CU", 2.0, days=5.0)],
+        "lanes": [
+            lane("PL", "FAST", 0.0),
+            lane("PL", "SLOW", 0.0),
+            lane("FAST", "CU", 10.0, days=1.0),
+            lane("SLOW", "CU", 2.0, days=5.0),
+        ],
     }
     if classes is not None:
         tables["service_classes"] = classes
@@ -175,6 +189,7 @@ def test_service_class_table_overrides_settings():
 
 # ----------------------------------------------------------------------------- DC decisions
 
+
 def three_dc_case(force: dict[str, str] | None = None):
     """Customers C1..C4 (demand 40, 30, 20, 10) and DCs A, B, C with fixed costs 300, 200, 250.
 
@@ -182,18 +197,31 @@ def three_dc_case(force: dict[str, str] | None = None):
     """
     force = force or {}
     fixed = {"A": 300.0, "B": 200.0, "C": 250.0}
-    cost = {("A", "C1"): 1, ("A", "C2"): 6, ("A", "C3"): 9, ("A", "C4"): 4,
-            ("B", "C1"): 7, ("B", "C2"): 1, ("B", "C3"): 3, ("B", "C4"): 8,
-            ("C", "C1"): 5, ("C", "C2"): 4, ("C", "C3"): 1, ("C", "C4"): 1}
+    cost = {
+        ("A", "C1"): 1,
+        ("A", "C2"): 6,
+        ("A", "C3"): 9,
+        ("A", "C4"): 4,
+        ("B", "C1"): 7,
+        ("B", "C2"): 1,
+        ("B", "C3"): 3,
+        ("B", "C4"): 8,
+        ("C", "C1"): 5,
+        ("C", "C2"): 4,
+        ("C", "C3"): 1,
+        ("C", "C4"): 1,
+    }
     dem = {"C1": 40.0, "C2": 30.0, "C3": 20.0, "C4": 10.0}
-    return build({
-        "products": [widget()],
-        "plants": [site("plant", "PL", product="widget")],
-        "dcs": [site("dc", d, fixed_cost=f, force=force.get(d, "")) for d, f in fixed.items()],
-        "customers": [site("customer", c) for c in dem],
-        "demand": [{"customer": c, "product": "widget", "quantity": q} for c, q in dem.items()],
-        "lanes": [lane("PL", d, 1.0) for d in fixed] + [lane(d, c, v) for (d, c), v in cost.items()],
-    })
+    return build(
+        {
+            "products": [widget()],
+            "plants": [site("plant", "PL", product="widget")],
+            "dcs": [site("dc", d, fixed_cost=f, force=force.get(d, "")) for d, f in fixed.items()],
+            "customers": [site("customer", c) for c in dem],
+            "demand": [{"customer": c, "product": "widget", "quantity": q} for c, q in dem.items()],
+            "lanes": [lane("PL", d, 1.0) for d in fixed] + [lane(d, c, v) for (d, c), v in cost.items()],
+        }
+    )
 
 
 def _brute_three_dc(must_open=(), must_close=()):
@@ -233,27 +261,34 @@ def test_forcing_a_dc_open_or_closed_never_lowers_cost():
 def sized_case(demand: float):
     """DC DX with sizes S (100 units, 100), M (200, 150), L (400, 400), lane cost 1;
     DC DY unlimited, fixed 0, lane cost 3."""
-    return build({
-        "products": [widget()],
-        "plants": [site("plant", "PL", product="widget")],
-        "dcs": [site("dc", "DX", fixed_cost=999.0, capacity=1.0), site("dc", "DY")],
-        "dc_sizes": [{"dc": "DX", "size": s, "capacity": c, "fixed_cost": f}
-                     for s, c, f in [("S", 100.0, 100.0), ("M", 200.0, 150.0), ("L", 400.0, 400.0)]],
-        "customers": [site("customer", "CU")],
-        "demand": [{"customer": "CU", "product": "widget", "quantity": demand}],
-        "lanes": [lane("PL", "DX", 0.0), lane("PL", "DY", 0.0), lane("DX", "CU", 1.0), lane("DY", "CU", 3.0)],
-    })
+    return build(
+        {
+            "products": [widget()],
+            "plants": [site("plant", "PL", product="widget")],
+            "dcs": [site("dc", "DX", fixed_cost=999.0, capacity=1.0), site("dc", "DY")],
+            "dc_sizes": [
+                {"dc": "DX", "size": s, "capacity": c, "fixed_cost": f}
+                for s, c, f in [("S", 100.0, 100.0), ("M", 200.0, 150.0), ("L", 400.0, 400.0)]
+            ],
+            "customers": [site("customer", "CU")],
+            "demand": [{"customer": "CU", "product": "widget", "quantity": demand}],
+            "lanes": [lane("PL", "DX", 0.0), lane("PL", "DY", 0.0), lane("DX", "CU", 1.0), lane("DY", "CU", 3.0)],
+        }
+    )
 
 
-@pytest.mark.parametrize("demand,size,cost", [
-    # 180: M 150 + 180 = 330; S 100 + 100 + 80×3 = 440; L 400 + 180 = 580; none 540 → M, 330.
-    (180.0, "M", 330.0),
-    # 280: M 150 + 200 + 80×3 = 590; L 400 + 280 = 680; S 100 + 100 + 180×3 = 740; none 840 → M, 590.
-    # S+M together would cost 250 + 280 = 530 — cheaper, so only "at most one size" prevents it.
-    (280.0, "M", 590.0),
-    # 390: L 400 + 390 = 790; M 150 + 200 + 190×3 = 920 → L, 790.
-    (390.0, "L", 790.0),
-])
+@pytest.mark.parametrize(
+    "demand,size,cost",
+    [
+        # 180: M 150 + 180 = 330; S 100 + 100 + 80×3 = 440; L 400 + 180 = 580; none 540 → M, 330.
+        (180.0, "M", 330.0),
+        # 280: M 150 + 200 + 80×3 = 590; L 400 + 280 = 680; S 100 + 100 + 180×3 = 740; none 840 → M, 590.
+        # S+M together would cost 250 + 280 = 530 — cheaper, so only "at most one size" prevents it.
+        (280.0, "M", 590.0),
+        # 390: L 400 + 390 = 790; M 150 + 200 + 190×3 = 920 → L, 790.
+        (390.0, "L", 790.0),
+    ],
+)
 def test_dc_sizes_pick_at_most_one_size(demand, size, cost):
     res = solve(sized_case(demand), mip_gap=1e-9)
     assert res.status == "optimal" and res.verification.passed
@@ -267,23 +302,30 @@ def test_dc_sizes_pick_at_most_one_size(demand, size, cost):
 
 def closing_case(closing_cost: float):
     """Existing DC OLD (fixed 1000, lane 1/unit) or candidate NEW (fixed 200, lane 2/unit); demand 100."""
-    return build({
-        "products": [widget()],
-        "plants": [site("plant", "PL", product="widget")],
-        "dcs": [site("dc", "OLD", status="existing", fixed_cost=1000.0, closing_cost=closing_cost),
-                site("dc", "NEW", fixed_cost=200.0)],
-        "customers": [site("customer", "CU")],
-        "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
-        "lanes": [lane("PL", "OLD", 0.0), lane("PL", "NEW", 0.0), lane("OLD", "CU", 1.0), lane("NEW", "CU", 2.0)],
-    })
+    return build(
+        {
+            "products": [widget()],
+            "plants": [site("plant", "PL", product="widget")],
+            "dcs": [
+                site("dc", "OLD", status="existing", fixed_cost=1000.0, closing_cost=closing_cost),
+                site("dc", "NEW", fixed_cost=200.0),
+            ],
+            "customers": [site("customer", "CU")],
+            "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
+            "lanes": [lane("PL", "OLD", 0.0), lane("PL", "NEW", 0.0), lane("OLD", "CU", 1.0), lane("NEW", "CU", 2.0)],
+        }
+    )
 
 
-@pytest.mark.parametrize("closing,decision,total", [
-    # keep OLD: 1000 + 100 = 1100; close it and open NEW: 300 + 200 + 200 = 700 → close.
-    (300.0, "close", 700.0),
-    # closing 2000: keep 1100 < 2000 + 400 = 2400 → keep, nothing charged for closing.
-    (2000.0, "keep", 1100.0),
-])
+@pytest.mark.parametrize(
+    "closing,decision,total",
+    [
+        # keep OLD: 1000 + 100 = 1100; close it and open NEW: 300 + 200 + 200 = 700 → close.
+        (300.0, "close", 700.0),
+        # closing 2000: keep 1100 < 2000 + 400 = 2400 → keep, nothing charged for closing.
+        (2000.0, "keep", 1100.0),
+    ],
+)
 def test_closing_an_existing_dc_charges_its_closing_cost(closing, decision, total):
     res = solve(closing_case(closing), mip_gap=1e-9)
     assert res.status == "optimal" and res.verification.passed
@@ -294,20 +336,28 @@ def test_closing_an_existing_dc_charges_its_closing_cost(closing, decision, tota
 
 # ----------------------------------------------------------------------------- inventory in transit
 
+
 def test_pipeline_inventory_cost_is_littles_law():
     # Little's law L = λW (Little 1961, Oper. Res. 9(3):383–387; trade-facts §5): units in
     # transit = flow × transit time, annual cost = flow × value × holding rate × days / 365.
     # widget: 1000/yr, value 80, rate 0.25 (settings default), 7 days → 1000·80·0.25·7/365
     # gadget: 500/yr, value 45, its own rate 0.2, 3 days → 500·45·0.2·3/365
-    case = build({
-        "products": [widget(value=80.0), {"product": "gadget", "unit_weight_kg": 0.0, "unit_value": 45.0,
-                                          "holding_rate": 0.2}],
-        "plants": [site("plant", "PL", product="widget"), site("plant", "PL", product="gadget")],
-        "customers": [site("customer", "CW"), site("customer", "CG")],
-        "demand": [{"customer": "CW", "product": "widget", "quantity": 1000.0},
-                   {"customer": "CG", "product": "gadget", "quantity": 500.0}],
-        "lanes": [lane("PL", "CW", 0.0, days=7.0), lane("PL", "CG", 0.0, days=3.0)],
-    }, inventory={"holding_rate": 0.25})
+    case = build(
+        {
+            "products": [
+                widget(value=80.0),
+                {"product": "gadget", "unit_weight_kg": 0.0, "unit_value": 45.0, "holding_rate": 0.2},
+            ],
+            "plants": [site("plant", "PL", product="widget"), site("plant", "PL", product="gadget")],
+            "customers": [site("customer", "CW"), site("customer", "CG")],
+            "demand": [
+                {"customer": "CW", "product": "widget", "quantity": 1000.0},
+                {"customer": "CG", "product": "gadget", "quantity": 500.0},
+            ],
+            "lanes": [lane("PL", "CW", 0.0, days=7.0), lane("PL", "CG", 0.0, days=3.0)],
+        },
+        inventory={"holding_rate": 0.25},
+    )
     res = solve(case)
     assert res.status == "optimal" and res.verification.passed
     w = 1000 * 80 * 0.25 * 7 / 365
@@ -325,17 +375,22 @@ def test_pipeline_inventory_cost_is_littles_law():
 
 # ----------------------------------------------------------------------------- single sourcing, modes
 
+
 def single_source_case(on: bool):
     """DC D1 (capacity 60, lanes 1/unit) and D2 (unlimited, lanes 5/unit); C1, C2 demand 50 each."""
-    return build({
-        "products": [widget()],
-        "plants": [site("plant", "PL", product="widget")],
-        "dcs": [site("dc", "D1", capacity=60.0), site("dc", "D2")],
-        "customers": [site("customer", c) for c in ("C1", "C2")],
-        "demand": [{"customer": c, "product": "widget", "quantity": 50.0} for c in ("C1", "C2")],
-        "lanes": [lane("PL", "D1", 0.0), lane("PL", "D2", 0.0)]
-                 + [lane("D1", c, 1.0) for c in ("C1", "C2")] + [lane("D2", c, 5.0) for c in ("C1", "C2")],
-    }, policy={"single_sourcing": on})
+    return build(
+        {
+            "products": [widget()],
+            "plants": [site("plant", "PL", product="widget")],
+            "dcs": [site("dc", "D1", capacity=60.0), site("dc", "D2")],
+            "customers": [site("customer", c) for c in ("C1", "C2")],
+            "demand": [{"customer": c, "product": "widget", "quantity": 50.0} for c in ("C1", "C2")],
+            "lanes": [lane("PL", "D1", 0.0), lane("PL", "D2", 0.0)]
+            + [lane("D1", c, 1.0) for c in ("C1", "C2")]
+            + [lane("D2", c, 5.0) for c in ("C1", "C2")],
+        },
+        policy={"single_sourcing": on},
+    )
 
 
 def test_single_sourcing_one_origin_per_customer_and_product():
@@ -358,15 +413,19 @@ def test_single_sourcing_with_lost_demand_lets_the_one_origin_deliver_part():
     # D1 (capacity 60, 1/unit) and D2 (capacity 30, 5/unit); C1, C2 demand 50; loss allowed at 100/unit.
     # Single sourcing: D1 → one customer 50 × 1 = 50; D2 → the other 30 × 5 = 150 and 20 lost × 100 = 2000;
     # total 2200. (All-or-nothing per customer would lose 50 × 100 instead: 5050.)
-    case = build({
-        "products": [widget()],
-        "plants": [site("plant", "PL", product="widget")],
-        "dcs": [site("dc", "D1", capacity=60.0), site("dc", "D2", capacity=30.0)],
-        "customers": [site("customer", c) for c in ("C1", "C2")],
-        "demand": [{"customer": c, "product": "widget", "quantity": 50.0} for c in ("C1", "C2")],
-        "lanes": [lane("PL", "D1", 0.0), lane("PL", "D2", 0.0)]
-                 + [lane("D1", c, 1.0) for c in ("C1", "C2")] + [lane("D2", c, 5.0) for c in ("C1", "C2")],
-    }, policy={"single_sourcing": True, "allow_unmet_demand": True, "unmet_penalty_per_unit": 100.0})
+    case = build(
+        {
+            "products": [widget()],
+            "plants": [site("plant", "PL", product="widget")],
+            "dcs": [site("dc", "D1", capacity=60.0), site("dc", "D2", capacity=30.0)],
+            "customers": [site("customer", c) for c in ("C1", "C2")],
+            "demand": [{"customer": c, "product": "widget", "quantity": 50.0} for c in ("C1", "C2")],
+            "lanes": [lane("PL", "D1", 0.0), lane("PL", "D2", 0.0)]
+            + [lane("D1", c, 1.0) for c in ("C1", "C2")]
+            + [lane("D2", c, 5.0) for c in ("C1", "C2")],
+        },
+        policy={"single_sourcing": True, "allow_unmet_demand": True, "unmet_penalty_per_unit": 100.0},
+    )
     res = solve(case, mip_gap=1e-9)
     assert res.status == "optimal" and res.verification.passed
     assert res.objective == pytest.approx(2200.0, rel=1e-9)
@@ -377,14 +436,17 @@ def test_single_sourcing_with_lost_demand_lets_the_one_origin_deliver_part():
 
 def one_mode_case(on: bool):
     """Plant → customer (demand 100) by road (1/unit, at most 60/yr) or rail (3/unit, no limit)."""
-    return build({
-        "products": [widget()],
-        "plants": [site("plant", "PL", product="widget")],
-        "customers": [site("customer", "CU")],
-        "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
-        "modes": [flat_mode("road"), flat_mode("rail")],
-        "lanes": [lane("PL", "CU", 1.0, mode="road", capacity=60.0), lane("PL", "CU", 3.0, mode="rail")],
-    }, policy={"one_mode_per_lane": on})
+    return build(
+        {
+            "products": [widget()],
+            "plants": [site("plant", "PL", product="widget")],
+            "customers": [site("customer", "CU")],
+            "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
+            "modes": [flat_mode("road"), flat_mode("rail")],
+            "lanes": [lane("PL", "CU", 1.0, mode="road", capacity=60.0), lane("PL", "CU", 3.0, mode="rail")],
+        },
+        policy={"one_mode_per_lane": on},
+    )
 
 
 def test_one_mode_per_lane():
@@ -404,18 +466,25 @@ def test_one_mode_per_lane_carrying_several_materials():
     # on the lane. Mode x: 1/unit, 2 days; mode y: 2/unit, 0 days, at most 5000/yr (kept: faster).
     # One mode per lane → x for both materials: freight 2000 × 1 + purchase 2000 × 1 = 4000.
     mat = lambda p: {"product": p, "kind": "material", "unit_weight_kg": 0.0, "unit_value": 0.0}  # noqa: E731
-    case = build({
-        "products": [widget(), mat("steel"), mat("bolt")],
-        "suppliers": [site("supplier", "SS", product=m, unit_cost=1.0) for m in ("steel", "bolt")],
-        "plants": [site("plant", "PW", product="widget")],
-        "bill_of_materials": [{"product": "widget", "material": m, "quantity_per_unit": 10.0}
-                              for m in ("steel", "bolt")],
-        "customers": [site("customer", "CU")],
-        "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
-        "modes": [flat_mode("x"), flat_mode("y")],
-        "lanes": [lane("SS", "PW", 1.0, mode="x", days=2.0), lane("SS", "PW", 2.0, mode="y", capacity=5000.0),
-                  lane("PW", "CU", 0.0, mode="x")],
-    }, policy={"one_mode_per_lane": True})
+    case = build(
+        {
+            "products": [widget(), mat("steel"), mat("bolt")],
+            "suppliers": [site("supplier", "SS", product=m, unit_cost=1.0) for m in ("steel", "bolt")],
+            "plants": [site("plant", "PW", product="widget")],
+            "bill_of_materials": [
+                {"product": "widget", "material": m, "quantity_per_unit": 10.0} for m in ("steel", "bolt")
+            ],
+            "customers": [site("customer", "CU")],
+            "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
+            "modes": [flat_mode("x"), flat_mode("y")],
+            "lanes": [
+                lane("SS", "PW", 1.0, mode="x", days=2.0),
+                lane("SS", "PW", 2.0, mode="y", capacity=5000.0),
+                lane("PW", "CU", 0.0, mode="x"),
+            ],
+        },
+        policy={"one_mode_per_lane": True},
+    )
     res = solve(case, mip_gap=1e-9)
     assert res.status == "optimal" and res.verification.passed
     assert res.objective == pytest.approx(4000.0, rel=1e-9)
@@ -430,17 +499,24 @@ def test_one_mode_per_lane_with_product_specific_costs(prune):
     # all x = 20 + 10 = 30, all y = 10 + 30 = 40 → x, 30. Dropping "dominated" modes per product
     # must not change this (y beats x only for widgets), with or without lanes.prune_dominated.
     def case(on):
-        return build({
-            "products": [widget(), {"product": "gadget", "unit_weight_kg": 0.0, "unit_value": 0.0}],
-            "plants": [site("plant", "PL", product="widget"), site("plant", "PL", product="gadget")],
-            "customers": [site("customer", "CU")],
-            "demand": [{"customer": "CU", "product": p, "quantity": 10.0} for p in ("widget", "gadget")],
-            "modes": [flat_mode("x"), flat_mode("y")],
-            "lanes": [lane("PL", "CU", 2.0, mode="x", product="widget"),
-                      lane("PL", "CU", 1.0, mode="y", product="widget"),
-                      lane("PL", "CU", 1.0, mode="x", product="gadget"),
-                      lane("PL", "CU", 3.0, mode="y", product="gadget")],
-        }, policy={"one_mode_per_lane": on}, lanes={"prune_dominated": prune})
+        return build(
+            {
+                "products": [widget(), {"product": "gadget", "unit_weight_kg": 0.0, "unit_value": 0.0}],
+                "plants": [site("plant", "PL", product="widget"), site("plant", "PL", product="gadget")],
+                "customers": [site("customer", "CU")],
+                "demand": [{"customer": "CU", "product": p, "quantity": 10.0} for p in ("widget", "gadget")],
+                "modes": [flat_mode("x"), flat_mode("y")],
+                "lanes": [
+                    lane("PL", "CU", 2.0, mode="x", product="widget"),
+                    lane("PL", "CU", 1.0, mode="y", product="widget"),
+                    lane("PL", "CU", 1.0, mode="x", product="gadget"),
+                    lane("PL", "CU", 3.0, mode="y", product="gadget"),
+                ],
+            },
+            policy={"one_mode_per_lane": on},
+            lanes={"prune_dominated": prune},
+        )
+
     assert solve(case(False)).objective == pytest.approx(20.0, rel=1e-9)
     one = solve(case(True), mip_gap=1e-9)
     assert one.status == "optimal" and one.verification.passed
@@ -450,24 +526,41 @@ def test_one_mode_per_lane_with_product_specific_costs(prune):
 
 # ----------------------------------------------------------------------------- carbon
 
+
 def carbon_case(**policy):
     """1000 widgets of 10 kg over 1000 km by road or rail (freight and CO2 from the mode rates).
 
     road: 0.1 /t·km → 10/1000 × 1000 × 0.1 = 1.0 per unit; 0.1 kg/t·km → 1.0 kg CO2e per unit.
     rail: 0.05 /t·km + 2 per unit → 2.5 per unit; 0.02 kg/t·km → 0.2 kg per unit.
     """
-    modes = [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500.0, "co2_kg_per_tonne_km": 0.1,
-              "generate_lanes": False},
-             {"mode": "rail", "cost_per_tonne_km": 0.05, "fixed_cost_per_unit": 2.0, "speed_km_per_day": 500.0,
-              "co2_kg_per_tonne_km": 0.02, "generate_lanes": False}]
-    return build({
-        "products": [widget(weight=10.0)],
-        "plants": [site("plant", "PL", product="widget")],
-        "customers": [site("customer", "CU")],
-        "demand": [{"customer": "CU", "product": "widget", "quantity": 1000.0}],
-        "modes": modes,
-        "lanes": [lane("PL", "CU", None, mode=m, days=2.0, km=1000.0) for m in ("road", "rail")],
-    }, policy=policy)
+    modes = [
+        {
+            "mode": "road",
+            "cost_per_tonne_km": 0.1,
+            "speed_km_per_day": 500.0,
+            "co2_kg_per_tonne_km": 0.1,
+            "generate_lanes": False,
+        },
+        {
+            "mode": "rail",
+            "cost_per_tonne_km": 0.05,
+            "fixed_cost_per_unit": 2.0,
+            "speed_km_per_day": 500.0,
+            "co2_kg_per_tonne_km": 0.02,
+            "generate_lanes": False,
+        },
+    ]
+    return build(
+        {
+            "products": [widget(weight=10.0)],
+            "plants": [site("plant", "PL", product="widget")],
+            "customers": [site("customer", "CU")],
+            "demand": [{"customer": "CU", "product": "widget", "quantity": 1000.0}],
+            "modes": modes,
+            "lanes": [lane("PL", "CU", None, mode=m, days=2.0, km=1000.0) for m in ("road", "rail")],
+        },
+        policy=policy,
+    )
 
 
 def test_co2_cap_respected_and_raises_cost_when_binding():
@@ -500,6 +593,7 @@ def test_carbon_price_changes_mode_choice(price, mode):
 
 # ----------------------------------------------------------------------------- unmet demand, infeasibility
 
+
 def short_case(via_dc: bool = False, **policy):
     """Demand 1000 at CU, lane cost 1/unit; only 800 can be made (plant cap) or moved (DC cap)."""
     tables = {
@@ -515,11 +609,14 @@ def short_case(via_dc: bool = False, **policy):
     return build(tables, policy=policy)
 
 
-@pytest.mark.parametrize("penalty,lost,total", [
-    (50.0, 200.0, 800 * 1 + 200 * 50),   # serving costs 1 < 50: serve the 800 possible, lose 200
-    (0.5, 1000.0, 1000 * 0.5),           # losing costs 0.5 < 1: lose everything
-    (0.0, 200.0, 800 * 1 + 200 * 60),    # 0 = 2 × unit value (schema) = 60 per lost unit
-])
+@pytest.mark.parametrize(
+    "penalty,lost,total",
+    [
+        (50.0, 200.0, 800 * 1 + 200 * 50),  # serving costs 1 < 50: serve the 800 possible, lose 200
+        (0.5, 1000.0, 1000 * 0.5),  # losing costs 0.5 < 1: lose everything
+        (0.0, 200.0, 800 * 1 + 200 * 60),  # 0 = 2 × unit value (schema) = 60 per lost unit
+    ],
+)
 def test_unmet_demand_only_when_allowed_at_the_penalty(penalty, lost, total):
     res = solve(short_case(allow_unmet_demand=True, unmet_penalty_per_unit=penalty))
     assert res.status == "optimal" and res.verification.passed
@@ -530,13 +627,16 @@ def test_unmet_demand_only_when_allowed_at_the_penalty(penalty, lost, total):
 
 def test_no_unmet_demand_when_it_can_be_served():
     # Capacity 800 ≥ demand → nothing lost even though loss is allowed at 50.
-    case = build({
-        "products": [widget()],
-        "plants": [site("plant", "PL", product="widget", capacity=800.0)],
-        "customers": [site("customer", "CU")],
-        "demand": [{"customer": "CU", "product": "widget", "quantity": 700.0}],
-        "lanes": [lane("PL", "CU", 1.0)],
-    }, policy={"allow_unmet_demand": True, "unmet_penalty_per_unit": 50.0})
+    case = build(
+        {
+            "products": [widget()],
+            "plants": [site("plant", "PL", product="widget", capacity=800.0)],
+            "customers": [site("customer", "CU")],
+            "demand": [{"customer": "CU", "product": "widget", "quantity": 700.0}],
+            "lanes": [lane("PL", "CU", 1.0)],
+        },
+        policy={"allow_unmet_demand": True, "unmet_penalty_per_unit": 50.0},
+    )
     res = solve(case)
     assert len(res.tables["unmet"]) == 0 and res.objective == pytest.approx(700.0)
 
@@ -560,36 +660,64 @@ def test_infeasible_case_names_what_cannot_be_met(via_dc):
 
 # ----------------------------------------------------------------------------- bill of materials
 
+
 def test_bill_of_materials_inflow_equals_bom_times_production():
     # widget uses 10 steel + 0.5 resin, gadget 3 steel: plant PW makes 100 widgets → 1000 steel, 50 resin;
     # plant PG makes 40 gadgets → 120 steel.
     mat = lambda p: {"product": p, "kind": "material", "unit_weight_kg": 0.0, "unit_value": 0.0}  # noqa: E731
-    case = build({
-        "products": [widget(), {"product": "gadget", "unit_weight_kg": 0.0, "unit_value": 0.0}, mat("steel"),
-                     mat("resin")],
-        "suppliers": [site("supplier", "SS", product="steel", unit_cost=1.0),
-                      site("supplier", "SR", product="resin", unit_cost=3.0)],
-        "plants": [site("plant", "PW", product="widget", unit_cost=5.0),
-                   site("plant", "PG", product="gadget", unit_cost=2.0)],
-        "bill_of_materials": [{"product": "widget", "material": "steel", "quantity_per_unit": 10.0},
-                              {"product": "widget", "material": "resin", "quantity_per_unit": 0.5},
-                              {"product": "gadget", "material": "steel", "quantity_per_unit": 3.0}],
-        "customers": [site("customer", "CU")],
-        "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0},
-                   {"customer": "CU", "product": "gadget", "quantity": 40.0}],
-        "lanes": [lane("SS", "PW", 0.0), lane("SS", "PG", 0.0), lane("SR", "PW", 0.0),
-                  lane("PW", "CU", 0.0), lane("PG", "CU", 0.0)],
-    })
+    case = build(
+        {
+            "products": [
+                widget(),
+                {"product": "gadget", "unit_weight_kg": 0.0, "unit_value": 0.0},
+                mat("steel"),
+                mat("resin"),
+            ],
+            "suppliers": [
+                site("supplier", "SS", product="steel", unit_cost=1.0),
+                site("supplier", "SR", product="resin", unit_cost=3.0),
+            ],
+            "plants": [
+                site("plant", "PW", product="widget", unit_cost=5.0),
+                site("plant", "PG", product="gadget", unit_cost=2.0),
+            ],
+            "bill_of_materials": [
+                {"product": "widget", "material": "steel", "quantity_per_unit": 10.0},
+                {"product": "widget", "material": "resin", "quantity_per_unit": 0.5},
+                {"product": "gadget", "material": "steel", "quantity_per_unit": 3.0},
+            ],
+            "customers": [site("customer", "CU")],
+            "demand": [
+                {"customer": "CU", "product": "widget", "quantity": 100.0},
+                {"customer": "CU", "product": "gadget", "quantity": 40.0},
+            ],
+            "lanes": [
+                lane("SS", "PW", 0.0),
+                lane("SS", "PG", 0.0),
+                lane("SR", "PW", 0.0),
+                lane("PW", "CU", 0.0),
+                lane("PG", "CU", 0.0),
+            ],
+        }
+    )
     res = solve(case)
     assert res.status == "optimal" and res.verification.passed
     prod = res.tables["production"].set_index(["plant", "product"])["quantity"]
     assert prod[("PW", "widget")] == pytest.approx(100.0) and prod[("PG", "gadget")] == pytest.approx(40.0)
     f = res.tables["flows"]
     got = f[f["destination_kind"] == "plant"].groupby(["destination", "product"])["quantity"].sum()
-    bom = pd.DataFrame([("widget", "steel", 10.0), ("widget", "resin", 0.5), ("gadget", "steel", 3.0)],
-                       columns=["product", "material", "q"])
-    need = (prod.rename("made").reset_index().merge(bom, on="product")
-            .assign(n=lambda x: x["made"] * x["q"]).groupby(["plant", "material"])["n"].sum())
+    bom = pd.DataFrame(
+        [("widget", "steel", 10.0), ("widget", "resin", 0.5), ("gadget", "steel", 3.0)],
+        columns=["product", "material", "q"],
+    )
+    need = (
+        prod.rename("made")
+        .reset_index()
+        .merge(bom, on="product")
+        .assign(n=lambda x: x["made"] * x["q"])
+        .groupby(["plant", "material"])["n"]
+        .sum()
+    )
     assert dict(got) == pytest.approx({("PW", "steel"): 1000.0, ("PW", "resin"): 50.0, ("PG", "steel"): 120.0})
     assert dict(got) == pytest.approx(dict(need))
     # supply 1120 × 1 + 50 × 3 = 1270; production 100 × 5 + 40 × 2 = 580.

@@ -14,10 +14,20 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from orlib import (
+    CAP_NAMES,
+    DATA,
+    PMED_NAMES,
+    cap_case,
+    pmed_case,
+    pmed_distances,
+    read_cap,
+    read_capopt,
+    read_pmed,
+    read_pmedopt,
+)
 
 from netopt.api import solve
-from orlib import CAP_NAMES, DATA, PMED_NAMES, cap_case, pmed_case, pmed_distances, read_cap, read_capopt, \
-    read_pmed, read_pmedopt
 
 CAPOPT = read_capopt()
 PMEDOPT = read_pmedopt()
@@ -26,6 +36,7 @@ SLOW_PMED = {"pmed6", "pmed7", "pmed8", "pmed9", "pmed10"}
 
 
 # ----------------------------------------------------------------------------- the files themselves
+
 
 def test_cap_files_parse_to_the_documented_parameters():
     # cap/FORMAT.md ("Instance parameters", read from the files): all 16×50 and 25×50 files
@@ -71,6 +82,7 @@ def test_pmed_repeated_edges_last_wins():
 
 # ----------------------------------------------------------------------------- capacitated location
 
+
 @pytest.mark.parametrize("name", CAP_NAMES)
 def test_capacitated_location_matches_capopt(name):
     # capopt.txt (Beasley 1988, OR-Library): optimum of the split-demand problem. Values carry
@@ -99,6 +111,7 @@ def test_capacitated_location_matches_capopt(name):
 
 
 # ----------------------------------------------------------------------------- p-median
+
 
 def _pmed_params():
     return [pytest.param(n, marks=pytest.mark.slow) if n in SLOW_PMED else n for n in PMED_NAMES]

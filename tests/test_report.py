@@ -18,10 +18,10 @@ from casekit import make_case_dir, tiny_rows
 from geographiclib.geodesic import Geodesic
 
 from netopt.api import Result
-from netopt.io import load_case
-from netopt.output import DISCLAIMER, write_run
-from netopt.report import map_layout, project, render_report, site_table, write_report
-from netopt.scenarios import run_scenarios
+from netopt.data.io import load_case
+from netopt.present.files import DISCLAIMER, write_run
+from netopt.present.report import map_layout, project, render_report, site_table, write_report
+from netopt.studies.scenarios import run_scenarios
 
 HYPER = '=HYPERLINK("http://example.invalid/x","click")'  # a customer code a spreadsheet would run
 ODD_DC = "DC-PAR <i>&$x$</i>"  # HTML markup and matplotlib mathtext in a DC code
@@ -56,8 +56,18 @@ def report_case_dir(tmp_path) -> Path:
         for r in rows[table]:
             if r["customer"] == "CU-BRU":
                 r["customer"] = HYPER
-    rows["suppliers"].append({"supplier": FAR[0], "product": "gadget", "lat": str(FAR[1]), "lon": str(FAR[2]),
-                              "region": "asia", "capacity": "150", "unit_cost": "12", "lead_time_sd_days": "4"})
+    rows["suppliers"].append(
+        {
+            "supplier": FAR[0],
+            "product": "gadget",
+            "lat": str(FAR[1]),
+            "lon": str(FAR[2]),
+            "region": "asia",
+            "capacity": "150",
+            "unit_cost": "12",
+            "lead_time_sd_days": "4",
+        }
+    )
     return make_case_dir(tmp_path, name="report_case", scenarios=SCENARIOS, **rows)
 
 
@@ -80,6 +90,7 @@ def page(out):
 
 
 # ----------------------------------------------------------------------------- parsing helpers
+
 
 class Tables(HTMLParser):
     """Every <table id=...> of a page as rows of cell texts, plus elements' text by id (stdlib parser)."""
@@ -164,6 +175,7 @@ def records(table: list[list[str]]) -> list[dict[str, str]]:
 
 # ----------------------------------------------------------------------------- self-contained
 
+
 def test_report_is_written_beside_the_run_outputs(out):
     assert (out / "report.html").is_file()
     assert (out / "results.xlsx").is_file() and (out / "comparison.csv").is_file()
@@ -203,6 +215,7 @@ def test_site_codes_are_escaped_in_html_and_svg(page):
 
 # ----------------------------------------------------------------------------- numbers
 
+
 def test_cost_table_matches_the_result(run, page):
     rows = {r["component"]: r for r in records(parse(page).tables["cost-table"])}
     cost = run.base.cost
@@ -223,8 +236,11 @@ def test_dc_table_matches_the_result(run, page):
         s = shown[r.dc]
         assert s["decision"] == r.decision
         assert num(s["throughput"]) == pytest.approx(r.throughput, abs=0.5)
-        assert num(s["capacity"]) == pytest.approx(r.capacity, abs=0.5) if math.isfinite(r.capacity) \
+        assert (
+            num(s["capacity"]) == pytest.approx(r.capacity, abs=0.5)
+            if math.isfinite(r.capacity)
             else s["capacity"] == "no limit"
+        )
         if r.open and np.isfinite(r.utilisation):
             assert num(s["utilisation"]) == pytest.approx(r.utilisation, abs=5e-4)
         else:
@@ -290,6 +306,7 @@ def test_map_shows_sites_modes_and_the_far_supplier(run, page):
 
 # ----------------------------------------------------------------------------- map geometry
 
+
 def test_projection_keeps_shape_near_the_centre():
     # Equirectangular with x = Δlon·cos(lat0): at the centre, one degree east over one degree north must
     # have the true ratio of ground distances. Reference: geodesics on the WGS84 ellipsoid (geographiclib,
@@ -331,6 +348,7 @@ def test_far_sites_are_pinned_to_the_map_edge_in_their_direction(run):
 
 # ----------------------------------------------------------------------------- other inputs
 
+
 def test_single_result_report(run, tmp_path):
     path = write_report(run.base, tmp_path / "report.html")
     page = path.read_text(encoding="utf-8")
@@ -341,10 +359,22 @@ def test_single_result_report(run, tmp_path):
 
 
 def test_extra_tables_get_titled_sections_and_a_frontier_chart(run, tmp_path):
-    frontier = pd.DataFrame({"carbon_price": [0.0, 50.0, 100.0], "total_cost": [1.0e6, 1.02e6, 1.05e6],
-                             "co2e_tonnes": [900.0, 700.0, 610.0]})
-    spof = pd.DataFrame({"element": ["PL-LYON", "ORE-N"], "recovery_cost": [12345.0, 678.0],
-                         "lost_units": [1500.0, 0.0], "lost_value": [90000.0, 0.0], "impact": [102345.0, 678.0]})
+    frontier = pd.DataFrame(
+        {
+            "carbon_price": [0.0, 50.0, 100.0],
+            "total_cost": [1.0e6, 1.02e6, 1.05e6],
+            "co2e_tonnes": [900.0, 700.0, 610.0],
+        }
+    )
+    spof = pd.DataFrame(
+        {
+            "element": ["PL-LYON", "ORE-N"],
+            "recovery_cost": [12345.0, 678.0],
+            "lost_units": [1500.0, 0.0],
+            "lost_value": [90000.0, 0.0],
+            "impact": [102345.0, 678.0],
+        }
+    )
     page = write_report(run, tmp_path / "r.html", extra={"frontier": frontier, "spof": spof}).read_text("utf-8")
     p = parse(page)
     assert "Cost–CO2e frontier" in page and "Single points of failure" in page
@@ -359,10 +389,22 @@ def test_extra_tables_get_titled_sections_and_a_frontier_chart(run, tmp_path):
 
 
 def test_report_of_a_run_without_a_plan():
-    diag = pd.DataFrame({"rule": ["demand_met"], "where": ["customer X, product Y"], "amount": [120.0],
-                         "meaning": ["units/yr of demand that cannot be delivered"]})
-    r = Result(case_name="no plan", status="infeasible", objective=float("nan"), bound=float("nan"),
-               gap=float("inf"), diagnosis=diag)
+    diag = pd.DataFrame(
+        {
+            "rule": ["demand_met"],
+            "where": ["customer X, product Y"],
+            "amount": [120.0],
+            "meaning": ["units/yr of demand that cannot be delivered"],
+        }
+    )
+    r = Result(
+        case_name="no plan",
+        status="infeasible",
+        objective=float("nan"),
+        bound=float("nan"),
+        gap=float("inf"),
+        diagnosis=diag,
+    )
     p = parse(render_report(r))
     assert p.by_id["solver-status"] == "infeasible"
     assert records(p.tables["diagnosis"])[0]["where"] == "customer X, product Y"
@@ -422,19 +464,34 @@ def test_report_is_fast(run, tmp_path):
 # ----------------------------------------------------------------------------- in a real browser
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
-needs_chromium = pytest.mark.skipif(CHROMIUM is None, reason="no browser: install Debian's chromium package "
-                                                             "(apt-get install chromium) to run this test")
+needs_chromium = pytest.mark.skipif(
+    CHROMIUM is None, reason="no browser: install Debian's chromium package (apt-get install chromium) to run this test"
+)
 
 
 def open_headless(html_file: Path, work: Path, height: int = 3000) -> dict:
     """Open a page in headless Chromium; return its screenshot (RGB array), the page's own network
     requests (from Chromium's net log) and its console messages."""
     shot, netlog = work / "shot.png", work / "netlog.json"
-    cmd = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-           "--disable-component-update", "--disable-sync", "--no-first-run", "--hide-scrollbars",
-           "--host-resolver-rules=MAP * ~NOTFOUND", "--enable-logging=stderr", "--v=0",
-           f"--log-net-log={netlog}", f"--user-data-dir={work / 'profile'}", f"--screenshot={shot}",
-           f"--window-size=1300,{height}", html_file.resolve().as_uri()]
+    cmd = [
+        CHROMIUM,
+        "--headless",
+        "--no-sandbox",
+        "--disable-gpu",
+        "--disable-background-networking",
+        "--disable-component-update",
+        "--disable-sync",
+        "--no-first-run",
+        "--hide-scrollbars",
+        "--host-resolver-rules=MAP * ~NOTFOUND",
+        "--enable-logging=stderr",
+        "--v=0",
+        f"--log-net-log={netlog}",
+        f"--user-data-dir={work / 'profile'}",
+        f"--screenshot={shot}",
+        f"--window-size=1300,{height}",
+        html_file.resolve().as_uri(),
+    ]
     proc = subprocess.run(cmd, capture_output=True, text=True, timeout=180)
     assert shot.is_file(), proc.stderr[-2000:]
     from matplotlib.image import imread
@@ -475,8 +532,11 @@ def test_report_renders_in_a_browser(out, tmp_path):
 def test_browser_check_catches_fetches_and_errors(tmp_path):
     # The same check on a page that fetches an image and logs an error must report both (so it can fail).
     bad = tmp_path / "bad.html"
-    bad.write_text('<!DOCTYPE html><html><body><p>x</p><img src="http://example.invalid/a.png">'
-                   '<script>console.error("broken")</script></body></html>', encoding="utf-8")
+    bad.write_text(
+        '<!DOCTYPE html><html><body><p>x</p><img src="http://example.invalid/a.png">'
+        '<script>console.error("broken")</script></body></html>',
+        encoding="utf-8",
+    )
     seen = open_headless(bad, tmp_path, height=600)
     assert "http://example.invalid/a.png" in seen["requests"]
     assert any("broken" in ln for ln in seen["console"])

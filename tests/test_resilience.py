@@ -17,11 +17,19 @@ import pytest
 from randcase import lane_loss_case, random_case
 
 from netopt.api import solve
-from netopt.case import CaseError
-from netopt.frames import make_case
-from netopt.resilience import (JOURNAL, element_changes, read_journal, run_sweep, stress, stress_command,
-                               summary_lines, sweep_elements)
-from netopt.scenarios import Scenario, run_scenarios
+from netopt.data.case import CaseError
+from netopt.data.frames import make_case
+from netopt.studies.resilience import (
+    JOURNAL,
+    element_changes,
+    read_journal,
+    run_sweep,
+    stress,
+    stress_command,
+    summary_lines,
+    sweep_elements,
+)
+from netopt.studies.scenarios import Scenario, run_scenarios
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -48,6 +56,7 @@ def _frame(t: pd.DataFrame) -> pd.DataFrame:
 
 # --------------------------------------------------------------------------- equals the scenario machinery
 
+
 def test_sweep_equals_one_at_a_time_scenario_runs(solved, inline_table):
     """Each row equals the scenario machinery's hold-the-network run of the same change (site_out /
     close_lane): total cost, lost units and lost value."""
@@ -55,8 +64,10 @@ def test_sweep_equals_one_at_a_time_scenario_runs(solved, inline_table):
     assert float(base.tables["unmet"]["lost_units"].sum()) == 0.0
     el = sweep_elements(case, base)
     assert set(el["type"]) == {"supplier", "plant", "dc", "lane"}
-    scenarios = [Scenario(e["id"].replace(":", "_").replace(">", "_"), element_changes(e), resolve="hold")
-                 for e in el.to_dict("records")]
+    scenarios = [
+        Scenario(e["id"].replace(":", "_").replace(">", "_"), element_changes(e), resolve="hold")
+        for e in el.to_dict("records")
+    ]
     run = run_scenarios(case, base=base, scenarios=scenarios)
     comp = run.comparison.set_index("scenario")
     t = inline_table.set_index("id")
@@ -108,20 +119,29 @@ def test_priced_rules_bend_a_service_window_instead_of_losing_demand():
     network may deliver nothing (0 ≥ 1.0 × 0), so all demand is lost; with priced rules the slow lane
     serves it, the window rule is reported as bent, and no demand is lost (common practice, no source:
     a disruption delays deliveries rather than cancelling them).  Holding rate 0: no pipeline cost."""
-    case = make_case({
-        "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 10.0, "holding_rate": 0.0}],
-        "suppliers": [],
-        "plants": [{"plant": "F", "product": "P", "lat": 48.0, "lon": 2.0}],
-        "dcs": [{"dc": "D", "lat": 45.0, "lon": 5.0, "fixed_cost": 1e9}],
-        "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
-        "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
-        "modes": [{"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False},
-                  {"mode": "barge", "cost_per_tonne_km": 0.1, "speed_km_per_day": 50, "generate_lanes": False}],
-        "lanes": [{"origin": "F", "destination": "C", "mode": "road", "cost_per_unit": 3.0, "transit_days": 0.5},
-                  {"origin": "F", "destination": "C", "mode": "barge", "cost_per_unit": 1.0, "transit_days": 4.0}],
-    }, {"lanes": {"legs": ["plant-customer", "plant-dc", "dc-customer"], "prune_dominated": False},
-        "inventory": {"safety_stock": False},
-        "policy": {"allow_unmet_demand": True, "service_max_days": 1.0, "service_target_share": 1.0}})
+    case = make_case(
+        {
+            "products": [{"product": "P", "unit_weight_kg": 1.0, "unit_value": 10.0, "holding_rate": 0.0}],
+            "suppliers": [],
+            "plants": [{"plant": "F", "product": "P", "lat": 48.0, "lon": 2.0}],
+            "dcs": [{"dc": "D", "lat": 45.0, "lon": 5.0, "fixed_cost": 1e9}],
+            "customers": [{"customer": "C", "lat": 48.5, "lon": 2.5}],
+            "demand": [{"customer": "C", "product": "P", "quantity": 1000.0}],
+            "modes": [
+                {"mode": "road", "cost_per_tonne_km": 0.1, "speed_km_per_day": 500, "generate_lanes": False},
+                {"mode": "barge", "cost_per_tonne_km": 0.1, "speed_km_per_day": 50, "generate_lanes": False},
+            ],
+            "lanes": [
+                {"origin": "F", "destination": "C", "mode": "road", "cost_per_unit": 3.0, "transit_days": 0.5},
+                {"origin": "F", "destination": "C", "mode": "barge", "cost_per_unit": 1.0, "transit_days": 4.0},
+            ],
+        },
+        {
+            "lanes": {"legs": ["plant-customer", "plant-dc", "dc-customer"], "prune_dominated": False},
+            "inventory": {"safety_stock": False},
+            "policy": {"allow_unmet_demand": True, "service_max_days": 1.0, "service_target_share": 1.0},
+        },
+    )
     base = solve(case, mip_gap=1e-9)
     assert base.tables["flows"]["mode"].tolist() == ["road"]  # the promise forces the dearer road lane
     hard = run_sweep(case, base, workers=0, progress=False, rules="hard", elements=["lane"])[0].iloc[0]
@@ -149,6 +169,7 @@ def test_unknown_filter_named():
 
 # --------------------------------------------------------------------------- executors give the same table
 
+
 def test_local_pool_gives_the_same_table(solved, inline_table):
     case, base = solved
     table, info = run_sweep(case, base, workers=2, progress=False)
@@ -161,8 +182,7 @@ def test_local_pool_gives_the_same_table(solved, inline_table):
 def test_dask_local_cluster_gives_the_same_table(solved, inline_table, processes):
     distributed = pytest.importorskip("distributed")
     case, base = solved
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=processes,
-                                  dashboard_address=None) as cl:
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=processes, dashboard_address=None) as cl:
         table, info = run_sweep(case, base, scheduler=cl.scheduler_address, progress=False)
         workers = set(cl.scheduler.workers)
     pd.testing.assert_frame_equal(_frame(table), _frame(inline_table), check_exact=False, rtol=1e-9, atol=1e-6)
@@ -179,7 +199,7 @@ _CHILD = textwrap.dedent("""
     sys.path.insert(0, {tests!r})
     from randcase import random_case
     from netopt.api import solve
-    from netopt.resilience import run_sweep
+    from netopt.studies.resilience import run_sweep
 
     def main():
         case = random_case(11, n_dcs=5, n_customers=10)
@@ -198,8 +218,14 @@ def test_killed_sweep_resumes_without_redoing_finished_elements(solved, inline_t
     script = tmp_path / "child.py"
     script.write_text(_CHILD.format(tests=str(ROOT / "tests"), journal=str(journal)))
     env = dict(os.environ, PYTHONPATH=str(ROOT) + os.pathsep + os.environ.get("PYTHONPATH", ""))
-    proc = subprocess.Popen([sys.executable, str(script)], cwd=tmp_path, env=env, start_new_session=True,
-                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    proc = subprocess.Popen(
+        [sys.executable, str(script)],
+        cwd=tmp_path,
+        env=env,
+        start_new_session=True,
+        stdout=subprocess.DEVNULL,
+        stderr=subprocess.PIPE,
+    )
     k = 3
     deadline = time.time() + 180
     try:
@@ -216,7 +242,7 @@ def test_killed_sweep_resumes_without_redoing_finished_elements(solved, inline_t
         proc.wait()
     with open(journal, "a") as fh:
         fh.write('{"id": "lane:torn')  # a row torn by the kill
-    from netopt.resilience import make_spec
+    from netopt.studies.resilience import make_spec
 
     done, ok = read_journal(journal, make_spec(case, base).key)
     assert ok and k <= len(done) < len(inline_table)
@@ -236,13 +262,18 @@ def test_killed_sweep_resumes_without_redoing_finished_elements(solved, inline_t
 def test_journal_of_another_case_is_replaced(solved, tmp_path):
     case, base = solved
     journal = tmp_path / JOURNAL
-    journal.write_text(json.dumps({"journal": "netopt stress sweep journal v1", "key": "other"}) + "\n"
-                       + json.dumps({"id": "dc:D0", "status": "optimal", "impact": 1e99}) + "\n")
+    journal.write_text(
+        json.dumps({"journal": "netopt stress sweep journal v1", "key": "other"})
+        + "\n"
+        + json.dumps({"id": "dc:D0", "status": "optimal", "impact": 1e99})
+        + "\n"
+    )
     table, info = run_sweep(case, base, workers=0, progress=False, journal=journal, elements=["dc"])
     assert info["stale_journal_replaced"] and info["reused"] == 0 and table["impact"].max() < 1e99
 
 
 # --------------------------------------------------------------------------- stress end to end
+
 
 def test_stress_writes_results_and_summary(solved, tmp_path):
     case, base = solved

@@ -6,8 +6,8 @@ import pytest
 from randcase import lane_loss_case, random_case
 
 from netopt.api import solve
-from netopt.case import CaseError
-from netopt.scenarios import HeldNetwork, Scenario, apply_changes, parse_scenarios, run_scenarios
+from netopt.data.case import CaseError
+from netopt.studies.scenarios import HeldNetwork, Scenario, apply_changes, parse_scenarios, run_scenarios
 
 REL = 1e-6
 
@@ -34,11 +34,13 @@ def base(base_case):
 
 # ----------------------------------------------------------------------------- each change kind
 
+
 def test_close_lane_carries_no_flow(base_case, base):
     f = base.tables["flows"]
     used = f[f["destination_kind"] == "customer"].iloc[0]
-    c = apply_changes(base_case, sc("x", {"kind": "close_lane", "origin": used.origin,
-                                          "destination": used.destination}))
+    c = apply_changes(
+        base_case, sc("x", {"kind": "close_lane", "origin": used.origin, "destination": used.destination})
+    )
     r = cost(c)
     g = r.tables["flows"]
     assert g[(g.origin == used.origin) & (g.destination == used.destination)].empty
@@ -77,8 +79,11 @@ def test_add_dc_appears_and_can_open(base_case):
 def test_site_out_supplier_and_plant(base_case):
     s = cost(apply_changes(base_case, sc("x", {"kind": "site_out", "site": "S0"})))
     assert s.tables["flows"].query("origin == 'S0'").empty
-    p = cost(apply_changes(base_case, sc("x", {"kind": "site_out", "site": "F"},
-                                         {"kind": "policy", "allow_unmet_demand": True})))
+    p = cost(
+        apply_changes(
+            base_case, sc("x", {"kind": "site_out", "site": "F"}, {"kind": "policy", "allow_unmet_demand": True})
+        )
+    )
     assert p.tables["production"]["quantity"].sum() == 0
     assert p.tables["unmet"]["lost_units"].sum() == pytest.approx(base_case.tables["demand"]["quantity"].sum())
 
@@ -88,8 +93,12 @@ def test_scale_demand_by_region(base_case):
     before = base_case.tables["demand"].merge(base_case.tables["customers"], on="customer")
     after = c.tables["demand"].merge(c.tables["customers"], on="customer")
     north = before["region"] == "north"
-    assert after.loc[north.to_numpy(), "quantity"].to_numpy() == pytest.approx(1.5 * before.loc[north, "quantity"].to_numpy())
-    assert after.loc[~north.to_numpy(), "quantity"].to_numpy() == pytest.approx(before.loc[~north, "quantity"].to_numpy())
+    assert after.loc[north.to_numpy(), "quantity"].to_numpy() == pytest.approx(
+        1.5 * before.loc[north, "quantity"].to_numpy()
+    )
+    assert after.loc[~north.to_numpy(), "quantity"].to_numpy() == pytest.approx(
+        before.loc[~north, "quantity"].to_numpy()
+    )
     r = cost(c)
     assert r.tables["kpis"].set_index("kpi").loc["delivered", "value"] == pytest.approx(after["quantity"].sum())
 
@@ -103,8 +112,14 @@ def test_scale_cost_mode_rate_with_flows_held(base_case, base):
 
 
 def test_scale_supplier_price_and_set_capacity(base_case, base):
-    c = apply_changes(base_case, sc("x", {"kind": "scale_cost", "target": "supplier_price", "supplier": "S1", "factor": 3},
-                                    {"kind": "set_capacity", "site": "S2", "capacity": 100.0}))
+    c = apply_changes(
+        base_case,
+        sc(
+            "x",
+            {"kind": "scale_cost", "target": "supplier_price", "supplier": "S1", "factor": 3},
+            {"kind": "set_capacity", "site": "S2", "capacity": 100.0},
+        ),
+    )
     assert c.tables["suppliers"].set_index("supplier").loc["S2", "capacity"] == 100.0
     r = cost(c)
     assert r.tables["flows"].query("origin == 'S2'")["quantity"].sum() <= 100.0 + 1e-6
@@ -114,18 +129,24 @@ def test_cap_lane_respected(base_case, base):
     f = base.tables["flows"]
     top = f[f["destination_kind"] == "customer"].sort_values("quantity").iloc[-1]
     cap = top.quantity / 2
-    r = cost(apply_changes(base_case, sc("x", {"kind": "cap_lane", "origin": top.origin,
-                                               "destination": top.destination, "capacity": cap})))
+    r = cost(
+        apply_changes(
+            base_case,
+            sc("x", {"kind": "cap_lane", "origin": top.origin, "destination": top.destination, "capacity": cap}),
+        )
+    )
     g = r.tables["flows"]
     assert g[(g.origin == top.origin) & (g.destination == top.destination)]["quantity"].sum() <= cap * (1 + 1e-7)
 
 
 def test_based_on_applies_parent_first(base_case):
-    scen = parse_scenarios([
-        {"name": "cap", "change": [{"kind": "policy", "max_supplier_share": 0.7}]},
-        {"name": "cap_more", "based_on": "cap", "change": [{"kind": "scale_demand", "factor": 1.1}]},
-    ])
-    from netopt.scenarios import scenario_case
+    scen = parse_scenarios(
+        [
+            {"name": "cap", "change": [{"kind": "policy", "max_supplier_share": 0.7}]},
+            {"name": "cap_more", "based_on": "cap", "change": [{"kind": "scale_demand", "factor": 1.1}]},
+        ]
+    )
+    from netopt.studies.scenarios import scenario_case
 
     c = scenario_case(base_case, scen, "cap_more")
     assert c.settings["policy"]["max_supplier_share"] == 0.7
@@ -134,11 +155,18 @@ def test_based_on_applies_parent_first(base_case):
 
 # ----------------------------------------------------------------------------- validation
 
+
 def test_unknown_site_and_lane_named_with_scenario_and_change(base_case):
     with pytest.raises(CaseError) as e:
-        apply_changes(base_case, sc("storm", {"kind": "close_lane", "origin": "NOPE", "destination": "C1"},
-                                    {"kind": "site_out", "site": "GHOST"},
-                                    {"kind": "close_lane", "origin": "S0", "destination": "C1"}))
+        apply_changes(
+            base_case,
+            sc(
+                "storm",
+                {"kind": "close_lane", "origin": "NOPE", "destination": "C1"},
+                {"kind": "site_out", "site": "GHOST"},
+                {"kind": "close_lane", "origin": "S0", "destination": "C1"},
+            ),
+        )
     text = e.value.report()
     assert "scenario 'storm', change 1 (close_lane): unknown origin site 'NOPE'" in text
     assert "scenario 'storm', change 2 (site_out): unknown site 'GHOST'" in text
@@ -148,8 +176,13 @@ def test_unknown_site_and_lane_named_with_scenario_and_change(base_case):
 
 def test_parse_rejects_bad_kind_resolve_and_loops():
     with pytest.raises(CaseError) as e:
-        parse_scenarios([{"name": "a", "resolve": "maybe", "change": [{"kind": "teleport"}]},
-                         {"name": "b", "based_on": "c"}, {"name": "c", "based_on": "b"}])
+        parse_scenarios(
+            [
+                {"name": "a", "resolve": "maybe", "change": [{"kind": "teleport"}]},
+                {"name": "b", "based_on": "c"},
+                {"name": "c", "based_on": "b"},
+            ]
+        )
     text = e.value.report()
     assert "unknown kind 'teleport'" in text and "resolve must be one of" in text and "loop" in text
 
@@ -162,6 +195,7 @@ def test_policy_change_validated_like_base_data(base_case):
 
 # ----------------------------------------------------------------------------- identities on random cases
 
+
 @pytest.mark.parametrize("seed", range(4))
 def test_monotonicity_identities(seed):
     """Identities that hold for any case (common practice of optimisation, no source: a relaxation
@@ -169,8 +203,9 @@ def test_monotonicity_identities(seed):
     case = random_case(seed)
     base = cost(case)
     b = base.objective
-    added = cost(apply_changes(case, sc("x", {"kind": "add_dc", "dc": "DX", "lat": 49.5, "lon": 6.0,
-                                              "fixed_cost": 20000.0})))
+    added = cost(
+        apply_changes(case, sc("x", {"kind": "add_dc", "dc": "DX", "lat": 49.5, "lon": 6.0, "fixed_cost": 20000.0}))
+    )
     assert added.objective <= b * (1 + REL)  # adding a candidate never raises the optimum
     loose = cost(apply_changes(case, sc("x", {"kind": "policy", "max_supplier_share": 0.8})))
     tight = cost(apply_changes(case, sc("x", {"kind": "policy", "max_supplier_share": 0.5})))
@@ -187,13 +222,19 @@ def test_monotonicity_identities(seed):
 
 # ----------------------------------------------------------------------------- closed form
 
+
 def test_recovery_cost_of_losing_a_lane_closed_form():
     """One plant, one customer, demand q = 1,000 units/yr; direct road lane at 2.00/unit, air at 7.00/unit,
     transit 0 days (no pipeline cost).  Losing the road lane moves everything to air:
     recovery cost = q × (7 − 2) = 5,000/yr, the same held or redesigned (no DCs to change)."""
     case = lane_loss_case()
-    case.scenarios = [{"name": "road_lost", "resolve": "both",
-                       "change": [{"kind": "close_lane", "origin": "F", "destination": "C", "mode": "road"}]}]
+    case.scenarios = [
+        {
+            "name": "road_lost",
+            "resolve": "both",
+            "change": [{"kind": "close_lane", "origin": "F", "destination": "C", "mode": "road"}],
+        }
+    ]
     run = run_scenarios(case)
     comp = run.comparison.set_index("scenario")
     assert comp.loc["base", "total_cost"] == pytest.approx(2000.0)
@@ -203,6 +244,7 @@ def test_recovery_cost_of_losing_a_lane_closed_form():
 
 
 # ----------------------------------------------------------------------------- warm = cold
+
 
 @pytest.mark.parametrize("seed", [0, 5])
 def test_warm_resolves_equal_cold_rebuilds(seed):
@@ -228,8 +270,10 @@ def test_held_network_with_safety_stock_is_an_lp_exact_at_the_base():
     """Held re-solves price safety stock on the line of each curve's segment at the base throughput:
     equal to the curve at the base (so the held base costs what the base costs) and above it elsewhere
     (the curve is concave), so the hold-the-network answer is never below the redesign."""
-    products = [{"product": "P", "unit_weight_kg": 8.0, "unit_value": 60.0, "demand_cv": 0.4},
-                {"product": "M", "kind": "material", "unit_weight_kg": 2.0, "unit_value": 2.0}]
+    products = [
+        {"product": "P", "unit_weight_kg": 8.0, "unit_value": 60.0, "demand_cv": 0.4},
+        {"product": "M", "kind": "material", "unit_weight_kg": 2.0, "unit_value": 2.0},
+    ]
     case = random_case(7, extra={"products": products}, settings={"inventory": {"safety_stock": True}})
     base = cost(case)
     assert base.cost["safety_stock"] > 0

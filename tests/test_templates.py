@@ -3,16 +3,16 @@
 from __future__ import annotations
 
 import csv
-import tomllib
 from pathlib import Path
 
 import openpyxl
 import pytest
+import tomllib
 
 from netopt import load_case
 from netopt.cli import main
-from netopt.schema import SETTINGS, TABLES, schema_frame, setting_defaults
-from netopt.templates import WORKBOOK_NAME, schema_markdown, write_data_templates
+from netopt.data.schema import SETTINGS, TABLES, schema_frame, setting_defaults
+from netopt.data.templates import WORKBOOK_NAME, schema_markdown, write_data_templates
 
 REPO = Path(__file__).resolve().parent.parent
 DATA_TEMPLATES = REPO / "data_templates"
@@ -26,11 +26,13 @@ def _sheets(path: Path) -> dict[str, list[list]]:
 
 def test_data_templates_in_sync_with_schema(tmp_path):
     fresh = write_data_templates(tmp_path / "dt")
-    assert sorted(p.name for p in fresh.iterdir()) == sorted(p.name for p in DATA_TEMPLATES.iterdir()), \
+    assert sorted(p.name for p in fresh.iterdir()) == sorted(p.name for p in DATA_TEMPLATES.iterdir()), (
         "run `python -m netopt.templates` to regenerate data_templates/"
+    )
     for name in TEXT_FILES:
-        assert (fresh / name).read_text(encoding="utf-8") == (DATA_TEMPLATES / name).read_text(encoding="utf-8"), \
+        assert (fresh / name).read_text(encoding="utf-8") == (DATA_TEMPLATES / name).read_text(encoding="utf-8"), (
             f"data_templates/{name} is stale: run `python -m netopt.templates`"
+        )
     mine, committed = _sheets(fresh / WORKBOOK_NAME), _sheets(DATA_TEMPLATES / WORKBOOK_NAME)
     assert list(mine) == list(committed)
     for name in mine:
@@ -94,8 +96,9 @@ def test_cli_template_writes_a_blank_case_that_checks(tmp_path, capsys):
     with pytest.raises(SystemExit) as info:
         main(["template", str(target)])
     assert info.value.code == 0
-    assert sorted(p.name for p in target.iterdir()) == sorted([t.file_name for t in TABLES.values()]
-                                                              + ["settings.toml"])
+    assert sorted(p.name for p in target.iterdir()) == sorted(
+        [t.file_name for t in TABLES.values()] + ["settings.toml"]
+    )
     text = (target / "settings.toml").read_text(encoding="utf-8")
     assert tomllib.loads(text) == setting_defaults()
     for s in SETTINGS:  # every setting is explained beside its value

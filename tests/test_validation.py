@@ -20,11 +20,11 @@ from casekit import TINY, make_case_dir, tiny_rows
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from netopt.case import CaseError
 from netopt.cli import main
-from netopt.io import load_case
-from netopt.schema import TABLES
-from netopt.validate import coerce_settings, unreachable_demand, validate
+from netopt.data.case import CaseError
+from netopt.data.io import load_case
+from netopt.data.schema import TABLES
+from netopt.data.validate import coerce_settings, unreachable_demand, validate
 
 REPO = Path(__file__).resolve().parent.parent
 
@@ -38,8 +38,11 @@ def errors_of(folder) -> list:
 
 def find(problems, table, row, column, text=None):
     """The one problem at (table, row, column) whose message contains ``text``."""
-    hits = [p for p in problems if (p.table, p.row, p.column) == (table, row, column)
-            and (text is None or text in p.message)]
+    hits = [
+        p
+        for p in problems
+        if (p.table, p.row, p.column) == (table, row, column) and (text is None or text in p.message)
+    ]
     assert hits, f"no problem at {table}/{row}/{column} ~ {text!r}; got:\n" + "\n".join(map(str, problems))
     return hits[0]
 
@@ -60,6 +63,7 @@ def with_row(table: str, i: int, **changes) -> list[dict]:
 
 # --------------------------------------------------------------------------- the tiny case itself
 
+
 def test_tiny_case_is_valid(tiny_case_dir):
     case = load_case(tiny_case_dir)
     assert [p for p in case.warnings if p.severity == "error"] == []
@@ -67,6 +71,7 @@ def test_tiny_case_is_valid(tiny_case_dir):
 
 
 # --------------------------------------------------------------------------- missing tables and columns
+
 
 def test_missing_required_table(tmp_path):
     probs = errors_of(make_case_dir(tmp_path, demand=None))
@@ -100,6 +105,7 @@ def test_unknown_column_is_a_warning_with_hint(tmp_path):
 
 
 # --------------------------------------------------------------------------- cell types and ranges
+
 
 def test_text_where_number_expected(tmp_path):
     folder = make_case_dir(tmp_path, demand=with_row("demand", 1, quantity="abc"))
@@ -139,7 +145,13 @@ def test_coordinates_out_of_range(tmp_path, column, value):
 
 def test_share_above_one(tmp_path):
     rows = [{"service_class": "standard", "max_days": "3", "target_share": "1.2"}]
-    find(errors_of(make_case_dir(tmp_path, service_classes=rows)), "service_classes", 2, "target_share", "between 0 and 1")
+    find(
+        errors_of(make_case_dir(tmp_path, service_classes=rows)),
+        "service_classes",
+        2,
+        "target_share",
+        "between 0 and 1",
+    )
 
 
 def test_zero_speed_rejected(tmp_path):
@@ -182,6 +194,7 @@ def test_mode_min_km_above_max_km(tmp_path):
 
 # --------------------------------------------------------------------------- keys
 
+
 def test_duplicate_key_names_both_rows(tmp_path):
     rows = tiny_rows()["demand"] + [dict(TINY["demand"][2], quantity="7")]
     p = find(errors_of(make_case_dir(tmp_path, demand=rows)), "demand", 5, "customer", "duplicate key")
@@ -196,14 +209,18 @@ def test_duplicate_single_key(tmp_path):
 
 # --------------------------------------------------------------------------- references
 
-@pytest.mark.parametrize("table,i,column,value", [
-    ("demand", 0, "customer", "CU-NOWHERE"),
-    ("demand", 2, "product", "sprocket"),
-    ("suppliers", 1, "product", "copper"),
-    ("plants", 0, "product", "sprocket"),
-    ("bill_of_materials", 0, "material", "copper"),
-    ("bill_of_materials", 0, "product", "sprocket"),
-])
+
+@pytest.mark.parametrize(
+    "table,i,column,value",
+    [
+        ("demand", 0, "customer", "CU-NOWHERE"),
+        ("demand", 2, "product", "sprocket"),
+        ("suppliers", 1, "product", "copper"),
+        ("plants", 0, "product", "sprocket"),
+        ("bill_of_materials", 0, "material", "copper"),
+        ("bill_of_materials", 0, "product", "sprocket"),
+    ],
+)
 def test_reference_does_not_resolve(tmp_path, table, i, column, value):
     folder = make_case_dir(tmp_path, **{table: with_row(table, i, **{column: value})})
     p = find(errors_of(folder), table, i + 2, column, f"'{value}'")
@@ -211,28 +228,42 @@ def test_reference_does_not_resolve(tmp_path, table, i, column, value):
 
 
 def test_dc_size_for_unknown_dc(tmp_path):
-    rows = [{"dc": "DC-PAR", "size": "S", "capacity": "1000", "fixed_cost": "1"},
-            {"dc": "DC-ROM", "size": "L", "capacity": "9000", "fixed_cost": "5"}]
+    rows = [
+        {"dc": "DC-PAR", "size": "S", "capacity": "1000", "fixed_cost": "1"},
+        {"dc": "DC-ROM", "size": "L", "capacity": "9000", "fixed_cost": "5"},
+    ]
     find(errors_of(make_case_dir(tmp_path, dc_sizes=rows)), "dc_sizes", 3, "dc", "unknown dc 'DC-ROM'")
 
 
 def _lane(**kw):
-    row = {"origin": "DC-PAR", "destination": "CU-BRU", "mode": "road", "product": "", "distance_km": "",
-           "cost_per_unit": "", "transit_days": "", "capacity": "", "available": ""}
+    row = {
+        "origin": "DC-PAR",
+        "destination": "CU-BRU",
+        "mode": "road",
+        "product": "",
+        "distance_km": "",
+        "cost_per_unit": "",
+        "transit_days": "",
+        "capacity": "",
+        "available": "",
+    }
     row.update(kw)
     return row
 
 
-@pytest.mark.parametrize("lane,column,text", [
-    (_lane(mode="barge"), "mode", "unknown mode 'barge'"),
-    (_lane(product="sprocket"), "product", "unknown product 'sprocket'"),
-    (_lane(origin="XX-1"), "origin", "unknown origin site 'XX-1'"),
-    (_lane(destination="XX-2"), "destination", "unknown destination site 'XX-2'"),
-    (_lane(origin="CU-MUC"), "origin", "is a customer"),
-    (_lane(destination="ORE-N"), "destination", "is a supplier"),
-    (_lane(origin="PL-LYON", destination="PL-LYON"), "destination", "to itself"),
-    (_lane(origin="ORE-N", destination="CU-BRU"), "destination", "not a leg"),
-])
+@pytest.mark.parametrize(
+    "lane,column,text",
+    [
+        (_lane(mode="barge"), "mode", "unknown mode 'barge'"),
+        (_lane(product="sprocket"), "product", "unknown product 'sprocket'"),
+        (_lane(origin="XX-1"), "origin", "unknown origin site 'XX-1'"),
+        (_lane(destination="XX-2"), "destination", "unknown destination site 'XX-2'"),
+        (_lane(origin="CU-MUC"), "origin", "is a customer"),
+        (_lane(destination="ORE-N"), "destination", "is a supplier"),
+        (_lane(origin="PL-LYON", destination="PL-LYON"), "destination", "to itself"),
+        (_lane(origin="ORE-N", destination="CU-BRU"), "destination", "not a leg"),
+    ],
+)
 def test_bad_explicit_lane(tmp_path, lane, column, text):
     rows = [_lane(), lane]
     find(errors_of(make_case_dir(tmp_path, lanes=rows)), "lanes", 3, column, text)
@@ -244,8 +275,9 @@ def test_good_explicit_lane_is_accepted(tmp_path):
 
 
 def test_site_code_reused_across_tables(tmp_path):
-    folder = make_case_dir(tmp_path, customers=with_row("customers", 1, customer="ORE-S"),
-                           demand=with_row("demand", 2, customer="ORE-S"))
+    folder = make_case_dir(
+        tmp_path, customers=with_row("customers", 1, customer="ORE-S"), demand=with_row("demand", 2, customer="ORE-S")
+    )
     p = find(errors_of(folder), "customers", 3, "customer", "already used in suppliers (row 3)")
     assert "ORE-S" in p.message
 
@@ -281,20 +313,24 @@ def test_road_edge_of_unknown_mode(tmp_path):
 
 # --------------------------------------------------------------------------- settings
 
+
 def test_setting_wrong_type_names_file_and_entry(tmp_path):
     probs = errors_of(make_case_dir(tmp_path, settings={"solver": {"time_limit_s": "soon"}}))
     find(probs, "settings.toml", None, "[solver] time_limit_s", "number expected, got 'soon'")
 
 
-@pytest.mark.parametrize("section,name,value,text", [
-    ("solver", "mip_gap", 2.0, "between 0 and 1"),
-    ("solver", "threads", 0, "at least 1"),
-    ("solver", "threads", 1.5, "whole number"),
-    ("policy", "single_sourcing", "perhaps", "true or false"),
-    ("inventory", "cycle_service_level", 1.0, "between 0.5 and 0.99999"),
-    ("lanes", "legs", ["dc-customer", "dc-moon"], "'dc-moon'"),
-    ("policy", "max_open_dcs", True, "whole number expected"),
-])
+@pytest.mark.parametrize(
+    "section,name,value,text",
+    [
+        ("solver", "mip_gap", 2.0, "between 0 and 1"),
+        ("solver", "threads", 0, "at least 1"),
+        ("solver", "threads", 1.5, "whole number"),
+        ("policy", "single_sourcing", "perhaps", "true or false"),
+        ("inventory", "cycle_service_level", 1.0, "between 0.5 and 0.99999"),
+        ("lanes", "legs", ["dc-customer", "dc-moon"], "'dc-moon'"),
+        ("policy", "max_open_dcs", True, "whole number expected"),
+    ],
+)
 def test_setting_out_of_range_or_type(tmp_path, section, name, value, text):
     probs = errors_of(make_case_dir(tmp_path, settings={section: {name: value}}))
     find(probs, "settings.toml", None, f"[{section}] {name}", text)
@@ -309,8 +345,13 @@ def test_unknown_setting_section_and_name_are_warnings(tmp_path):
 
 
 def test_settings_defaults_and_lenient_types():
-    s, probs = coerce_settings({"solver": {"threads": 2.0, "time_limit_s": 5}, "policy": {"single_sourcing": "yes"},
-                                "lanes": {"legs": "dc-customer|plant-dc"}})
+    s, probs = coerce_settings(
+        {
+            "solver": {"threads": 2.0, "time_limit_s": 5},
+            "policy": {"single_sourcing": "yes"},
+            "lanes": {"legs": "dc-customer|plant-dc"},
+        }
+    )
     assert probs == []
     assert s["solver"]["threads"] == 2 and isinstance(s["solver"]["threads"], int)
     assert s["solver"]["time_limit_s"] == 5.0 and s["policy"]["single_sourcing"] is True
@@ -338,13 +379,15 @@ def test_more_dcs_forced_open_than_allowed(tmp_path):
 
 # --------------------------------------------------------------------------- all at once
 
+
 def test_every_problem_reported_at_once(tmp_path):
     r = tiny_rows()
     r["demand"][0]["quantity"] = "abc"
     r["customers"][1]["lat"] = "123"
     r["dcs"][1]["status"] = "maybe"
-    folder = make_case_dir(tmp_path, demand=r["demand"], customers=r["customers"], dcs=r["dcs"],
-                           settings={"solver": {"mip_gap": -1}})
+    folder = make_case_dir(
+        tmp_path, demand=r["demand"], customers=r["customers"], dcs=r["dcs"], settings={"solver": {"mip_gap": -1}}
+    )
     probs = errors_of(folder)
     find(probs, "demand", 2, "quantity")
     find(probs, "customers", 3, "lat")
@@ -362,10 +405,23 @@ def test_validate_accepts_typed_tables_of_a_case(tiny_case_dir):
 
 # --------------------------------------------------------------------------- reachability
 
+
 def _lanes(rows):
     """A hand-made lane table by the lane-table contract (one row per origin, destination, mode, product)."""
-    cols = ["origin", "origin_kind", "destination", "destination_kind", "leg", "mode", "product",
-            "distance_km", "transit_days", "cost_per_unit", "capacity", "source"]
+    cols = [
+        "origin",
+        "origin_kind",
+        "destination",
+        "destination_kind",
+        "leg",
+        "mode",
+        "product",
+        "distance_km",
+        "transit_days",
+        "cost_per_unit",
+        "capacity",
+        "source",
+    ]
     out = []
     for o, ok, d, dk, *rest in rows:
         product = rest[0] if rest else ""
@@ -380,9 +436,14 @@ def tiny_tables(tiny_case_dir):
     return load_case(tiny_case_dir).tables
 
 
-FULL = [("ORE-N", "supplier", "PL-LYON", "plant"), ("PL-LYON", "plant", "DC-PAR", "dc"),
-        ("DC-PAR", "dc", "CU-BRU", "customer"), ("DC-PAR", "dc", "CU-MUC", "customer"),
-        ("GAD-CO", "supplier", "DC-FRA", "dc"), ("DC-FRA", "dc", "CU-BRU", "customer")]
+FULL = [
+    ("ORE-N", "supplier", "PL-LYON", "plant"),
+    ("PL-LYON", "plant", "DC-PAR", "dc"),
+    ("DC-PAR", "dc", "CU-BRU", "customer"),
+    ("DC-PAR", "dc", "CU-MUC", "customer"),
+    ("GAD-CO", "supplier", "DC-FRA", "dc"),
+    ("DC-FRA", "dc", "CU-BRU", "customer"),
+]
 
 
 def test_reachable_network_has_no_problem(tiny_tables):
@@ -397,8 +458,10 @@ def test_customer_without_inbound_lane(tiny_tables):
 
 
 def test_path_through_two_dcs(tiny_tables):
-    lanes = _lanes([r for r in FULL if r[2] != "CU-MUC"] + [("DC-PAR", "dc", "DC-FRA", "dc"),
-                                                            ("DC-FRA", "dc", "CU-MUC", "customer")])
+    lanes = _lanes(
+        [r for r in FULL if r[2] != "CU-MUC"]
+        + [("DC-PAR", "dc", "DC-FRA", "dc"), ("DC-FRA", "dc", "CU-MUC", "customer")]
+    )
     assert unreachable_demand(tiny_tables, lanes) == []
 
 
@@ -420,8 +483,13 @@ def test_product_row_with_zero_capacity_overrides_the_all_products_row(tiny_tabl
     probs = unreachable_demand(tiny_tables, lanes)
     assert [(p.row, p.column) for p in probs] == [(3, "customer")]
     # ... but a second mode's "" row on the same pair still carries it
-    lanes = _lanes(FULL + [("DC-FRA", "dc", "CU-BRU", "customer", "gadget", 0.0),
-                           ("DC-FRA", "dc", "CU-BRU", "customer", "", math.inf, "rail")])
+    lanes = _lanes(
+        FULL
+        + [
+            ("DC-FRA", "dc", "CU-BRU", "customer", "gadget", 0.0),
+            ("DC-FRA", "dc", "CU-BRU", "customer", "", math.inf, "rail"),
+        ]
+    )
     assert unreachable_demand(tiny_tables, lanes) == []
 
 
@@ -448,12 +516,17 @@ def test_reachability_agrees_with_networkx(data):
     dcs_ = [f"D{i}" for i in range(n_d)]
     custs = [f"C{i}" for i in range(n_c)]
     prods = ["p", "q"]
-    kinds = {**{s: "supplier" for s in sups}, **{d: "dc" for d in dcs_}, **{c: "customer" for c in custs}}
+    kinds = {**dict.fromkeys(sups, "supplier"), **dict.fromkeys(dcs_, "dc"), **dict.fromkeys(custs, "customer")}
     pairs = [(o, d) for o in sups + dcs_ for d in dcs_ + custs if o != d]
-    chosen = data.draw(st.lists(st.tuples(st.sampled_from(pairs), st.sampled_from(["", "p", "q"]),
-                                          st.sampled_from([0.0, 5.0, math.inf])), max_size=25))
-    offers = data.draw(st.lists(st.tuples(st.sampled_from(sups), st.sampled_from(prods)), min_size=1,
-                                max_size=4, unique=True))
+    chosen = data.draw(
+        st.lists(
+            st.tuples(st.sampled_from(pairs), st.sampled_from(["", "p", "q"]), st.sampled_from([0.0, 5.0, math.inf])),
+            max_size=25,
+        )
+    )
+    offers = data.draw(
+        st.lists(st.tuples(st.sampled_from(sups), st.sampled_from(prods)), min_size=1, max_size=4, unique=True)
+    )
     lanes = _lanes([(o, kinds[o], d, kinds[d], p, cap) for (o, d), p, cap in chosen])
     lanes = lanes.drop_duplicates(["origin", "destination", "mode", "product"])
     tables = {name: pd.DataFrame(columns=t.column_names) for name, t in TABLES.items()}
@@ -493,8 +566,11 @@ def test_unreachable_customer_through_real_lane_builder(tmp_path):
         return Geodesic.WGS84.Inverse(a[0], a[1], b[0], b[1])["s12"] / 1000.0
 
     rows = tiny_rows()
-    pos = {r[k]: (float(r["lat"]), float(r["lon"])) for t, k in (("dcs", "dc"), ("plants", "plant"),
-                                                                ("customers", "customer")) for r in rows[t]}
+    pos = {
+        r[k]: (float(r["lat"]), float(r["lon"]))
+        for t, k in (("dcs", "dc"), ("plants", "plant"), ("customers", "customer"))
+        for r in rows[t]
+    }
     circuity = 1.2  # the road mode of the tiny case
     srcs = ["DC-PAR", "DC-FRA", "PL-LYON"]
     near_bru = min(km(pos[s], pos["CU-BRU"]) for s in srcs) * circuity
@@ -510,9 +586,32 @@ def test_unreachable_customer_through_real_lane_builder(tmp_path):
 # --------------------------------------------------------------------------- mangled cases never crash
 
 NUMERIC = [(t.name, c.name) for t in TABLES.values() for c in t.columns if c.type in ("float", "int")]
-JUNK = st.one_of(st.sampled_from(["", " ", "nan", "NaN", "-1", "-0.5", "abc", "1e400", "inf", "-inf", "1,5",
-                                  "true", "0", "None", "\x00", "\u00e9t\u00e9", '"', "\n", "x,y"]),
-                 st.text(max_size=6))
+JUNK = st.one_of(
+    st.sampled_from(
+        [
+            "",
+            " ",
+            "nan",
+            "NaN",
+            "-1",
+            "-0.5",
+            "abc",
+            "1e400",
+            "inf",
+            "-inf",
+            "1,5",
+            "true",
+            "0",
+            "None",
+            "\x00",
+            "\u00e9t\u00e9",
+            '"',
+            "\n",
+            "x,y",
+        ]
+    ),
+    st.text(max_size=6),
+)
 
 
 def _mangle(rows, data):
@@ -561,8 +660,7 @@ def test_mangled_case_gives_case_error_or_case(data):
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(data=st.data())
 def test_bad_number_is_always_named_precisely(data):
-    table, column = data.draw(st.sampled_from([tc for tc in NUMERIC if tc[0] in TINY
-                                               and tc[1] in TINY[tc[0]][0]]))
+    table, column = data.draw(st.sampled_from([tc for tc in NUMERIC if tc[0] in TINY and tc[1] in TINY[tc[0]][0]]))
     rows = tiny_rows()
     i = data.draw(st.integers(0, len(rows[table]) - 1))
     bad = data.draw(st.sampled_from(["abc", "12 kg", "1..2", "--1", "-inf", "1 000"]))
@@ -585,8 +683,9 @@ def test_dropped_required_column_or_blank_required_cell_is_named(data):
     with tempfile.TemporaryDirectory() as d:
         if blank_cell:
             i = data.draw(st.integers(0, len(rows[table]) - 1))
-            rows[table][i][column] = data.draw(st.sampled_from(["", "  ", "NaN"] if TABLES[table].column(column).type
-                                                               != "str" else ["", "  "]))
+            rows[table][i][column] = data.draw(
+                st.sampled_from(["", "  ", "NaN"] if TABLES[table].column(column).type != "str" else ["", "  "])
+            )
             where = (table, i + 2, column)
         else:
             for r in rows[table]:
@@ -613,13 +712,19 @@ def test_duplicated_row_is_a_duplicate_key(data):
 
 # --------------------------------------------------------------------------- command line
 
+
 def test_cli_broken_case_prints_every_error_and_exits_2(tmp_path):
     r = tiny_rows()
     r["demand"][0]["quantity"] = "abc"
     r["dcs"][0]["status"] = "closing"
     folder = make_case_dir(tmp_path, demand=r["demand"], dcs=r["dcs"], products=None)
-    proc = subprocess.run([sys.executable, "-m", "netopt.cli", "check", str(folder)], capture_output=True,
-                          text=True, cwd=REPO, timeout=120)
+    proc = subprocess.run(
+        [sys.executable, "-m", "netopt.cli", "check", str(folder)],
+        capture_output=True,
+        text=True,
+        cwd=REPO,
+        timeout=120,
+    )
     assert proc.returncode == 2
     assert "Traceback" not in proc.stderr + proc.stdout
     assert "demand, row 2, column 'quantity'" in proc.stderr

@@ -12,15 +12,14 @@ import pandas as pd
 import pytest
 from openpyxl import load_workbook
 
-from netopt.output import write_result, write_run, write_workbook
+from netopt.present.files import write_result, write_run, write_workbook
 
 MAIN = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"
 
 # Text a spreadsheet program would run as a formula: a leading =, +, -, @ (and tab / CR before one).
 # Sources: OWASP ASVS 4.0.3 requirement 5.3.10 / ASVS 5 requirement 1.2.10 ("=", "+", "-", "@", tab, null as a
 # field's first character must be escaped in CSV, XLS, XLSX and ODF exports); MITRE CWE-1236.
-HOSTILE = ['=HYPERLINK("http://example.invalid/x","click")', "+1+1", "-2+3", "@SUM(1,1)", "=1+1",
-           "\t=1+1", "\r=1+1"]
+HOSTILE = ['=HYPERLINK("http://example.invalid/x","click")', "+1+1", "-2+3", "@SUM(1,1)", "=1+1", "\t=1+1", "\r=1+1"]
 
 
 def raw_sheets(path: Path) -> dict[str, ElementTree.Element]:
@@ -92,9 +91,16 @@ def test_control_characters_are_dropped_not_fatal(tmp_path):
 
 
 def test_formats_header_freeze_and_widths(tmp_path):
-    df = pd.DataFrame({"customer": ["C1", "C2"], "total_cost": [1234567.25, 89.0],
-                       "share_within_window": [0.9876, 1.0], "avg_transit_days": [1.4137, 2.0],
-                       "capacity": [np.inf, np.nan], "open": [True, False]})
+    df = pd.DataFrame(
+        {
+            "customer": ["C1", "C2"],
+            "total_cost": [1234567.25, 89.0],
+            "share_within_window": [0.9876, 1.0],
+            "avg_transit_days": [1.4137, 2.0],
+            "capacity": [np.inf, np.nan],
+            "open": [True, False],
+        }
+    )
     path = tmp_path / "f.xlsx"
     write_workbook({"t": df}, path, currency="EUR")
     ws = load_workbook(path)["t"]
@@ -112,16 +118,27 @@ def test_formats_header_freeze_and_widths(tmp_path):
 
 
 def test_values_not_formulas_and_per_unit_formats_for_indicators(tmp_path):
-    kpis = pd.DataFrame({"kpi": ["total_landed_cost", "share_within_service_window", "avg_transit_days_to_customer",
-                                 "cost_per_unit_delivered"],
-                         "value": [70032930.0, 0.9895, 1.41, 37.86],
-                         "unit": ["currency/yr", "share of delivered units", "days (demand-weighted)",
-                                  "currency/unit"]})
+    kpis = pd.DataFrame(
+        {
+            "kpi": [
+                "total_landed_cost",
+                "share_within_service_window",
+                "avg_transit_days_to_customer",
+                "cost_per_unit_delivered",
+            ],
+            "value": [70032930.0, 0.9895, 1.41, 37.86],
+            "unit": ["currency/yr", "share of delivered units", "days (demand-weighted)", "currency/unit"],
+        }
+    )
     path = tmp_path / "k.xlsx"
     write_workbook({"kpis": kpis}, path, currency="EUR")
     ws = load_workbook(path)["kpis"]
-    assert [ws.cell(row=i, column=2).number_format for i in range(2, 6)] == \
-        ['#,##0" EUR"', "0.0%", '0.00" d"', "#,##0.00"]
+    assert [ws.cell(row=i, column=2).number_format for i in range(2, 6)] == [
+        '#,##0" EUR"',
+        "0.0%",
+        '0.00" d"',
+        "#,##0.00",
+    ]
     assert formula_elements(path) == 0
 
 
@@ -129,22 +146,29 @@ def test_sheet_names_are_made_valid_and_unique(tmp_path):
     # Excel sheet names: at most 31 characters, none of : \ / ? * [ ] (common practice, no source).
     path = tmp_path / "n.xlsx"
     long = "a_very_long_table_name_that_goes_on_and_on"
-    write_workbook({long: pd.DataFrame({"x": [1]}), long + "_2": pd.DataFrame({"x": [2]}),
-                    "what/if?[1]": pd.DataFrame({"x": [3]})}, path)
+    write_workbook(
+        {
+            long: pd.DataFrame({"x": [1]}),
+            long + "_2": pd.DataFrame({"x": [2]}),
+            "what/if?[1]": pd.DataFrame({"x": [3]}),
+        },
+        path,
+    )
     names = load_workbook(path).sheetnames
     assert len(names) == len(set(n.lower() for n in names)) == 3
-    assert all(len(n) <= 31 and not set(n) & set(':\\/?*[]') for n in names)
+    assert all(len(n) <= 31 and not set(n) & set(":\\/?*[]") for n in names)
 
 
 # ----------------------------------------------------------------------------- from a solve and a run
+
 
 @pytest.fixture(scope="module")
 def seeded_run(tmp_path_factory):
     """The tiny case with a customer code that a spreadsheet would run, solved with one scenario."""
     from casekit import make_case_dir, tiny_rows
 
-    from netopt.io import load_case
-    from netopt.scenarios import run_scenarios
+    from netopt.data.io import load_case
+    from netopt.studies.scenarios import run_scenarios
 
     rows = tiny_rows()
     for table in ("customers", "demand"):
@@ -161,7 +185,7 @@ def test_run_workbook_has_the_expected_sheets_and_keeps_the_site_name_as_text(se
     path = out / "results.xlsx"
     wb = load_workbook(path)
     expected = ["about", "comparison"] + [f"base_{k}" for k in seeded_run.base.tables]
-    assert wb.sheetnames[:len(expected)] == expected
+    assert wb.sheetnames[: len(expected)] == expected
     ws = wb["base_service"]
     head = [c.value for c in ws[1]]
     col = head.index("customer") + 1
@@ -173,8 +197,9 @@ def test_run_workbook_has_the_expected_sheets_and_keeps_the_site_name_as_text(se
     comp = wb["comparison"]
     head = [c.value for c in comp[1]]
     tc = head.index("total_cost") + 1
-    assert [comp.cell(row=i, column=tc).value for i in range(2, comp.max_row + 1)] == \
-        pytest.approx(list(seeded_run.comparison["total_cost"]))
+    assert [comp.cell(row=i, column=tc).value for i in range(2, comp.max_row + 1)] == pytest.approx(
+        list(seeded_run.comparison["total_cost"])
+    )
     assert comp.cell(row=2, column=tc).number_format == '#,##0" EUR"'
 
 

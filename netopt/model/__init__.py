@@ -9,14 +9,30 @@ import numpy as np
 
 from netopt.model import capacity, flows, inventory, openings, safety_stock, service, sourcing, transport
 from netopt.model.core import Builder
-from netopt.network import Network
+from netopt.network.arcs import Network
 
-COST_COMPONENTS = ("supply", "production", "dc_fixed", "dc_closing", "dc_handling", "transport",
-                   "pipeline_inventory", "safety_stock", "carbon", "unmet_penalty")
+COST_COMPONENTS = (
+    "supply",
+    "production",
+    "dc_fixed",
+    "dc_closing",
+    "dc_handling",
+    "transport",
+    "pipeline_inventory",
+    "safety_stock",
+    "carbon",
+    "unmet_penalty",
+)
 
 
-def build_model(net: Network, formulation: str = "tight", elastic: bool = False,
-                fixed_open: np.ndarray | None = None, big_m_factor: float = 1.0, extra=None) -> Builder:
+def build_model(
+    net: Network,
+    formulation: str = "tight",
+    elastic: bool = False,
+    fixed_open: np.ndarray | None = None,
+    big_m_factor: float = 1.0,
+    extra=None,
+) -> Builder:
     """Build the Pyomo model of ``net``.
 
     Args:

@@ -34,8 +34,13 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
             remap[keep] = np.arange(len(keep))
             rr = remap[r]
             m = rr >= 0
-            b.add_rows("supplier_capacity", offers.iloc[keep].set_axis(["supplier", "product"], axis=1),
-                       [Term("flow", si[m], np.ones(m.sum()), rr[m])], "<=", cap[keep])
+            b.add_rows(
+                "supplier_capacity",
+                offers.iloc[keep].set_axis(["supplier", "product"], axis=1),
+                [Term("flow", si[m], np.ones(m.sum()), rr[m])],
+                "<=",
+                cap[keep],
+            )
 
     # DC throughput: Σ inbound units ≤ Σ_options capacity × open (big M = all demand if unlimited).
     di = flow_idx[arcs["destination_kind"].eq("dc").to_numpy()]
@@ -44,11 +49,18 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
         big_m = net.total_demand * (2.0 if arcs["leg"].eq("dc-dc").any() else 1.0) * big_m_factor
         b.dc_big_m = big_m
         rows = np.arange(len(dcs))
-        b.add_rows("dc_throughput", dcs.set_axis(["dc"], axis=1),
-                   [Term("flow", di, np.ones(len(di)), r),
-                    option_terms(b, dcs["destination"].to_numpy(), rows, -np.ones(len(rows)), use_capacity=True,
-                                 big_m=big_m)],
-                   "<=", 0.0)
+        b.add_rows(
+            "dc_throughput",
+            dcs.set_axis(["dc"], axis=1),
+            [
+                Term("flow", di, np.ones(len(di)), r),
+                option_terms(
+                    b, dcs["destination"].to_numpy(), rows, -np.ones(len(rows)), use_capacity=True, big_m=big_m
+                ),
+            ],
+            "<=",
+            0.0,
+        )
         b.add_cost("dc_handling", Term("flow", di, arcs["handling_per_unit"].to_numpy(float)[di]))
 
     # Strong linking: Σ_modes flow(d→c, p) ≤ demand(c, p) × open[d].
@@ -59,9 +71,14 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
             dem = lookup(net.demand, groups, ["customer", "product"], ["destination", "product"])
             q = net.demand["quantity"].to_numpy(float)[dem]
             rows = np.arange(len(groups))
-            b.add_rows("dc_customer_link", groups.set_axis(["dc", "customer", "product"], axis=1),
-                       [Term("flow", lk, np.ones(len(lk)), r),
-                        option_terms(b, groups["origin"].to_numpy(), rows, -q)], "<=", 0.0, elastic=False)
+            b.add_rows(
+                "dc_customer_link",
+                groups.set_axis(["dc", "customer", "product"], axis=1),
+                [Term("flow", lk, np.ones(len(lk)), r), option_terms(b, groups["origin"].to_numpy(), rows, -q)],
+                "<=",
+                0.0,
+                elastic=False,
+            )
 
     # Lane-and-mode capacity shared by all products.
     lc = arcs["lane_capacity"].to_numpy(float)

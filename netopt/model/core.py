@@ -15,7 +15,7 @@ import pandas as pd
 import pyomo.environ as pyo
 from pyomo.core.expr.numeric_expr import LinearExpression, MonomialTermExpression
 
-from netopt.network import Network
+from netopt.network.arcs import Network
 
 SENSES = {"<=": 1, "==": 0, ">=": -1}
 
@@ -69,8 +69,9 @@ class Builder:
         return name in self.vars and len(self.vars[name]) > 0
 
     # ------------------------------------------------------------------ rows
-    def add_rows(self, name: str, labels: pd.DataFrame, terms: list[Term], sense, rhs,
-                 elastic: bool | None = None) -> None:
+    def add_rows(
+        self, name: str, labels: pd.DataFrame, terms: list[Term], sense, rhs, elastic: bool | None = None
+    ) -> None:
         """Add one constraint per row of ``labels``: Σ terms (sense) rhs.
 
         ``sense`` is "<=", "==" or ">=" (or an array of them); ``rhs`` a scalar or array.
@@ -97,8 +98,10 @@ class Builder:
             for v, c in zip(hi, code.tolist()):
                 if c == -1:
                     v.setub(0.0)
-            terms = terms + [Term(f"slack_lo__{name}", rows, np.ones(n), rows),
-                             Term(f"slack_hi__{name}", rows, -np.ones(n), rows)]
+            terms = terms + [
+                Term(f"slack_lo__{name}", rows, np.ones(n), rows),
+                Term(f"slack_hi__{name}", rows, -np.ones(n), rows),
+            ]
             pen = np.full(n, self.elastic_penalty)
             self.add_cost("elastic_slack", Term(f"slack_lo__{name}", rows, pen))
             self.add_cost("elastic_slack", Term(f"slack_hi__{name}", rows, pen))
@@ -177,7 +180,9 @@ def group_index(frame: pd.DataFrame, keys: list[str]) -> tuple[pd.DataFrame, np.
     return labels, codes.astype(int)
 
 
-def lookup(labels: pd.DataFrame, frame: pd.DataFrame, keys: list[str], frame_keys: list[str] | None = None) -> np.ndarray:
+def lookup(
+    labels: pd.DataFrame, frame: pd.DataFrame, keys: list[str], frame_keys: list[str] | None = None
+) -> np.ndarray:
     """Position of each ``frame`` row's key in ``labels`` (−1 where absent)."""
     frame_keys = frame_keys or keys
     pos = pd.Series(np.arange(len(labels)), index=pd.MultiIndex.from_frame(labels[keys]))

@@ -34,29 +34,43 @@ def add(b: Builder) -> None:
         terms.append(Term("unmet", np.arange(len(dem)), np.ones(len(dem)), np.arange(len(dem))))
         pen = np.full(len(dem), b.elastic_penalty) if b.elastic else dem["penalty"].to_numpy(float)
         b.add_cost("unmet_penalty", Term("unmet", np.arange(len(dem)), pen))
-    b.add_rows("demand_met", dem[["customer", "product"]], terms, "==", dem["quantity"].to_numpy(float),
-               elastic=False)
+    b.add_rows("demand_met", dem[["customer", "product"]], terms, "==", dem["quantity"].to_numpy(float), elastic=False)
 
     # DC balance per (dc, product): inflow − outflow = 0.
     into = arcs["destination_kind"].eq("dc").to_numpy()
     out = arcs["origin_kind"].eq("dc").to_numpy()
-    pairs = pd.concat([arcs.loc[into, ["destination", "product"]].set_axis(["dc", "product"], axis=1),
-                       arcs.loc[out, ["origin", "product"]].set_axis(["dc", "product"], axis=1)])
+    pairs = pd.concat(
+        [
+            arcs.loc[into, ["destination", "product"]].set_axis(["dc", "product"], axis=1),
+            arcs.loc[out, ["origin", "product"]].set_axis(["dc", "product"], axis=1),
+        ]
+    )
     labels, _ = group_index(pairs.drop_duplicates(), ["dc", "product"])
     ii = np.flatnonzero(into)
     oo = np.flatnonzero(out)
     r_in = lookup(labels, arcs.iloc[ii], ["dc", "product"], ["destination", "product"])
     r_out = lookup(labels, arcs.iloc[oo], ["dc", "product"], ["origin", "product"])
-    b.add_rows("dc_balance", labels, [Term("flow", ii, np.ones(len(ii)), r_in),
-                                      Term("flow", oo, -np.ones(len(oo)), r_out)], "==", 0.0, elastic=False)
+    b.add_rows(
+        "dc_balance",
+        labels,
+        [Term("flow", ii, np.ones(len(ii)), r_in), Term("flow", oo, -np.ones(len(oo)), r_out)],
+        "==",
+        0.0,
+        elastic=False,
+    )
 
     # Plant output: Σ shipments of a product = units made.
     po = np.flatnonzero(arcs["origin_kind"].eq("plant").to_numpy())
     r = lookup(make, arcs.iloc[po], ["plant", "product"], ["origin", "product"])
     k = np.arange(len(make))
-    b.add_rows("plant_output", make[["plant", "product"]],
-               [Term("flow", po[r >= 0], np.ones((r >= 0).sum()), r[r >= 0]), Term("make", k, -np.ones(len(k)), k)],
-               "==", 0.0, elastic=False)
+    b.add_rows(
+        "plant_output",
+        make[["plant", "product"]],
+        [Term("flow", po[r >= 0], np.ones((r >= 0).sum()), r[r >= 0]), Term("make", k, -np.ones(len(k)), k)],
+        "==",
+        0.0,
+        elastic=False,
+    )
 
     # Plant materials: Σ material received = Σ_products bill-of-materials use × units made.
     if len(net.bom):
@@ -65,9 +79,16 @@ def add(b: Builder) -> None:
         pi = np.flatnonzero(arcs["destination_kind"].eq("plant").to_numpy())
         r_in = lookup(labels, arcs.iloc[pi], ["plant", "material"], ["destination", "product"])
         okk = r_in >= 0
-        b.add_rows("plant_materials", labels,
-                   [Term("flow", pi[okk], np.ones(okk.sum()), r_in[okk]),
-                    Term("make", use["mk"].to_numpy(int), -use["quantity_per_unit"].to_numpy(float), r_use)],
-                   "==", 0.0, elastic=False)
+        b.add_rows(
+            "plant_materials",
+            labels,
+            [
+                Term("flow", pi[okk], np.ones(okk.sum()), r_in[okk]),
+                Term("make", use["mk"].to_numpy(int), -use["quantity_per_unit"].to_numpy(float), r_use),
+            ],
+            "==",
+            0.0,
+            elastic=False,
+        )
 
     b.add_cost("production", Term("make", k, make["unit_cost"].to_numpy(float)))

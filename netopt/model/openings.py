@@ -48,7 +48,9 @@ def add(b: Builder, fixed_open: np.ndarray | None = None) -> None:
             sub = np.flatnonzero(fo)
             rmap = -np.ones(len(labels), int)
             rmap[sub] = np.arange(len(sub))
-            b.add_rows("forced_open_dc", labels.iloc[sub], [Term("open", idx[fsel], np.ones(fsel.sum()), rmap[rr])], ">=", 1.0)
+            b.add_rows(
+                "forced_open_dc", labels.iloc[sub], [Term("open", idx[fsel], np.ones(fsel.sum()), rmap[rr])], ">=", 1.0
+            )
 
     pol = b.net.settings["policy"]
     total = pd.DataFrame({"rule": ["open DC count"]})
@@ -66,15 +68,20 @@ def add(b: Builder, fixed_open: np.ndarray | None = None) -> None:
     b.add_cost("dc_closing", Term("open", idx[existing], -close[existing]), constant=float(per_dc_close.sum()))
 
 
-def option_terms(b: Builder, dcs: np.ndarray, rows: np.ndarray, coef: np.ndarray, use_capacity: bool = False,
-                 big_m: float | None = None) -> Term:
+def option_terms(
+    b: Builder,
+    dcs: np.ndarray,
+    rows: np.ndarray,
+    coef: np.ndarray,
+    use_capacity: bool = False,
+    big_m: float | None = None,
+) -> Term:
     """Term adding ``coef[r] × Σ_options(open[o] × (capacity[o] if use_capacity else 1))`` to row ``rows[r]``.
 
     With ``use_capacity`` an unlimited option capacity is replaced by ``big_m``.
     """
     o = b.net.options
-    opt = pd.DataFrame({"dc": o["dc"].to_numpy(), "opt": np.arange(len(o)),
-                        "cap": o["capacity"].to_numpy(float)})
+    opt = pd.DataFrame({"dc": o["dc"].to_numpy(), "opt": np.arange(len(o)), "cap": o["capacity"].to_numpy(float)})
     req = pd.DataFrame({"dc": np.asarray(dcs), "row": np.asarray(rows), "coef": np.asarray(coef, float)})
     j = req.merge(opt, on="dc")
     c = j["coef"].to_numpy(float)

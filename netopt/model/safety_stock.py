@@ -88,7 +88,7 @@ def ss_units(t, alpha, lead_days, lead_sd_days, z):
     ``alpha`` [units/yr] is the variance per unit of annual demand; lead times in days.
     """
     t = np.asarray(t, dtype=float)
-    var = lead_days * alpha * t / DAYS_PER_YEAR + (t / DAYS_PER_YEAR) ** 2 * lead_sd_days ** 2
+    var = lead_days * alpha * t / DAYS_PER_YEAR + (t / DAYS_PER_YEAR) ** 2 * lead_sd_days**2
     return z * np.sqrt(np.maximum(var, 0.0))
 
 
@@ -97,8 +97,10 @@ def ss_units_exact(annual_variance, t, lead_days, lead_sd_days, z):
 
     σ_d² = annual_variance / 365 (independent days), d̄ = t / 365 [units/day].
     """
-    var = (lead_days * np.asarray(annual_variance, float) / DAYS_PER_YEAR
-           + (np.asarray(t, float) / DAYS_PER_YEAR) ** 2 * lead_sd_days ** 2)
+    var = (
+        lead_days * np.asarray(annual_variance, float) / DAYS_PER_YEAR
+        + (np.asarray(t, float) / DAYS_PER_YEAR) ** 2 * lead_sd_days**2
+    )
     return z * np.sqrt(np.maximum(var, 0.0))
 
 
@@ -110,8 +112,9 @@ def breakpoints(t_min: float, t_max: float, count: int) -> np.ndarray:
     return np.concatenate([[0.0], np.geomspace(float(t_min), float(t_max), count - 1)])
 
 
-def max_rel_error(bp: np.ndarray, t_lo: float, alpha: float, lead_days: float, lead_sd_days: float, z: float,
-                  samples: int = 400) -> float:
+def max_rel_error(
+    bp: np.ndarray, t_lo: float, alpha: float, lead_days: float, lead_sd_days: float, z: float, samples: int = 400
+) -> float:
     """Largest (curve − chord)/curve [ratio] of the interpolation through ``bp`` over [t_lo, bp[-1]].
 
     Sampled geometrically, ``samples`` points per segment (the error is smooth inside a segment).
@@ -135,8 +138,23 @@ def curves(net) -> pd.DataFrame:
     breakpoints (array, units/yr), ss_at_breakpoints (array, units), max_rel_error (ratio).
     Curves whose safety stock is 0 everywhere (no demand variance, no lead-time spread) are left out.
     """
-    cols = ["dc", "product", "z", "lead_days", "lead_sd_days", "lead_origin", "lead_mode", "alpha",
-            "demand_reach", "t_min", "t_max", "unit_holding", "breakpoints", "ss_at_breakpoints", "max_rel_error"]
+    cols = [
+        "dc",
+        "product",
+        "z",
+        "lead_days",
+        "lead_sd_days",
+        "lead_origin",
+        "lead_mode",
+        "alpha",
+        "demand_reach",
+        "t_min",
+        "t_max",
+        "unit_holding",
+        "breakpoints",
+        "ss_at_breakpoints",
+        "max_rel_error",
+    ]
     arcs = net.arcs
     inv = net.settings["inventory"]
     out_arcs = arcs[arcs["origin_kind"].eq("dc") & arcs["destination_kind"].eq("customer")]
@@ -153,8 +171,9 @@ def curves(net) -> pd.DataFrame:
     g = g.reset_index().rename(columns={"origin": "dc"})
 
     # Fastest inbound lane per (DC, product); ties go to the cheaper arc.
-    inb = arcs[arcs["destination_kind"].eq("dc")][["origin", "origin_kind", "destination", "mode", "product",
-                                                   "transit_days", "unit_cost"]]
+    inb = arcs[arcs["destination_kind"].eq("dc")][
+        ["origin", "origin_kind", "destination", "mode", "product", "transit_days", "unit_cost"]
+    ]
     inb = inb.sort_values(["destination", "product", "transit_days", "unit_cost", "origin", "mode"])
     fastest = inb.drop_duplicates(["destination", "product"]).rename(columns={"destination": "dc"})
     g = g.merge(fastest, on=["dc", "product"], how="inner")
@@ -163,8 +182,9 @@ def curves(net) -> pd.DataFrame:
     is_sup = g["origin_kind"].eq("supplier").to_numpy()
     g["lead_sd_days"] = 0.0
     if is_sup.any():
-        g.loc[is_sup, "lead_sd_days"] = sd.reindex(
-            pd.MultiIndex.from_frame(g.loc[is_sup, ["origin", "product"]])).fillna(0.0).to_numpy(float)
+        g.loc[is_sup, "lead_sd_days"] = (
+            sd.reindex(pd.MultiIndex.from_frame(g.loc[is_sup, ["origin", "product"]])).fillna(0.0).to_numpy(float)
+        )
 
     cap = net.options.groupby("dc")["capacity"].max()
     pinfo = net.products.set_index("product")
@@ -181,8 +201,25 @@ def curves(net) -> pd.DataFrame:
         ssb = ss_units(bp, alpha, lead, lsd, z)
         holding = float(pinfo.loc[r.product, "unit_value"]) * float(pinfo.loc[r.product, "holding_rate"])
         t_lo = min(float(r.t_min), t_max)
-        rows.append((r.dc, r.product, z, lead, lsd, r.origin, r.mode, alpha, float(r.q), t_lo, t_max, holding, bp, ssb,
-                     max_rel_error(bp, t_lo, alpha, lead, lsd, z)))
+        rows.append(
+            (
+                r.dc,
+                r.product,
+                z,
+                lead,
+                lsd,
+                r.origin,
+                r.mode,
+                alpha,
+                float(r.q),
+                t_lo,
+                t_max,
+                holding,
+                bp,
+                ssb,
+                max_rel_error(bp, t_lo, alpha, lead, lsd, z),
+            )
+        )
     return pd.DataFrame(rows, columns=cols)
 
 
@@ -207,8 +244,10 @@ def segment_table(cv: pd.DataFrame) -> tuple[pd.DataFrame, pd.DataFrame]:
             seg_rows.append((c.dc, c.product, k, i, float(bp[k]), float(width[k]), float(slope[k]) * c.unit_holding))
             if k < len(width) - 1:
                 fill_rows.append((c.dc, c.product, k, i))
-    return (pd.DataFrame(seg_rows, columns=["dc", "product", "segment", "curve", "start", "width", "cost_per_unit"]),
-            pd.DataFrame(fill_rows, columns=["dc", "product", "segment", "curve"]))
+    return (
+        pd.DataFrame(seg_rows, columns=["dc", "product", "segment", "curve", "start", "width", "cost_per_unit"]),
+        pd.DataFrame(fill_rows, columns=["dc", "product", "segment", "curve"]),
+    )
 
 
 def add(b: Builder) -> None:
@@ -232,17 +271,29 @@ def add(b: Builder) -> None:
     pos = pd.Series(np.arange(len(cv)), index=pd.MultiIndex.from_frame(labels))
     r_out = pos.reindex(pd.MultiIndex.from_frame(arcs.iloc[out][["origin", "product"]])).fillna(-1).to_numpy(int)
     ok = r_out >= 0
-    b.add_rows("ss_throughput", labels, [Term("ss_seg", si, np.ones(len(si)), curve_of),
-                                         Term("flow", out[ok], -np.ones(int(ok.sum())), r_out[ok])], "==", 0.0,
-               elastic=False)
+    b.add_rows(
+        "ss_throughput",
+        labels,
+        [Term("ss_seg", si, np.ones(len(si)), curve_of), Term("flow", out[ok], -np.ones(int(ok.sum())), r_out[ok])],
+        "==",
+        0.0,
+        elastic=False,
+    )
 
     # First segment only at an open DC.
     first = np.flatnonzero(seg["segment"].to_numpy(int) == 0)
     rows = np.arange(len(first))
-    b.add_rows("ss_open_link", labels.iloc[seg["curve"].to_numpy(int)[first]].reset_index(drop=True),
-               [Term("ss_seg", first, np.ones(len(first)), rows),
-                option_terms(b, seg["dc"].to_numpy()[first], rows, -seg["width"].to_numpy(float)[first])],
-               "<=", 0.0, elastic=False)
+    b.add_rows(
+        "ss_open_link",
+        labels.iloc[seg["curve"].to_numpy(int)[first]].reset_index(drop=True),
+        [
+            Term("ss_seg", first, np.ones(len(first)), rows),
+            option_terms(b, seg["dc"].to_numpy()[first], rows, -seg["width"].to_numpy(float)[first]),
+        ],
+        "<=",
+        0.0,
+        elastic=False,
+    )
 
     # Segments fill in order (incremental formulation).
     if len(fill):
@@ -254,16 +305,28 @@ def add(b: Builder) -> None:
         w_this = seg["width"].to_numpy(float)[this]
         w_next = seg["width"].to_numpy(float)[nxt]
         lab = fill[["dc", "product", "segment"]]
-        b.add_rows("ss_fill_full", lab, [Term("ss_seg", this, np.ones(len(fi)), fi),
-                                         Term("ss_fill", fi, -w_this, fi)], ">=", 0.0, elastic=False)
-        b.add_rows("ss_fill_next", lab, [Term("ss_seg", nxt, np.ones(len(fi)), fi),
-                                         Term("ss_fill", fi, -w_next, fi)], "<=", 0.0, elastic=False)
+        b.add_rows(
+            "ss_fill_full",
+            lab,
+            [Term("ss_seg", this, np.ones(len(fi)), fi), Term("ss_fill", fi, -w_this, fi)],
+            ">=",
+            0.0,
+            elastic=False,
+        )
+        b.add_rows(
+            "ss_fill_next",
+            lab,
+            [Term("ss_seg", nxt, np.ones(len(fi)), fi), Term("ss_fill", fi, -w_next, fi)],
+            "<=",
+            0.0,
+            elastic=False,
+        )
 
     b.add_cost("safety_stock", Term("ss_seg", si, seg["cost_per_unit"].to_numpy(float)))
 
 
-
 # ------------------------------------------------------------------ held networks: one line per curve
+
 
 def held_lines(net, base_flows: pd.DataFrame) -> pd.DataFrame:
     """Safety stock of a held network as one line per curve, taken at the base throughput.
@@ -329,6 +392,7 @@ def held_lines_cost(lines: pd.DataFrame, tables: dict[str, pd.DataFrame]) -> flo
 
 
 # ------------------------------------------------------------------ solving aids (HiGHS level)
+
 
 def _cut_data(hm) -> list[tuple]:
     """Per curve: HiGHS columns of its segments and DC → customer flows, the customer of each

@@ -30,8 +30,13 @@ def add(b: Builder) -> None:
         tau = targets["target_share"].to_numpy(float)
         coef = np.where(within, 1.0, 0.0) - tau[np.maximum(r, 0)]
         keep = ok & (coef != 0)
-        b.add_rows("service_window", targets[["customer", "service_class", "max_days", "target_share"]],
-                   [Term("flow", last[keep], coef[keep], r[keep])], ">=", 0.0)
+        b.add_rows(
+            "service_window",
+            targets[["customer", "service_class", "max_days", "target_share"]],
+            [Term("flow", last[keep], coef[keep], r[keep])],
+            ">=",
+            0.0,
+        )
 
     if bool(net.settings["policy"]["single_sourcing"]) and len(last):
         sub = arcs.iloc[last]
@@ -43,19 +48,36 @@ def add(b: Builder) -> None:
         allow = bool(net.settings["policy"]["allow_unmet_demand"]) or b.elastic
         # With lost demand allowed the one origin may deliver part of the demand (the rest is
         # lost at the penalty); "==" would force all-or-nothing per customer and product.
-        b.add_rows("single_source_flow", groups, [Term("flow", last, np.ones(len(last)), g),
-                                                  Term("assign", rows, -q, rows)], "<=" if allow else "==", 0.0)
+        b.add_rows(
+            "single_source_flow",
+            groups,
+            [Term("flow", last, np.ones(len(last)), g), Term("assign", rows, -q, rows)],
+            "<=" if allow else "==",
+            0.0,
+        )
         dem_rows = np.unique(d)
         remap = -np.ones(len(net.demand), int)
         remap[dem_rows] = np.arange(len(dem_rows))
-        b.add_rows("single_source_choice", net.demand.iloc[dem_rows][["customer", "product"]],
-                   [Term("assign", rows, np.ones(len(rows)), remap[d])], "<=" if allow else "==", 1.0)
+        b.add_rows(
+            "single_source_choice",
+            net.demand.iloc[dem_rows][["customer", "product"]],
+            [Term("assign", rows, np.ones(len(rows)), remap[d])],
+            "<=" if allow else "==",
+            1.0,
+        )
         from_dc = groups["origin"].isin(net.options["dc"]).to_numpy()
         if from_dc.any():
             rr = np.flatnonzero(from_dc)
             remap2 = -np.ones(len(groups), int)
             remap2[rr] = np.arange(len(rr))
-            b.add_rows("single_source_open", groups.iloc[rr],
-                       [Term("assign", rr, np.ones(len(rr)), np.arange(len(rr))),
-                        option_terms(b, groups["origin"].to_numpy()[rr], np.arange(len(rr)), -np.ones(len(rr)))],
-                       "<=", 0.0, elastic=False)
+            b.add_rows(
+                "single_source_open",
+                groups.iloc[rr],
+                [
+                    Term("assign", rr, np.ones(len(rr)), np.arange(len(rr))),
+                    option_terms(b, groups["origin"].to_numpy()[rr], np.arange(len(rr)), -np.ones(len(rr))),
+                ],
+                "<=",
+                0.0,
+                elastic=False,
+            )

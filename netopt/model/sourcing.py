@@ -28,9 +28,16 @@ def _share_rows(b: Builder, name: str, si: np.ndarray, by: list[str], share: flo
     grp_tab = pd.DataFrame({"site": g_site, "row": np.arange(len(groups))})
     cross = grp_tab.merge(arc_tab, on="site")
     labels = groups.rename(columns={"destination": "site"})
-    b.add_rows(name, labels, [Term("flow", si, np.ones(len(si)), g),
-                              Term("flow", cross["arc"].to_numpy(int), -share * np.ones(len(cross)),
-                                   cross["row"].to_numpy(int))], "<=", 0.0)
+    b.add_rows(
+        name,
+        labels,
+        [
+            Term("flow", si, np.ones(len(si)), g),
+            Term("flow", cross["arc"].to_numpy(int), -share * np.ones(len(cross)), cross["row"].to_numpy(int)),
+        ],
+        "<=",
+        0.0,
+    )
 
 
 def add(b: Builder) -> None:
@@ -58,26 +65,46 @@ def add(b: Builder) -> None:
         g_site = pd.Series(s_of_arc).groupby(g).first().to_numpy(int)
         n_sup = np.bincount(g_site, minlength=len(sites))
         b.add_vars("supplier_active", groups.rename(columns={"destination": "site", "origin": "supplier"}), binary=True)
-        cap = net.suppliers.set_index(["supplier", "product"])["capacity"].reindex(
-            pd.MultiIndex.from_frame(groups[["origin", "product"]])).to_numpy(float)
+        cap = (
+            net.suppliers.set_index(["supplier", "product"])["capacity"]
+            .reindex(pd.MultiIndex.from_frame(groups[["origin", "product"]]))
+            .to_numpy(float)
+        )
         need = _site_need_bound(b, sites)
         big = np.minimum(np.where(np.isfinite(cap), cap, np.inf), need[g_site])
         rows = np.arange(len(groups))
         # flow ≤ M × active
-        b.add_rows("active_supplier_link", groups, [Term("flow", si, np.ones(len(si)), g),
-                                                    Term("supplier_active", rows, -big, rows)], "<=", 0.0)
+        b.add_rows(
+            "active_supplier_link",
+            groups,
+            [Term("flow", si, np.ones(len(si)), g), Term("supplier_active", rows, -big, rows)],
+            "<=",
+            0.0,
+        )
         # flow ≥ min_share × site inflow − M × (1 − active)
         ms = float(pol["min_share_when_active"])
         arc_tab = pd.DataFrame({"site": s_of_arc, "arc": si})
         cross = pd.DataFrame({"site": g_site, "row": rows}).merge(arc_tab, on="site")
         bigm = need[g_site]
-        b.add_rows("active_supplier_min_share", groups,
-                   [Term("flow", si, np.ones(len(si)), g),
-                    Term("flow", cross["arc"].to_numpy(int), -ms * np.ones(len(cross)), cross["row"].to_numpy(int)),
-                    Term("supplier_active", rows, -bigm, rows)], ">=", -bigm)
+        b.add_rows(
+            "active_supplier_min_share",
+            groups,
+            [
+                Term("flow", si, np.ones(len(si)), g),
+                Term("flow", cross["arc"].to_numpy(int), -ms * np.ones(len(cross)), cross["row"].to_numpy(int)),
+                Term("supplier_active", rows, -bigm, rows),
+            ],
+            ">=",
+            -bigm,
+        )
         # Σ active ≥ min(k, suppliers available)
-        b.add_rows("min_active_suppliers", sites.rename(columns={"destination": "site"}),
-                   [Term("supplier_active", rows, np.ones(len(rows)), g_site)], ">=", np.minimum(k, n_sup).astype(float))
+        b.add_rows(
+            "min_active_suppliers",
+            sites.rename(columns={"destination": "site"}),
+            [Term("supplier_active", rows, np.ones(len(rows)), g_site)],
+            ">=",
+            np.minimum(k, n_sup).astype(float),
+        )
 
 
 def _site_need_bound(b: Builder, sites: pd.DataFrame) -> np.ndarray:
@@ -91,7 +118,11 @@ def _site_need_bound(b: Builder, sites: pd.DataFrame) -> np.ndarray:
         via = 0.0
         if len(bom):
             use = bom[bom["material"] == p]
-            via = float((use["quantity_per_unit"].to_numpy(float)
-                         * use["product"].map(total_by_product).fillna(0.0).to_numpy(float)).sum())
+            via = float(
+                (
+                    use["quantity_per_unit"].to_numpy(float)
+                    * use["product"].map(total_by_product).fillna(0.0).to_numpy(float)
+                ).sum()
+            )
         need.append(max(direct + via, 1.0))
     return np.array(need)

@@ -39,8 +39,14 @@ def add(b: Builder) -> None:
             sel = remap[g] >= 0
             big = _lane_bound(b, lm.iloc[keep])
             rows = np.arange(len(keep))
-            b.add_rows("mode_on_link", lm.iloc[keep], [Term("flow", idx[sel], np.ones(sel.sum()), remap[g][sel]),
-                                                       Term("mode_on", rows, -big, rows)], "<=", 0.0, elastic=False)
+            b.add_rows(
+                "mode_on_link",
+                lm.iloc[keep],
+                [Term("flow", idx[sel], np.ones(sel.sum()), remap[g][sel]), Term("mode_on", rows, -big, rows)],
+                "<=",
+                0.0,
+                elastic=False,
+            )
             lsel, lrow = group_index(lm.iloc[keep], ["origin", "destination"])
             b.add_rows("one_mode_per_lane", lsel, [Term("mode_on", rows, np.ones(len(rows)), lrow)], "<=", 1.0)
 
@@ -48,8 +54,13 @@ def add(b: Builder) -> None:
     if cap >= 0:
         co2 = arcs["co2_kg_per_unit"].to_numpy(float) / 1000.0
         nz = np.flatnonzero(co2)
-        b.add_rows("co2_cap", pd.DataFrame({"rule": ["transport CO2e cap"]}),
-                   [Term("flow", nz, co2[nz], np.zeros(len(nz), int))], "<=", cap)
+        b.add_rows(
+            "co2_cap",
+            pd.DataFrame({"rule": ["transport CO2e cap"]}),
+            [Term("flow", nz, co2[nz], np.zeros(len(nz), int))],
+            "<=",
+            cap,
+        )
 
 
 def _lane_bound(b: Builder, lm: pd.DataFrame) -> np.ndarray:
@@ -65,8 +76,11 @@ def _lane_bound(b: Builder, lm: pd.DataFrame) -> np.ndarray:
         # may carry several materials, so the largest quantity per unit is not enough).
         by_product = net.demand.groupby("product")["quantity"].sum()
         bom = net.bom
-        need = float((bom["quantity_per_unit"].to_numpy(float)
-                      * bom["product"].map(by_product).fillna(0.0).to_numpy(float)).sum())
+        need = float(
+            (
+                bom["quantity_per_unit"].to_numpy(float) * bom["product"].map(by_product).fillna(0.0).to_numpy(float)
+            ).sum()
+        )
         total = max(total, need)
     dest_bound = lm["destination"].map(by_cust).fillna(total).to_numpy(float)
     return np.minimum(np.where(np.isfinite(c), c, np.inf), np.maximum(dest_bound, 1.0))

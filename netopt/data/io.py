@@ -20,6 +20,7 @@ import os
 import re
 import shutil
 import tempfile
+
 try:
     import tomllib
 except ModuleNotFoundError:  # Python 3.10: the same parser, as the tomli package
@@ -28,10 +29,16 @@ from pathlib import Path
 
 import pandas as pd
 
-from netopt.case import Case, CaseError, Problem
-from netopt.schema import INF, SETTINGS, TABLES
-from netopt.validate import (as_text, close_match_hint, format_number, range_text, sort_problems,
-                             validate_and_coerce)
+from netopt.data.case import Case, CaseError, Problem
+from netopt.data.schema import INF, SETTINGS, TABLES
+from netopt.data.validate import (
+    as_text,
+    close_match_hint,
+    format_number,
+    range_text,
+    sort_problems,
+    validate_and_coerce,
+)
 
 SETTINGS_FILE = "settings.toml"
 SCENARIOS_FILE = "scenarios.toml"
@@ -41,6 +48,7 @@ LIST_SEPARATOR = "|"
 
 
 # --------------------------------------------------------------------------- reading
+
 
 def _frame_from_records(label: str, records: list[tuple[int, list[str]]]) -> tuple[pd.DataFrame | None, list[Problem]]:
     """Table from (row number, cells) records; the first record is the header.
@@ -63,9 +71,15 @@ def _frame_from_records(label: str, records: list[tuple[int, list[str]]]) -> tup
         if len(cells) > width:
             extra = cells[width:]
             if any(extra):
-                problems.append(Problem(label, n, None,
-                                        f"row has {width + max(i for i, c in enumerate(extra) if c) + 1} values but "
-                                        f"the header names {width} columns"))
+                problems.append(
+                    Problem(
+                        label,
+                        n,
+                        None,
+                        f"row has {width + max(i for i, c in enumerate(extra) if c) + 1} values but "
+                        f"the header names {width} columns",
+                    )
+                )
             cells = cells[:width]
         elif len(cells) < width:
             cells = cells + [""] * (width - len(cells))
@@ -76,8 +90,11 @@ def _frame_from_records(label: str, records: list[tuple[int, list[str]]]) -> tup
     for j, name in enumerate(header):
         if name == "":
             if any(r[j] for r in rows):
-                problems.append(Problem(label, hrow, f"(column {j + 1})",
-                                        "values under a column with no header (ignored)", "warning"))
+                problems.append(
+                    Problem(
+                        label, hrow, f"(column {j + 1})", "values under a column with no header (ignored)", "warning"
+                    )
+                )
             continue
         if name in seen:
             problems.append(Problem(label, None, name, "column appears more than once in the header"))
@@ -99,7 +116,7 @@ def _decode(path: Path, label: str) -> tuple[str | None, list[Problem]]:
     try:
         return data.decode("utf-8-sig"), []
     except UnicodeDecodeError as e:
-        line = data[:e.start].count(b"\n") + 1
+        line = data[: e.start].count(b"\n") + 1
         return None, [Problem(label, line, None, "the file is not UTF-8 text (save it as 'CSV UTF-8')")]
 
 
@@ -157,15 +174,18 @@ def _read_folder(folder: Path):
     known = {t.file_name for t in TABLES.values()}
     for fname in sorted(files):
         if fname.lower().endswith(".csv") and fname not in known:
-            problems.append(Problem(fname, None, None, "unknown table file (ignored)" + close_match_hint(fname, known), "warning"))
+            problems.append(
+                Problem(fname, None, None, "unknown table file (ignored)" + close_match_hint(fname, known), "warning")
+            )
     settings: dict = {}
     if SETTINGS_FILE in files:
         data, probs = _read_toml(files[SETTINGS_FILE], SETTINGS_FILE)
         problems += probs
         settings = data or {}
     else:
-        problems.append(Problem(SETTINGS_FILE, None, None, "no settings file: every setting takes its default",
-                                "warning"))
+        problems.append(
+            Problem(SETTINGS_FILE, None, None, "no settings file: every setting takes its default", "warning")
+        )
     scenarios: list[dict] = []
     if SCENARIOS_FILE in files:
         data, probs = _read_toml(files[SCENARIOS_FILE], SCENARIOS_FILE)
@@ -182,8 +202,16 @@ def _settings_from_frame(frame: pd.DataFrame, label: str):
     cols = {as_text(c).lower(): c for c in frame.columns}
     missing = [c for c in ("section", "name", "value") if c not in cols]
     if missing:
-        return {}, {}, [Problem(label, None, m, "required column is missing (the settings sheet has columns "
-                                               "section, name, value)") for m in missing]
+        return (
+            {},
+            {},
+            [
+                Problem(
+                    label, None, m, "required column is missing (the settings sheet has columns section, name, value)"
+                )
+                for m in missing
+            ],
+        )
     settings: dict[str, dict[str, object]] = {}
     rows: dict[tuple[str, str], int] = {}
     for r, rec in frame.iterrows():
@@ -194,8 +222,9 @@ def _settings_from_frame(frame: pd.DataFrame, label: str):
             problems.append(Problem(label, int(r), "section" if not sec else "name", "blank section or name"))
             continue
         if (sec, name) in rows:
-            problems.append(Problem(label, int(r), "name",
-                                    f"[{sec}] {name} is given twice: rows {rows[(sec, name)]} and {int(r)}"))
+            problems.append(
+                Problem(label, int(r), "name", f"[{sec}] {name} is given twice: rows {rows[(sec, name)]} and {int(r)}")
+            )
             continue
         rows[(sec, name)] = int(r)
         if value == "":
@@ -207,8 +236,7 @@ def _settings_from_frame(frame: pd.DataFrame, label: str):
 def _read_workbook(path: Path):
     problems: list[Problem] = []
     try:
-        sheets = pd.read_excel(path, sheet_name=None, header=None, dtype=str, keep_default_na=False,
-                               engine="openpyxl")
+        sheets = pd.read_excel(path, sheet_name=None, header=None, dtype=str, keep_default_na=False, engine="openpyxl")
     except Exception as e:  # openpyxl raises many kinds on a damaged or foreign file
         raise CaseError([Problem(path.name, None, None, f"cannot read the workbook: {e}")]) from None
     tables: dict[str, pd.DataFrame] = {}
@@ -231,18 +259,27 @@ def _read_workbook(path: Path):
                 settings, rows, probs = _settings_from_frame(frame, SETTINGS_SHEET)
                 problems += probs
         elif sheet not in IGNORED_SHEETS:
-            problems.append(Problem(sheet, None, None, "unknown sheet (ignored)" + close_match_hint(sheet, TABLES), "warning"))
+            problems.append(
+                Problem(sheet, None, None, "unknown sheet (ignored)" + close_match_hint(sheet, TABLES), "warning")
+            )
     if SETTINGS_SHEET not in by_name:
-        problems.append(Problem(SETTINGS_SHEET, None, None, "no settings sheet: every setting takes its default",
-                                "warning"))
+        problems.append(
+            Problem(SETTINGS_SHEET, None, None, "no settings sheet: every setting takes its default", "warning")
+        )
     return tables, settings, sources, rows, [], problems
 
 
-def case_from_tables(tables: dict[str, pd.DataFrame | None], settings: dict | None = None, *,
-                     name: str = "case", path: Path | None = None, sources: dict[str, str] | None = None,
-                     scenarios: list[dict] | None = None,
-                     settings_rows: dict[tuple[str, str], int] | None = None,
-                     problems: list[Problem] | None = None) -> Case:
+def case_from_tables(
+    tables: dict[str, pd.DataFrame | None],
+    settings: dict | None = None,
+    *,
+    name: str = "case",
+    path: Path | None = None,
+    sources: dict[str, str] | None = None,
+    scenarios: list[dict] | None = None,
+    settings_rows: dict[tuple[str, str], int] | None = None,
+    problems: list[Problem] | None = None,
+) -> Case:
     """Validate tables and settings (text or typed) and return the typed :class:`Case`.
 
     Args:
@@ -258,13 +295,23 @@ def case_from_tables(tables: dict[str, pd.DataFrame | None], settings: dict | No
     Raises:
         CaseError: with every error (and warning) when any error exists.
     """
-    typed, typed_settings, found = validate_and_coerce(tables, settings, sources, settings_rows=settings_rows)
+    built: dict = {}
+    typed, typed_settings, found = validate_and_coerce(
+        tables, settings, sources, settings_rows=settings_rows, built=built
+    )
     found = sort_problems(list(problems or []) + found)
     if any(p.severity == "error" for p in found):
         raise CaseError(found)
     case_name = str(typed_settings.get("case", {}).get("name") or "") or name
-    return Case(case_name, typed, typed_settings, Path(path) if path is not None else None,
-                list(scenarios or []), [p for p in found if p.severity != "error"])
+    return Case(
+        case_name,
+        typed,
+        typed_settings,
+        Path(path) if path is not None else None,
+        list(scenarios or []),
+        [p for p in found if p.severity != "error"],
+        built.get("lanes"),
+    )
 
 
 def load_case(path: str | os.PathLike) -> Case:
@@ -284,13 +331,16 @@ def load_case(path: str | os.PathLike) -> Case:
         tables, settings, sources, rows, scenarios, problems = _read_workbook(p)
         name = p.stem
     else:
-        raise CaseError([Problem(p.name, None, None,
-                                 "a case is a folder of CSV files with settings.toml, or one .xlsx workbook")])
-    return case_from_tables(tables, settings, name=name, path=p, sources=sources, scenarios=scenarios,
-                            settings_rows=rows, problems=problems)
+        raise CaseError(
+            [Problem(p.name, None, None, "a case is a folder of CSV files with settings.toml, or one .xlsx workbook")]
+        )
+    return case_from_tables(
+        tables, settings, name=name, path=p, sources=sources, scenarios=scenarios, settings_rows=rows, problems=problems
+    )
 
 
 # --------------------------------------------------------------------------- writing
+
 
 def format_cell(value, column) -> str:
     """A typed value as CSV text: blank for missing and for 'no limit' where that is the default."""
@@ -367,7 +417,11 @@ def settings_toml(settings: dict, comments: bool = False) -> str:
             lines += ["", f"[{section}]"]
         value = settings.get(s.section, {}).get(s.name, s.default)
         if comments:
-            extra = "; ".join(x for x in (s.unit, range_text(s, with_unit=False) if s.min is not None or s.max is not None else "") if x)
+            extra = "; ".join(
+                x
+                for x in (s.unit, range_text(s, with_unit=False) if s.min is not None or s.max is not None else "")
+                if x
+            )
             lines.append(f"# {s.meaning}" + (f" [{extra}]" if extra else ""))
         lines.append(f"{s.name} = {toml_value(value)}")
     return "\n".join(lines) + "\n"
@@ -448,8 +502,9 @@ def write_case_csv(case: Case, folder: str | os.PathLike, overwrite: bool = Fals
             if df is None or (df.empty and not t.required):
                 continue
             cols, rows = _table_rows(case, name)
-            write_csv(tmp / t.file_name, [c.name for c in cols],
-                      [[format_cell(v, c) for v, c in zip(r, cols)] for r in rows])
+            write_csv(
+                tmp / t.file_name, [c.name for c in cols], [[format_cell(v, c) for v, c in zip(r, cols)] for r in rows]
+            )
         (tmp / SETTINGS_FILE).write_text(settings_toml(case.settings), encoding="utf-8")
         if case.scenarios:
             (tmp / SCENARIOS_FILE).write_text(scenarios_toml(case.scenarios), encoding="utf-8")

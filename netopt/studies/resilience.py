@@ -58,7 +58,12 @@ import highspy
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case, CaseError, Problem
+from netopt.data.case import Case, CaseError, Problem
+from netopt.data.io import load_case
+from netopt.engine.solve import solve
+from netopt.present.files import DISCLAIMER, _jsonable, atomic_folder, write_result_files, write_workbook
+from netopt.studies.exposure import exposure
+from netopt.studies.scenarios import HeldNetwork, Scenario, _solve_or_lose, apply_changes
 
 ELEMENT_TYPES = ("supplier", "plant", "dc", "lane")
 JOURNAL = "sweep_journal.jsonl"
@@ -69,12 +74,35 @@ POLICY_ROWS = ("service_window", "max_supplier_share", "max_region_share", "co2_
 """Rule families that a disruption may bend in ``rules="priced"`` mode (at the base's shadow price)."""
 RELIEF_EPS = 1e-4  # currency per unit added to each shadow price, so the undisrupted base stays the unique choice
 
-SPOF_COLUMNS = ["rank", "element", "type", "base_units", "recovery_cost", "lost_units", "lost_value", "impact",
-                "customers_affected", "customers_short", "took_over", "took_over_units", "rules_bent",
-                "rule_relief_units", "rule_relief_cost", "total_cost",
-                "delta_objective", "status", "id"]
-REDESIGN_COLUMNS = ["redesign_status", "redesign_total_cost", "redesign_recovery_cost", "redesign_lost_units",
-                    "redesign_lost_value", "redesign_dc_changes"]
+SPOF_COLUMNS = [
+    "rank",
+    "element",
+    "type",
+    "base_units",
+    "recovery_cost",
+    "lost_units",
+    "lost_value",
+    "impact",
+    "customers_affected",
+    "customers_short",
+    "took_over",
+    "took_over_units",
+    "rules_bent",
+    "rule_relief_units",
+    "rule_relief_cost",
+    "total_cost",
+    "delta_objective",
+    "status",
+    "id",
+]
+REDESIGN_COLUMNS = [
+    "redesign_status",
+    "redesign_total_cost",
+    "redesign_recovery_cost",
+    "redesign_lost_units",
+    "redesign_lost_value",
+    "redesign_dc_changes",
+]
 
 
 class StressError(Exception):
@@ -86,6 +114,7 @@ class StressError(Exception):
 
 
 # ---------------------------------------------------------------------------------- elements
+
 
 def _lane_label(o: str, d: str, m: str) -> str:
     return f"{o} → {d} ({m})"
@@ -104,26 +133,62 @@ def sweep_elements(case: Case, base, only: list[str] | None = None) -> pd.DataFr
     rows = []
     out_by_site = f.groupby("origin")["quantity"].sum()
     for s in t["suppliers"]["supplier"].astype(str).unique():
-        rows.append({"id": f"supplier:{s}", "type": "supplier", "element": s, "origin": s,
-                     "base_units": float(out_by_site.get(s, 0.0))})
+        rows.append(
+            {
+                "id": f"supplier:{s}",
+                "type": "supplier",
+                "element": s,
+                "origin": s,
+                "base_units": float(out_by_site.get(s, 0.0)),
+            }
+        )
     made = base.tables["production"].groupby("plant")["quantity"].sum()
     for p in t["plants"]["plant"].astype(str).unique():
-        rows.append({"id": f"plant:{p}", "type": "plant", "element": p, "origin": p,
-                     "base_units": float(made.get(p, 0.0))})
+        rows.append(
+            {"id": f"plant:{p}", "type": "plant", "element": p, "origin": p, "base_units": float(made.get(p, 0.0))}
+        )
     d = base.tables["dcs"]
     dct = t["dcs"].set_index("dc")
     for r in d[d["open"]].itertuples():
         existing = str(dct.loc[r.dc, "status"]) == "existing"
-        rows.append({"id": f"dc:{r.dc}", "type": "dc", "element": r.dc, "origin": r.dc,
-                     "base_units": float(r.throughput), "own_fixed_cost": float(r.fixed_cost),
-                     "own_closing_cost": float(dct.loc[r.dc, "closing_cost"]) if existing else 0.0})
+        rows.append(
+            {
+                "id": f"dc:{r.dc}",
+                "type": "dc",
+                "element": r.dc,
+                "origin": r.dc,
+                "base_units": float(r.throughput),
+                "own_fixed_cost": float(r.fixed_cost),
+                "own_closing_cost": float(dct.loc[r.dc, "closing_cost"]) if existing else 0.0,
+            }
+        )
     lanes = f.groupby(["origin", "destination", "mode"], as_index=False)["quantity"].sum()
     for r in lanes[lanes["quantity"] > TOL].itertuples():
-        rows.append({"id": f"lane:{r.origin}>{r.destination}>{r.mode}", "type": "lane",
-                     "element": _lane_label(r.origin, r.destination, r.mode), "origin": r.origin,
-                     "destination": r.destination, "mode": r.mode, "base_units": float(r.quantity)})
-    el = pd.DataFrame(rows, columns=["id", "type", "element", "origin", "destination", "mode", "base_units",
-                                     "own_fixed_cost", "own_closing_cost"])
+        rows.append(
+            {
+                "id": f"lane:{r.origin}>{r.destination}>{r.mode}",
+                "type": "lane",
+                "element": _lane_label(r.origin, r.destination, r.mode),
+                "origin": r.origin,
+                "destination": r.destination,
+                "mode": r.mode,
+                "base_units": float(r.quantity),
+            }
+        )
+    el = pd.DataFrame(
+        rows,
+        columns=[
+            "id",
+            "type",
+            "element",
+            "origin",
+            "destination",
+            "mode",
+            "base_units",
+            "own_fixed_cost",
+            "own_closing_cost",
+        ],
+    )
     el[["destination", "mode"]] = el[["destination", "mode"]].fillna("")
     el[["own_fixed_cost", "own_closing_cost"]] = el[["own_fixed_cost", "own_closing_cost"]].fillna(0.0)
     if only:
@@ -137,9 +202,18 @@ def sweep_elements(case: Case, base, only: list[str] | None = None) -> pd.DataFr
                 bad.append(n)
             keep |= m
         if bad:
-            raise CaseError([Problem("--only", None, None,
-                                     f"'{b}' is neither an element type ({', '.join(ELEMENT_TYPES)}) nor an element "
-                                     "of the solved base (a supplier, plant, open DC or used lane)") for b in bad])
+            raise CaseError(
+                [
+                    Problem(
+                        "--only",
+                        None,
+                        None,
+                        f"'{b}' is neither an element type ({', '.join(ELEMENT_TYPES)}) nor an element "
+                        "of the solved base (a supplier, plant, open DC or used lane)",
+                    )
+                    for b in bad
+                ]
+            )
         el = el[keep]
     return el.reset_index(drop=True)
 
@@ -152,6 +226,7 @@ def element_changes(el: dict) -> list[dict]:
 
 
 # ---------------------------------------------------------------------------------- spec and worker state
+
 
 def case_fingerprint(case: Case) -> str:
     """SHA-256 of a case's tables and settings (stable across processes and runs)."""
@@ -184,14 +259,32 @@ def make_spec(case: Case, base, redesign: bool = False, rules: str = "priced") -
     if rules not in RULES:
         raise ValueError(f"rules must be one of {', '.join(RULES)}, not {rules!r}")
     held = {k: v for k, v in base.held_openings().items()}
-    key = hashlib.sha256(json.dumps({"case": case_fingerprint(case), "held": held, "redesign": bool(redesign),
-                                     "rules": rules,
-                                     "journal": JOURNAL_FORMAT}, sort_keys=True, default=str).encode()).hexdigest()
+    key = hashlib.sha256(
+        json.dumps(
+            {
+                "case": case_fingerprint(case),
+                "held": held,
+                "redesign": bool(redesign),
+                "rules": rules,
+                "journal": JOURNAL_FORMAT,
+            },
+            sort_keys=True,
+            default=str,
+        ).encode()
+    ).hexdigest()
     d = base.tables["dcs"]
     un = base.tables["unmet"]
-    return SweepSpec(key=key, case=case, held=held, lanes=base.lanes, base_cost=dict(base.cost),
-                     base_lost_units=float(un["lost_units"].sum()) if len(un) else 0.0,
-                     base_dcs_open=tuple(d.loc[d["open"], "dc"]), redesign=bool(redesign), rules=rules)
+    return SweepSpec(
+        key=key,
+        case=case,
+        held=held,
+        lanes=base.lanes,
+        base_cost=dict(base.cost),
+        base_lost_units=float(un["lost_units"].sum()) if len(un) else 0.0,
+        base_dcs_open=tuple(d.loc[d["open"], "dc"]),
+        redesign=bool(redesign),
+        rules=rules,
+    )
 
 
 @dataclass
@@ -240,12 +333,20 @@ def _groups(held) -> Groups:
     lane_leg = np.empty(len(names["lane"]), dtype=object)
     lane_leg[codes["lane"]] = leg
     c = -np.ones(n, np.int64)
-    route = np.array([f"{x}\x1f{y}\x1f{z}" for x, y, z in zip(o[last], d[last], a["product"].astype(str).to_numpy()[last])],
-                     dtype=object)
+    route = np.array(
+        [f"{x}\x1f{y}\x1f{z}" for x, y, z in zip(o[last], d[last], a["product"].astype(str).to_numpy()[last])],
+        dtype=object,
+    )
     c[last], route_names = _codes(route)
     codes["route"] = c
-    cust_all, customers = _codes(np.concatenate([net.demand["customer"].astype(str).to_numpy(),
-                                                 np.array([r.split("\x1f")[1] for r in route_names], dtype=object)]))
+    cust_all, customers = _codes(
+        np.concatenate(
+            [
+                net.demand["customer"].astype(str).to_numpy(),
+                np.array([r.split("\x1f")[1] for r in route_names], dtype=object),
+            ]
+        )
+    )
     nd = len(net.demand)
     idx = np.arange(n)
     out_arcs = {k: v.to_numpy() for k, v in pd.Series(idx).groupby(o).groups.items()} if n else {}
@@ -255,9 +356,18 @@ def _groups(held) -> Groups:
     make_rows = {k: np.flatnonzero(mk == k) for k in np.unique(mk)}
     opt = net.options["dc"].astype(str).to_numpy()
     option_rows = {k: np.flatnonzero(opt == k) for k in np.unique(opt)}
-    return Groups(names=names, codes=codes, lane_leg=lane_leg, out_arcs=out_arcs, lane_arcs=lane_arcs,
-                  make_rows=make_rows, option_rows=option_rows, route_customer=cust_all[nd:], customers=customers,
-                  demand_customer=cust_all[:nd])
+    return Groups(
+        names=names,
+        codes=codes,
+        lane_leg=lane_leg,
+        out_arcs=out_arcs,
+        lane_arcs=lane_arcs,
+        make_rows=make_rows,
+        option_rows=option_rows,
+        route_customer=cust_all[nd:],
+        customers=customers,
+        demand_customer=cust_all[:nd],
+    )
 
 
 @dataclass
@@ -299,10 +409,22 @@ def add_relief(held) -> Relief:
             price.append(abs(float(dual[r])) + RELIEF_EPS)
     n = len(rows_all)
     if n:
-        h.addCols(n, np.array(price), np.zeros(n), np.full(n, highspy.kHighsInf), n, np.arange(n, dtype=np.int32),
-                  np.array(rows_all, dtype=np.int32), np.array(sign_all))
-    return Relief(cols=np.arange(n0, n0 + n), family=np.array(fam, dtype=object), label=np.array(lab, dtype=object),
-                  price=np.array(price))
+        h.addCols(
+            n,
+            np.array(price),
+            np.zeros(n),
+            np.full(n, highspy.kHighsInf),
+            n,
+            np.arange(n, dtype=np.int32),
+            np.array(rows_all, dtype=np.int32),
+            np.array(sign_all),
+        )
+    return Relief(
+        cols=np.arange(n0, n0 + n),
+        family=np.array(fam, dtype=object),
+        label=np.array(lab, dtype=object),
+        price=np.array(price),
+    )
 
 
 @dataclass
@@ -337,8 +459,6 @@ def worker_state(spec: SweepSpec) -> WorkerState:
         cache = _LOCAL.states = {}
     st = cache.get(spec.key)
     if st is None:
-        from netopt.scenarios import HeldNetwork
-
         cache.clear()  # one case at a time per worker
         t0 = time.perf_counter()
         held = HeldNetwork(held_case(spec.case), held=spec.held, lanes=spec.lanes)
@@ -350,15 +470,26 @@ def worker_state(spec: SweepSpec) -> WorkerState:
             relief = add_relief(held)
             if len(relief.cols):
                 info = hm.solve()
-                if info.status != "optimal" or abs(info.objective - held.base_info.objective) > \
-                        1e-6 * max(1.0, abs(held.base_info.objective)):
-                    raise RuntimeError(f"priced rule relief changed the held base ({info.status}, "
-                                       f"{info.objective} vs {held.base_info.objective})")
+                if info.status != "optimal" or abs(info.objective - held.base_info.objective) > 1e-6 * max(
+                    1.0, abs(held.base_info.objective)
+                ):
+                    raise RuntimeError(
+                        f"priced rule relief changed the held base ({info.status}, "
+                        f"{info.objective} vs {held.base_info.objective})"
+                    )
         vals = hm.values()
         cost = held.builder.component_values(vals)
-        st = WorkerState(spec=spec, held=held, basis=hm.highs.getBasis(), base_values=vals, base_cost=cost,
-                         base_total=float(sum(cost.values())), build_seconds=time.perf_counter() - t0,
-                         groups=_groups(held), relief=relief)
+        st = WorkerState(
+            spec=spec,
+            held=held,
+            basis=hm.highs.getBasis(),
+            base_values=vals,
+            base_cost=cost,
+            base_total=float(sum(cost.values())),
+            build_seconds=time.perf_counter() - t0,
+            groups=_groups(held),
+            relief=relief,
+        )
         cache[spec.key] = st
     return st
 
@@ -386,6 +517,7 @@ def _element_bounds(st: WorkerState, el: dict) -> np.ndarray:
 
 
 # ---------------------------------------------------------------------------------- one task
+
 
 def _activity(st: WorkerState, kind: str, values: dict) -> np.ndarray:
     """Volume (units/yr) of each group of ``kind`` (supplier, plant, dc, lane) in a solution."""
@@ -441,8 +573,11 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
         h.setBasis(st.basis)
         info = hm.solve()
         values = hm.values() if info.has_solution else None
-        bent = np.asarray(h.getSolution().col_value, float)[st.relief.cols] if values is not None and \
-            st.relief is not None and len(st.relief.cols) else np.zeros(0)
+        bent = (
+            np.asarray(h.getSolution().col_value, float)[st.relief.cols]
+            if values is not None and st.relief is not None and len(st.relief.cols)
+            else np.zeros(0)
+        )
     finally:
         if len(ci):
             h.changeColsBounds(len(ci), ci, lo0, hi0)
@@ -461,12 +596,22 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
     took, took_units = _took_over(st, el, values)
     # Safety stock is held at the base's level: its cost is the base's in both totals.
     ss = float(st.spec.base_cost.get("safety_stock", 0.0))
-    row.update({"total_cost": total + ss, "delta_objective": delta, "recovery_cost": recovery,
-                "lost_units": float(un.sum() - un0.sum()), "lost_value": float(pen_new - pen_old),
-                "customers_affected": len(short | rerouted), "customers_short": len(short),
-                "took_over": took, "took_over_units": took_units,
-                "rules_bent": _rules_bent(st.relief, bent), "rule_relief_units": float(bent.sum()),
-                "rule_relief_cost": float(bent @ st.relief.price) if len(bent) else 0.0})
+    row.update(
+        {
+            "total_cost": total + ss,
+            "delta_objective": delta,
+            "recovery_cost": recovery,
+            "lost_units": float(un.sum() - un0.sum()),
+            "lost_value": float(pen_new - pen_old),
+            "customers_affected": len(short | rerouted),
+            "customers_short": len(short),
+            "took_over": took,
+            "took_over_units": took_units,
+            "rules_bent": _rules_bent(st.relief, bent),
+            "rule_relief_units": float(bent.sum()),
+            "rule_relief_cost": float(bent @ st.relief.price) if len(bent) else 0.0,
+        }
+    )
     row["impact"] = row["recovery_cost"] + row["lost_value"] + row["rule_relief_cost"]
     return row
 
@@ -487,8 +632,6 @@ def _rules_bent(relief: Relief | None, bent: np.ndarray) -> str:
 
 def redesign_resolve(spec: SweepSpec, el: dict) -> dict:
     """Redesign with ``el`` out (openings re-optimised, a MIP); result columns prefixed ``redesign_``."""
-    from netopt.scenarios import Scenario, _solve_or_lose, apply_changes
-
     sc_case = apply_changes(spec.case, Scenario(el["id"], element_changes(el), resolve="redesign"))
     r, _ = _solve_or_lose(sc_case)
     out = {"redesign_status": r.status}
@@ -502,13 +645,20 @@ def redesign_resolve(spec: SweepSpec, el: dict) -> dict:
     d = r.tables["dcs"]
     now = set(d.loc[d["open"], "dc"])
     was = set(spec.base_dcs_open)
-    changes = [f"opens {x}" for x in sorted(now - was)] + [f"closes {x}" for x in sorted(was - now - {el['origin']})]
-    out.update({"redesign_total_cost": total,
-                "redesign_recovery_cost": total - base_total - (pen_new - pen_old) + el.get("own_fixed_cost", 0.0)
-                - el.get("own_closing_cost", 0.0),
-                "redesign_lost_units": (float(un["lost_units"].sum()) if len(un) else 0.0) - spec.base_lost_units,
-                "redesign_lost_value": float(pen_new - pen_old),
-                "redesign_dc_changes": "; ".join(changes)})
+    changes = [f"opens {x}" for x in sorted(now - was)] + [f"closes {x}" for x in sorted(was - now - {el["origin"]})]
+    out.update(
+        {
+            "redesign_total_cost": total,
+            "redesign_recovery_cost": total
+            - base_total
+            - (pen_new - pen_old)
+            + el.get("own_fixed_cost", 0.0)
+            - el.get("own_closing_cost", 0.0),
+            "redesign_lost_units": (float(un["lost_units"].sum()) if len(un) else 0.0) - spec.base_lost_units,
+            "redesign_lost_value": float(pen_new - pen_old),
+            "redesign_dc_changes": "; ".join(changes),
+        }
+    )
     return out
 
 
@@ -554,6 +704,7 @@ def _pool_task(el: dict) -> dict:
 
 # ---------------------------------------------------------------------------------- journal
 
+
 def read_journal(path: Path, key: str) -> tuple[dict[str, dict], bool]:
     """Finished rows by element id and whether the journal belongs to ``key`` (a torn last line is ignored)."""
     if not path.exists():
@@ -585,8 +736,10 @@ def open_journal(path: Path, key: str, fresh: bool):
     path.parent.mkdir(parents=True, exist_ok=True)
     if fresh or not path.exists():
         with open(path, "w", encoding="utf-8") as fh:
-            fh.write(json.dumps({"journal": JOURNAL_FORMAT, "key": key, "started": time.strftime("%Y-%m-%d %H:%M:%S")})
-                     + "\n")
+            fh.write(
+                json.dumps({"journal": JOURNAL_FORMAT, "key": key, "started": time.strftime("%Y-%m-%d %H:%M:%S")})
+                + "\n"
+            )
             fh.flush()
             os.fsync(fh.fileno())
     else:
@@ -606,20 +759,20 @@ def _append(fh, row: dict) -> None:
 
 # ---------------------------------------------------------------------------------- executors
 
+
 def _pool_context():
     """Start method for pool workers: forkserver where available (no fork of a process holding HiGHS threads)."""
     methods = mp.get_all_start_methods()
     ctx = mp.get_context("forkserver" if "forkserver" in methods else "spawn")
     if ctx.get_start_method() == "forkserver":
-        ctx.set_forkserver_preload(["netopt.resilience", "netopt.scenarios", "netopt.api"])
+        ctx.set_forkserver_preload(["netopt.resilience", "netopt.scenarios", "netopt.engine.solve"])
     return ctx
 
 
 def _run_local(spec, todo, workers, done_cb):
     from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
-    ex = ProcessPoolExecutor(max_workers=workers, mp_context=_pool_context(), initializer=_pool_init,
-                             initargs=(spec,))
+    ex = ProcessPoolExecutor(max_workers=workers, mp_context=_pool_context(), initializer=_pool_init, initargs=(spec,))
     futs = {}
     try:
         futs = {ex.submit(_pool_task, el): el for el in todo}
@@ -640,16 +793,19 @@ def _run_dask(spec, todo, scheduler, done_cb):
     try:
         from distributed import Client, as_completed
     except ImportError as e:  # pragma: no cover - the cluster extra is not installed
-        raise RuntimeError("running on a Dask cluster needs the 'distributed' package "
-                           "(pip install 'netopt[cluster]')") from e
+        raise RuntimeError(
+            "running on a Dask cluster needs the 'distributed' package (pip install 'netopt[cluster]')"
+        ) from e
     own = isinstance(scheduler, str)
     client = Client(scheduler) if own else scheduler
     futs = []
     try:
         token = uuid.uuid4().hex[:12]
         spec_f = client.scatter(spec, broadcast=True, hash=False)
-        futs = [client.submit(run_task, spec_f, el, pure=False, key=f"netopt-sweep-{token}-{i}")
-                for i, el in enumerate(todo)]
+        futs = [
+            client.submit(run_task, spec_f, el, pure=False, key=f"netopt-sweep-{token}-{i}")
+            for i, el in enumerate(todo)
+        ]
         by_key = {f.key: el for f, el in zip(futs, todo)}
         for f in as_completed(futs):
             done_cb(by_key[f.key], f.result())
@@ -668,17 +824,32 @@ def _run_inline(spec, todo, done_cb):
 
 def _progress_bar(total: int, completed: int, label: str):
     from rich.console import Console
-    from rich.progress import (BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn,
-                               TimeRemainingColumn)
+    from rich.progress import (
+        BarColumn,
+        MofNCompleteColumn,
+        Progress,
+        TextColumn,
+        TimeElapsedColumn,
+        TimeRemainingColumn,
+    )
 
-    p = Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TextColumn("elapsed"),
-                 TimeElapsedColumn(), TextColumn("ETA"), TimeRemainingColumn(), console=Console(stderr=True),
-                 transient=False)
+    p = Progress(
+        TextColumn("{task.description}"),
+        BarColumn(),
+        MofNCompleteColumn(),
+        TextColumn("elapsed"),
+        TimeElapsedColumn(),
+        TextColumn("ETA"),
+        TimeRemainingColumn(),
+        console=Console(stderr=True),
+        transient=False,
+    )
     task = p.add_task(label, total=total, completed=completed)
     return p, task
 
 
 # ---------------------------------------------------------------------------------- the sweep
+
 
 def rank_rows(rows: list[dict], redesign: bool = False) -> pd.DataFrame:
     """The ranked single-point-of-failure table from journal rows (order of completion irrelevant)."""
@@ -689,16 +860,27 @@ def rank_rows(rows: list[dict], redesign: bool = False) -> pd.DataFrame:
     for c in cols:
         if c not in df:
             df[c] = np.nan
-    df = df.sort_values(["impact", "lost_units", "id"], ascending=[False, False, True], kind="stable",
-                        na_position="last").reset_index(drop=True)
+    df = df.sort_values(
+        ["impact", "lost_units", "id"], ascending=[False, False, True], kind="stable", na_position="last"
+    ).reset_index(drop=True)
     df["rank"] = np.arange(1, len(df) + 1)
     return df[cols]
 
 
-def run_sweep(case: Case, base, *, workers: int | None = None, scheduler=None, redesign: bool = False,
-              elements: list[str] | None = None, progress: bool = True, journal: str | Path | None = None,
-              fresh: bool = False, rules: str = "priced",
-              on_row: Callable[[dict], None] | None = None) -> tuple[pd.DataFrame, dict]:
+def run_sweep(
+    case: Case,
+    base,
+    *,
+    workers: int | None = None,
+    scheduler=None,
+    redesign: bool = False,
+    elements: list[str] | None = None,
+    progress: bool = True,
+    journal: str | Path | None = None,
+    fresh: bool = False,
+    rules: str = "priced",
+    on_row: Callable[[dict], None] | None = None,
+) -> tuple[pd.DataFrame, dict]:
     """Take each element out one at a time and re-solve; the ranked table and run facts.
 
     Args:
@@ -776,19 +958,38 @@ def run_sweep(case: Case, base, *, workers: int | None = None, scheduler=None, r
         if r.get("status") not in ("optimal",):
             errors.append(f"{r['id']}: {r.get('status')}")
     table = rank_rows(rows, redesign)
-    info = {"tasks": len(todo_all), "reused": len(reused), "run": len(new_rows), "seconds": seconds,
-            "resolves_per_second": (len(new_rows) / seconds) if seconds > 0 and new_rows else float("nan"),
-            "executor": executor, "journal": str(journal) if journal is not None else "",
-            "stale_journal_replaced": stale, "not_optimal": errors,
-            "ran_on": sorted({r.get("ran_on", "") for r in new_rows})}
+    info = {
+        "tasks": len(todo_all),
+        "reused": len(reused),
+        "run": len(new_rows),
+        "seconds": seconds,
+        "resolves_per_second": (len(new_rows) / seconds) if seconds > 0 and new_rows else float("nan"),
+        "executor": executor,
+        "journal": str(journal) if journal is not None else "",
+        "stale_journal_replaced": stale,
+        "not_optimal": errors,
+        "ran_on": sorted({r.get("ran_on", "") for r in new_rows}),
+    }
     return table, info
 
 
 # ---------------------------------------------------------------------------------- stress: sweep + exposure
 
-def stress(case: Case, out_dir: str | Path, *, workers: int | None = None, scheduler=None, redesign: bool = False,
-           elements: list[str] | None = None, progress: bool = True, base=None, fresh: bool = False,
-           rules: str = "priced", say: Callable[[str], None] | None = None) -> dict[str, pd.DataFrame]:
+
+def stress(
+    case: Case,
+    out_dir: str | Path,
+    *,
+    workers: int | None = None,
+    scheduler=None,
+    redesign: bool = False,
+    elements: list[str] | None = None,
+    progress: bool = True,
+    base=None,
+    fresh: bool = False,
+    rules: str = "priced",
+    say: Callable[[str], None] | None = None,
+) -> dict[str, pd.DataFrame]:
     """Solve the base, run the single-point-of-failure sweep and the TTS/TTR exposure; write ``out_dir``.
 
     Written (atomically, the journal excepted while running): ``spof_ranking.csv``,
@@ -799,10 +1000,6 @@ def stress(case: Case, out_dir: str | Path, *, workers: int | None = None, sched
     Returns:
         {"spof": ranked sweep table, "exposure": exposure table, "info": run facts (key, value)}.
     """
-    from netopt.api import solve
-    from netopt.exposure import exposure
-    from netopt.output import DISCLAIMER, _jsonable, atomic_folder, write_result_files, write_workbook
-
     tell = say or (lambda s: None)
     out = Path(out_dir)
     t0 = time.perf_counter()
@@ -814,21 +1011,40 @@ def stress(case: Case, out_dir: str | Path, *, workers: int | None = None, sched
     base_seconds = time.perf_counter() - t0
     out.mkdir(parents=True, exist_ok=True)
     jpath = out / JOURNAL
-    spof, info = run_sweep(case, base, workers=workers, scheduler=scheduler, redesign=redesign, elements=elements,
-                           progress=progress, journal=jpath, fresh=fresh, rules=rules)
+    spof, info = run_sweep(
+        case,
+        base,
+        workers=workers,
+        scheduler=scheduler,
+        redesign=redesign,
+        elements=elements,
+        progress=progress,
+        journal=jpath,
+        fresh=fresh,
+        rules=rules,
+    )
     t1 = time.perf_counter()
     expo, note = exposure(case, base)
     exposure_seconds = time.perf_counter() - t1
     base_total = float(sum(base.cost.values()))
     facts = {
-        "case": case.name, "base_status": base.status, "base_total_cost": base_total,
-        "base_seconds": base_seconds, "sweep_elements": info["tasks"], "sweep_reused_from_journal": info["reused"],
-        "sweep_resolved_now": info["run"], "sweep_seconds": info["seconds"],
-        "sweep_resolves_per_second": info["resolves_per_second"], "sweep_executor": info["executor"],
-        "sweep_not_optimal": "; ".join(info["not_optimal"]), "sweep_redesign": bool(redesign),
+        "case": case.name,
+        "base_status": base.status,
+        "base_total_cost": base_total,
+        "base_seconds": base_seconds,
+        "sweep_elements": info["tasks"],
+        "sweep_reused_from_journal": info["reused"],
+        "sweep_resolved_now": info["run"],
+        "sweep_seconds": info["seconds"],
+        "sweep_resolves_per_second": info["resolves_per_second"],
+        "sweep_executor": info["executor"],
+        "sweep_not_optimal": "; ".join(info["not_optimal"]),
+        "sweep_redesign": bool(redesign),
         "hold_assumption": "DC decisions and safety-stock positions held at the base's; flows re-routed",
         "sweep_rules": rules,
-        "exposure_nodes": len(expo), "exposure_stock": note, "exposure_seconds": exposure_seconds,
+        "exposure_nodes": len(expo),
+        "exposure_stock": note,
+        "exposure_seconds": exposure_seconds,
         "exposure_nodes_tts_below_ttr": int(expo["tts_below_ttr"].sum()) if len(expo) else 0,
         "currency": case.settings["case"].get("currency", ""),
     }
@@ -837,11 +1053,17 @@ def stress(case: Case, out_dir: str | Path, *, workers: int | None = None, sched
     with atomic_folder(out) as tmp:
         spof.to_csv(tmp / "spof_ranking.csv", index=False)
         expo.to_csv(tmp / "exposure.csv", index=False)
-        write_workbook({"spof_ranking": spof, "exposure": expo, "run": info_df}, tmp / "stress.xlsx",
-                       notes=STRESS_NOTES + "\n\n" + DISCLAIMER)
-        summary = {"facts": facts, "top_spof": spof.head(10).to_dict("records"),
-                   "exposure_at_risk": expo[expo["tts_below_ttr"]].to_dict("records") if len(expo) else [],
-                   "disclaimer": DISCLAIMER}
+        write_workbook(
+            {"spof_ranking": spof, "exposure": expo, "run": info_df},
+            tmp / "stress.xlsx",
+            notes=STRESS_NOTES + "\n\n" + DISCLAIMER,
+        )
+        summary = {
+            "facts": facts,
+            "top_spof": spof.head(10).to_dict("records"),
+            "exposure_at_risk": expo[expo["tts_below_ttr"]].to_dict("records") if len(expo) else [],
+            "disclaimer": DISCLAIMER,
+        }
         (tmp / "summary.json").write_text(json.dumps(_jsonable(summary), indent=2))
         if jpath.exists():
             shutil.copy2(jpath, tmp / JOURNAL)
@@ -865,17 +1087,24 @@ need mitigation. Method: Simchi-Levi, Schmidt & Wei (Harvard Business Review, 20
 (Interfaces 45(5), 2015)."""
 
 
-def stress_command(case_path: str, out_dir: str, *, workers: int | None = None, scheduler: str | None = None,
-                   redesign: bool = False, only: list[str] | None = None, fresh: bool = False,
-                   rules: str = "priced", quiet: bool = False) -> int:
+def stress_command(
+    case_path: str,
+    out_dir: str,
+    *,
+    workers: int | None = None,
+    scheduler: str | None = None,
+    redesign: bool = False,
+    only: list[str] | None = None,
+    fresh: bool = False,
+    rules: str = "priced",
+    quiet: bool = False,
+) -> int:
     """``netopt stress CASE --out DIR``: load, stress, print the summary; the exit code.
 
     0 done; 3 the base is infeasible; 4 the base has no solution for another reason
     (time limit, solver error).  Bad input raises :class:`CaseError` (the CLI's exit code 2).
     """
     import sys
-
-    from netopt.io import load_case
 
     case = load_case(case_path)
     say = (lambda s: None) if quiet else (lambda s: print(s, file=sys.stderr))
@@ -884,8 +1113,18 @@ def stress_command(case_path: str, out_dir: str, *, workers: int | None = None, 
         for p in case.warnings:
             say(f"  {p}")
     try:
-        tables = stress(case, out_dir, workers=workers, scheduler=scheduler, redesign=redesign, elements=only,
-                        progress=not quiet, fresh=fresh, rules=rules, say=say)
+        tables = stress(
+            case,
+            out_dir,
+            workers=workers,
+            scheduler=scheduler,
+            redesign=redesign,
+            elements=only,
+            progress=not quiet,
+            fresh=fresh,
+            rules=rules,
+            say=say,
+        )
     except StressError as e:
         print(f"error: {e}", file=sys.stderr)
         return 3 if e.status in ("infeasible", "unbounded") else 4
@@ -910,42 +1149,57 @@ def summary_lines(tables: dict[str, pd.DataFrame], top: int = 10) -> list[str]:
     cur = facts.get("currency", "")
     lines = []
     if facts:
-        lines.append(f"base total landed cost {float(facts['base_total_cost']):,.0f} {cur}/yr; "
-                     f"{facts['sweep_elements']} elements swept ({facts['sweep_resolved_now']} re-solved now, "
-                     f"{facts['sweep_reused_from_journal']} from the journal) on {facts['sweep_executor']}")
+        lines.append(
+            f"base total landed cost {float(facts['base_total_cost']):,.0f} {cur}/yr; "
+            f"{facts['sweep_elements']} elements swept ({facts['sweep_resolved_now']} re-solved now, "
+            f"{facts['sweep_reused_from_journal']} from the journal) on {facts['sweep_executor']}"
+        )
     lines.append(f"top {min(top, len(spof))} single points of failure (per year of outage, {cur}):")
-    hdr = f"{'#':>3}  {'element':<44} {'type':<8} {'recovery':>12} {'lost units':>11} {'lost value':>12} " \
-          f"{'custs':>5}  took over"
+    hdr = (
+        f"{'#':>3}  {'element':<44} {'type':<8} {'recovery':>12} {'lost units':>11} {'lost value':>12} "
+        f"{'custs':>5}  took over"
+    )
     lines.append(hdr)
     for r in spof.head(top).itertuples():
-        lines.append(f"{r.rank:>3}  {str(r.element)[:44]:<44} {r.type:<8} {_fmt_money(r.recovery_cost):>12} "
-                     f"{_fmt_money(r.lost_units):>11} {_fmt_money(r.lost_value):>12} {int(r.customers_affected):>5}  "
-                     f"{str(r.took_over)[:60] if isinstance(r.took_over, str) else ''}")
+        lines.append(
+            f"{r.rank:>3}  {str(r.element)[:44]:<44} {r.type:<8} {_fmt_money(r.recovery_cost):>12} "
+            f"{_fmt_money(r.lost_units):>11} {_fmt_money(r.lost_value):>12} {int(r.customers_affected):>5}  "
+            f"{str(r.took_over)[:60] if isinstance(r.took_over, str) else ''}"
+        )
     if len(expo):
         risk = expo[expo["tts_below_ttr"]]
-        lines.append(f"time-to-survive vs time-to-recover: {len(risk)} of {len(expo)} nodes survive shorter than "
-                     f"they take to recover ({facts.get('exposure_stock', '')})")
+        lines.append(
+            f"time-to-survive vs time-to-recover: {len(risk)} of {len(expo)} nodes survive shorter than "
+            f"they take to recover ({facts.get('exposure_stock', '')})"
+        )
         for r in expo.head(top).itertuples():
             tts = f">={r.tts_days:,.0f}" if r.tts_capped else f"{r.tts_days:,.1f}"
             flag = "  AT RISK" if r.tts_below_ttr else ""
-            lines.append(f"{r.rank:>3}  {r.node:<24} {r.type:<8} TTS {tts:>7} d  TTR {r.ttr_days:>5,.1f} d  "
-                         f"lost {_fmt_money(r.lost_units):>9} units  {_fmt_money(r.lost_value):>12} {cur}  "
-                         f"REI {r.rei:.2f}{flag}")
+            lines.append(
+                f"{r.rank:>3}  {r.node:<24} {r.type:<8} TTS {tts:>7} d  TTR {r.ttr_days:>5,.1f} d  "
+                f"lost {_fmt_money(r.lost_units):>9} units  {_fmt_money(r.lost_value):>12} {cur}  "
+                f"REI {r.rei:.2f}{flag}"
+            )
     return lines
 
 
 def markdown_top(spof: pd.DataFrame, top: int = 10, currency: str = "") -> str:
     """The top rows of the sweep as a Markdown table (for a case README)."""
+
     def text(x, n=2):
         if not isinstance(x, str) or not x:
             return "–"
         return "; ".join(x.split("; ")[:n])
 
-    out = [f"| # | element | type | impact ({currency}/yr) | recovery cost ({currency}/yr) | lost units/yr "
-           f"| lost value ({currency}/yr) | rules bent | customers affected | took over (units/yr) |",
-           "|---:|---|---|---:|---:|---:|---:|---|---:|---|"]
+    out = [
+        f"| # | element | type | impact ({currency}/yr) | recovery cost ({currency}/yr) | lost units/yr "
+        f"| lost value ({currency}/yr) | rules bent | customers affected | took over (units/yr) |",
+        "|---:|---|---|---:|---:|---:|---:|---|---:|---|",
+    ]
     for r in spof.head(top).itertuples():
-        out.append(f"| {r.rank} | {r.element} | {r.type} | {_fmt_money(r.impact)} | {_fmt_money(r.recovery_cost)} "
-                   f"| {_fmt_money(r.lost_units)} | {_fmt_money(r.lost_value)} | {text(r.rules_bent, 1)} "
-                   f"| {int(r.customers_affected)} | {text(r.took_over)} |")
+        out.append(
+            f"| {r.rank} | {r.element} | {r.type} | {_fmt_money(r.impact)} | {_fmt_money(r.recovery_cost)} "
+            f"| {_fmt_money(r.lost_units)} | {_fmt_money(r.lost_value)} | {text(r.rules_bent, 1)} "
+            f"| {int(r.customers_affected)} | {text(r.took_over)} |"
+        )
     return "\n".join(out)

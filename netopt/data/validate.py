@@ -16,12 +16,13 @@ from __future__ import annotations
 
 import difflib
 import math
+from collections.abc import Callable
 
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case, CaseError, Problem
-from netopt.schema import INF, LEGS, SETTINGS, TABLES, Column, Setting
+from netopt.data.case import Case, CaseError, Problem
+from netopt.data.schema import INF, LEGS, SETTINGS, TABLES, Column, Setting
 
 SITE_TABLES = (("suppliers", "supplier"), ("plants", "plant"), ("dcs", "dc"), ("customers", "customer"))
 """The four tables whose codes share one namespace of sites, with their code column."""
@@ -36,6 +37,7 @@ _SETTING_CHOICES = {("lanes", "legs"): LEGS}
 
 
 # --------------------------------------------------------------------------- text helpers
+
 
 def format_number(value: float) -> str:
     """Shortest text that reads back as the same float; whole numbers without '.0'."""
@@ -124,6 +126,7 @@ def _number_message(text: str, what: str = "number") -> str:
 
 # --------------------------------------------------------------------------- one table
 
+
 def _empty_column(col: Column, n_index: pd.Index) -> pd.Series:
     return _typed(col, [col.default] * len(n_index), n_index)
 
@@ -152,8 +155,11 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
     """
     problems: list[Problem] = []
     idx = series.index
-    if col.type == "float" and pd.api.types.is_float_dtype(series.dtype) or (
-            col.type in ("float", "int") and pd.api.types.is_integer_dtype(series.dtype)):
+    if (
+        (col.type == "float"
+        and pd.api.types.is_float_dtype(series.dtype))
+        or (col.type in ("float", "int") and pd.api.types.is_integer_dtype(series.dtype))
+    ):
         values = [None if pd.isna(v) else float(v) for v in series.tolist()]
         texts = [format_number(v) if v is not None else "" for v in values]
     else:
@@ -171,8 +177,9 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
                 continue
             bad = next((ch for ch in text if ord(ch) < 32 or ord(ch) == 127), None)
             if bad is not None:
-                problems.append(Problem(table, r, col.name,
-                                        f"contains an invisible control character (code {ord(bad)}): {text!r}"))
+                problems.append(
+                    Problem(table, r, col.name, f"contains an invisible control character (code {ord(bad)}): {text!r}")
+                )
                 out.append(col.default if col.default is not None else "")
                 continue
             if col.choices is not None:
@@ -189,7 +196,9 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
             low = text.lower()
             if low == "":
                 if col.required or col.default is None:
-                    problems.append(Problem(table, r, col.name, "blank value in a required column (true or false expected)"))
+                    problems.append(
+                        Problem(table, r, col.name, "blank value in a required column (true or false expected)")
+                    )
                     out.append(False)
                 else:
                     out.append(bool(col.default))
@@ -216,7 +225,9 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
         if blank:
             if col.required:
                 what = "whole number" if col.type == "int" else "number"
-                problems.append(Problem(table, r, col.name, f"blank or NaN value in a required column ({what} expected)"))
+                problems.append(
+                    Problem(table, r, col.name, f"blank or NaN value in a required column ({what} expected)")
+                )
             out.append(col.default)
             continue
         if math.isinf(v) and not (col.default == INF and v > 0):
@@ -259,8 +270,15 @@ def coerce_table(name: str, frame: pd.DataFrame | None) -> tuple[pd.DataFrame, l
     for c in frame.columns:
         cname = as_text(c)
         if cname not in t.column_names:
-            problems.append(Problem(name, None, cname or "(no header)",
-                                    "unknown column (ignored)" + close_match_hint(cname, t.column_names), "warning"))
+            problems.append(
+                Problem(
+                    name,
+                    None,
+                    cname or "(no header)",
+                    "unknown column (ignored)" + close_match_hint(cname, t.column_names),
+                    "warning",
+                )
+            )
     for col in t.columns:
         if col.name not in frame.columns:
             if col.required:
@@ -280,6 +298,7 @@ def coerce_table(name: str, frame: pd.DataFrame | None) -> tuple[pd.DataFrame, l
 
 # --------------------------------------------------------------------------- settings
 
+
 def _setting_problem(label, rows, s: Setting, message, severity="error") -> Problem:
     return Problem(label, (rows or {}).get((s.section, s.name)), f"[{s.section}] {s.name}", message, severity)
 
@@ -298,7 +317,7 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
             if any(isinstance(p, (list, dict)) for p in value):
                 return s.default, f"list of names expected, got {value!r}"
         else:
-            return s.default, f"list of names expected (e.g. [\"a\", \"b\"] or a|b), got {value!r}"
+            return s.default, f'list of names expected (e.g. ["a", "b"] or a|b), got {value!r}'
         allowed = _SETTING_CHOICES.get((s.section, s.name))
         if allowed is not None:
             bad = [p for p in items if p not in allowed]
@@ -337,8 +356,9 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
     return v, None
 
 
-def coerce_settings(raw: dict | None, label: str = "settings.toml",
-                    rows: dict[tuple[str, str], int] | None = None) -> tuple[dict, list[Problem]]:
+def coerce_settings(
+    raw: dict | None, label: str = "settings.toml", rows: dict[tuple[str, str], int] | None = None
+) -> tuple[dict, list[Problem]]:
     """Settings with defaults filled, typed by the schema.
 
     Args:
@@ -359,19 +379,32 @@ def coerce_settings(raw: dict | None, label: str = "settings.toml",
         out.setdefault(s.section, {})[s.name] = list(s.default) if isinstance(s.default, list) else s.default
     for section, entries in (raw or {}).items():
         if not isinstance(entries, dict):
-            problems.append(Problem(label, None, str(section),
-                                    "setting outside any [section] (ignored)", "warning"))
+            problems.append(Problem(label, None, str(section), "setting outside any [section] (ignored)", "warning"))
             continue
         if section not in sections:
-            problems.append(Problem(label, None, f"[{section}]",
-                                    "unknown section (ignored)" + close_match_hint(str(section), sections), "warning"))
+            problems.append(
+                Problem(
+                    label,
+                    None,
+                    f"[{section}]",
+                    "unknown section (ignored)" + close_match_hint(str(section), sections),
+                    "warning",
+                )
+            )
             continue
         names = [n for (sec, n) in declared if sec == section]
         for name, value in entries.items():
             s = declared.get((section, name))
             if s is None:
-                problems.append(Problem(label, (rows or {}).get((section, name)), f"[{section}] {name}",
-                                        "unknown setting (ignored)" + close_match_hint(str(name), names), "warning"))
+                problems.append(
+                    Problem(
+                        label,
+                        (rows or {}).get((section, name)),
+                        f"[{section}] {name}",
+                        "unknown setting (ignored)" + close_match_hint(str(name), names),
+                        "warning",
+                    )
+                )
                 continue
             v, err = coerce_setting(s, value)
             if err:
@@ -381,6 +414,7 @@ def coerce_settings(raw: dict | None, label: str = "settings.toml",
 
 
 # --------------------------------------------------------------------------- cross-table rules
+
 
 def _codes(frame: pd.DataFrame, column: str) -> pd.Series:
     """Non-blank codes of a typed text column."""
@@ -407,8 +441,9 @@ def _duplicate_keys(name: str, df: pd.DataFrame) -> list[Problem]:
         first = rows[0]
         what = ", ".join(f"{k}='{group.iloc[0][k]}'" for k in key)
         for r in rows[1:]:
-            problems.append(Problem(name, _row(r), key[0],
-                                    f"duplicate key ({what}): rows {first} and {r} both have it"))
+            problems.append(
+                Problem(name, _row(r), key[0], f"duplicate key ({what}): rows {first} and {r} both have it")
+            )
     return problems
 
 
@@ -423,9 +458,14 @@ def _references(name: str, tables: dict[str, pd.DataFrame], usable: set[str]) ->
         vals = df[ref.column].astype(str)
         bad = vals[(vals != "") & ~vals.isin(known)]
         for r, v in bad.items():
-            problems.append(Problem(name, _row(r), ref.column,
-                                    f"unknown {ref.target_column} '{v}' (not in table {ref.table})"
-                                    + close_match_hint(v, known, 0.8)))
+            problems.append(
+                Problem(
+                    name,
+                    _row(r),
+                    ref.column,
+                    f"unknown {ref.target_column} '{v}' (not in table {ref.table})" + close_match_hint(v, known, 0.8),
+                )
+            )
     return problems
 
 
@@ -440,16 +480,23 @@ def _site_namespace(tables: dict[str, pd.DataFrame]) -> list[Problem]:
         for code, r in mine.items():
             if code in first_seen:
                 other, orow = first_seen[code]
-                problems.append(Problem(table, r, col,
-                                        f"site code '{code}' is already used in {other} (row {orow}); supplier, "
-                                        "plant, DC and customer codes must all differ"))
+                problems.append(
+                    Problem(
+                        table,
+                        r,
+                        col,
+                        f"site code '{code}' is already used in {other} (row {orow}); supplier, "
+                        "plant, DC and customer codes must all differ",
+                    )
+                )
         for code, r in mine.items():
             first_seen.setdefault(code, (table, r))
     return problems
 
 
-def _consistent_site_rows(table: str, col: str, df: pd.DataFrame, kind: str,
-                          attrs: tuple[str, ...] = ("lat", "lon")) -> list[Problem]:
+def _consistent_site_rows(
+    table: str, col: str, df: pd.DataFrame, kind: str, attrs: tuple[str, ...] = ("lat", "lon")
+) -> list[Problem]:
     """Rows of one site (e.g. a plant making several products) must agree on its location."""
     problems = []
     if df.empty:
@@ -472,9 +519,15 @@ def _consistent_site_rows(table: str, col: str, df: pd.DataFrame, kind: str,
                 else:
                     shown = "(" + ", ".join(as_text(row[b]) for b in attrs) + ")"
                     shown0 = "(" + ", ".join(as_text(ref[b]) for b in attrs) + ")"
-                problems.append(Problem(table, _row(r), a,
-                                        f"{kind} '{code}' has {'/'.join(attrs)} {shown} here but {shown0} on row "
-                                        f"{first_row}; every row of one site must agree"))
+                problems.append(
+                    Problem(
+                        table,
+                        _row(r),
+                        a,
+                        f"{kind} '{code}' has {'/'.join(attrs)} {shown} here but {shown0} on row "
+                        f"{first_row}; every row of one site must agree",
+                    )
+                )
                 break
     return problems
 
@@ -493,21 +546,41 @@ def _lane_sites(tables: dict[str, pd.DataFrame]) -> list[Problem]:
         ok_kind, dk_kind = kinds.get(o), kinds.get(d)
         bad = False
         if o and ok_kind is None:
-            problems.append(Problem("lanes", _row(r), "origin",
-                                    f"unknown origin site '{o}' (not a supplier, plant or DC)" + close_match_hint(o, kinds, 0.8)))
+            problems.append(
+                Problem(
+                    "lanes",
+                    _row(r),
+                    "origin",
+                    f"unknown origin site '{o}' (not a supplier, plant or DC)" + close_match_hint(o, kinds, 0.8),
+                )
+            )
             bad = True
         elif o and ok_kind not in ORIGIN_KINDS:
-            problems.append(Problem("lanes", _row(r), "origin",
-                                    f"origin '{o}' is a {ok_kind}; lanes start at a supplier, plant or DC"))
+            problems.append(
+                Problem(
+                    "lanes", _row(r), "origin", f"origin '{o}' is a {ok_kind}; lanes start at a supplier, plant or DC"
+                )
+            )
             bad = True
         if d and dk_kind is None:
-            problems.append(Problem("lanes", _row(r), "destination",
-                                    f"unknown destination site '{d}' (not a plant, DC or customer)"
-                                    + close_match_hint(d, kinds, 0.8)))
+            problems.append(
+                Problem(
+                    "lanes",
+                    _row(r),
+                    "destination",
+                    f"unknown destination site '{d}' (not a plant, DC or customer)" + close_match_hint(d, kinds, 0.8),
+                )
+            )
             bad = True
         elif d and dk_kind not in DESTINATION_KINDS:
-            problems.append(Problem("lanes", _row(r), "destination",
-                                    f"destination '{d}' is a {dk_kind}; lanes end at a plant, DC or customer"))
+            problems.append(
+                Problem(
+                    "lanes",
+                    _row(r),
+                    "destination",
+                    f"destination '{d}' is a {dk_kind}; lanes end at a plant, DC or customer",
+                )
+            )
             bad = True
         if bad or not o or not d:
             continue
@@ -516,9 +589,14 @@ def _lane_sites(tables: dict[str, pd.DataFrame]) -> list[Problem]:
             continue
         leg = f"{ok_kind}-{dk_kind}"
         if leg not in LEGS:
-            problems.append(Problem("lanes", _row(r), "destination",
-                                    f"a lane from a {ok_kind} to a {dk_kind} is not a leg of the network; "
-                                    f"legs are: {', '.join(LEGS)}"))
+            problems.append(
+                Problem(
+                    "lanes",
+                    _row(r),
+                    "destination",
+                    f"a lane from a {ok_kind} to a {dk_kind} is not a leg of the network; legs are: {', '.join(LEGS)}",
+                )
+            )
     return problems
 
 
@@ -529,12 +607,21 @@ def _mode_rules(tables: dict[str, pd.DataFrame]) -> list[Problem]:
         legs = [p.strip() for p in str(row["legs"]).replace(",", "|").split("|") if p.strip()]
         bad = [p for p in legs if p not in LEGS]
         if bad:
-            problems.append(Problem("modes", _row(r), "legs",
-                                    f"unknown leg(s) {', '.join(repr(b) for b in bad)}; legs are: {', '.join(LEGS)}"))
+            problems.append(
+                Problem(
+                    "modes",
+                    _row(r),
+                    "legs",
+                    f"unknown leg(s) {', '.join(repr(b) for b in bad)}; legs are: {', '.join(LEGS)}",
+                )
+            )
         lo, hi = row["min_km"], row["max_km"]
         if pd.notna(lo) and pd.notna(hi) and lo > hi:
-            problems.append(Problem("modes", _row(r), "min_km",
-                                    f"min_km {format_number(lo)} is greater than max_km {format_number(hi)}"))
+            problems.append(
+                Problem(
+                    "modes", _row(r), "min_km", f"min_km {format_number(lo)} is greater than max_km {format_number(hi)}"
+                )
+            )
     return problems
 
 
@@ -548,27 +635,50 @@ def _other_rules(tables: dict[str, pd.DataFrame], given: set[str], usable: set[s
     if "products" in usable and "demand" in usable:
         materials = set(_codes(products[products["kind"] == "material"], "product"))
         d = tables["demand"]
-        problems += _rows_where("demand", d, d["product"].isin(materials), "product",
-                                lambda row: f"'{row['product']}' is a material (products.kind = material); "
-                                            "demand must be for finished products")
+        problems += _rows_where(
+            "demand",
+            d,
+            d["product"].isin(materials),
+            "product",
+            lambda row: (
+                f"'{row['product']}' is a material (products.kind = material); demand must be for finished products"
+            ),
+        )
     bom = tables["bill_of_materials"]
-    problems += _rows_where("bill_of_materials", bom, (bom["product"] == bom["material"]) & (bom["product"] != ""),
-                            "material", lambda row: f"'{row['product']}' cannot be a material of itself")
+    problems += _rows_where(
+        "bill_of_materials",
+        bom,
+        (bom["product"] == bom["material"]) & (bom["product"] != ""),
+        "material",
+        lambda row: f"'{row['product']}' cannot be a material of itself",
+    )
     if "service_classes" in given and not tables["service_classes"].empty and "customers" in usable:
         classes = set(_codes(tables["service_classes"], "service_class"))
         c = tables["customers"]
-        problems += _rows_where("customers", c, (c["service_class"] != "") & ~c["service_class"].isin(classes),
-                                "service_class",
-                                lambda row: f"unknown service class '{row['service_class']}' "
-                                            "(not in table service_classes)")
+        problems += _rows_where(
+            "customers",
+            c,
+            (c["service_class"] != "") & ~c["service_class"].isin(classes),
+            "service_class",
+            lambda row: f"unknown service class '{row['service_class']}' (not in table service_classes)",
+        )
     edges = tables["road_edges"]
     if not edges.empty:
         modes = set(_codes(tables["modes"], "mode"))
-        problems += _rows_where("road_edges", edges, (edges["mode"] != "") & ~edges["mode"].isin(modes), "mode",
-                                lambda row: f"unknown mode '{row['mode']}' (not in table modes)")
-        problems += _rows_where("road_edges", edges,
-                                (edges["from_node"] == edges["to_node"]) & (edges["from_node"] != ""),
-                                "to_node", lambda row: f"edge from '{row['from_node']}' to itself")
+        problems += _rows_where(
+            "road_edges",
+            edges,
+            (edges["mode"] != "") & ~edges["mode"].isin(modes),
+            "mode",
+            lambda row: f"unknown mode '{row['mode']}' (not in table modes)",
+        )
+        problems += _rows_where(
+            "road_edges",
+            edges,
+            (edges["from_node"] == edges["to_node"]) & (edges["from_node"] != ""),
+            "to_node",
+            lambda row: f"edge from '{row['from_node']}' to itself",
+        )
     return problems
 
 
@@ -576,25 +686,44 @@ def _dc_count_rules(tables: dict[str, pd.DataFrame], settings: dict, label: str,
     policy = settings.get("policy", {})
     lo, hi = int(policy.get("min_open_dcs", 0)), int(policy.get("max_open_dcs", -1))
     problems = []
-    where = (rows or {})
+    where = rows or {}
     if hi >= 0 and lo > hi:
-        problems.append(Problem(label, where.get(("policy", "min_open_dcs")), "[policy] min_open_dcs",
-                                f"min_open_dcs ({lo}) is greater than max_open_dcs ({hi})"))
+        problems.append(
+            Problem(
+                label,
+                where.get(("policy", "min_open_dcs")),
+                "[policy] min_open_dcs",
+                f"min_open_dcs ({lo}) is greater than max_open_dcs ({hi})",
+            )
+        )
     dcs = tables["dcs"]
     names = dcs.drop_duplicates("dc") if not dcs.empty else dcs
     can_open = int((names["force"] != "closed").sum()) if not names.empty else 0
     forced_open = int((names["force"] == "open").sum()) if not names.empty else 0
     if lo > can_open:
-        problems.append(Problem(label, where.get(("policy", "min_open_dcs")), "[policy] min_open_dcs",
-                                f"min_open_dcs ({lo}) is more than the {can_open} DC(s) that may be open "
-                                "(table dcs, force not 'closed')"))
+        problems.append(
+            Problem(
+                label,
+                where.get(("policy", "min_open_dcs")),
+                "[policy] min_open_dcs",
+                f"min_open_dcs ({lo}) is more than the {can_open} DC(s) that may be open "
+                "(table dcs, force not 'closed')",
+            )
+        )
     if hi >= 0 and forced_open > hi:
-        problems.append(Problem(label, where.get(("policy", "max_open_dcs")), "[policy] max_open_dcs",
-                                f"max_open_dcs ({hi}) is less than the {forced_open} DC(s) forced open in table dcs"))
+        problems.append(
+            Problem(
+                label,
+                where.get(("policy", "max_open_dcs")),
+                "[policy] max_open_dcs",
+                f"max_open_dcs ({hi}) is less than the {forced_open} DC(s) forced open in table dcs",
+            )
+        )
     return problems
 
 
 # --------------------------------------------------------------------------- reachability
+
 
 def _reach(starts: pd.DataFrame, lanes: pd.DataFrame) -> pd.DataFrame:
     """Every (node, item) an item can get to from its start nodes over the lanes.
@@ -607,8 +736,10 @@ def _reach(starts: pd.DataFrame, lanes: pd.DataFrame) -> pd.DataFrame:
     cols = ["node", "item"]
     if starts.empty:
         return pd.DataFrame({"node": pd.Series(dtype=object), "item": pd.Series(dtype=object)})
-    ln = lanes.assign(product=lanes["product"].fillna("").astype(str),
-                      capacity=pd.to_numeric(lanes["capacity"], errors="coerce").fillna(INF))
+    ln = lanes.assign(
+        product=lanes["product"].fillna("").astype(str),
+        capacity=pd.to_numeric(lanes["capacity"], errors="coerce").fillna(INF),
+    )
     specific = ln[ln["product"] != ""]
     spec_open = specific[specific["capacity"] > 0][["origin", "product", "destination", "destination_kind"]]
     spec_open = spec_open.drop_duplicates()
@@ -625,8 +756,12 @@ def _reach(starts: pd.DataFrame, lanes: pd.DataFrame) -> pd.DataFrame:
         a = a[["destination", "item", "destination_kind"]]
         b = frontier.merge(general, left_on="node", right_on="origin")
         if not b.empty and not blocked.empty:
-            b = b.merge(blocked.rename(columns={"product": "item"}), on=["origin", "destination", "mode", "item"],
-                        how="left", indicator=True)
+            b = b.merge(
+                blocked.rename(columns={"product": "item"}),
+                on=["origin", "destination", "mode", "item"],
+                how="left",
+                indicator=True,
+            )
             b = b[b["_merge"] == "left_only"]
         b = b[["destination", "item", "destination_kind"]]
         new = pd.concat([a, b], ignore_index=True).rename(columns={"destination": "node"})
@@ -684,8 +819,13 @@ def unreachable_demand(tables: dict[str, pd.DataFrame], lanes: pd.DataFrame) -> 
             for _, row in chk[chk["_merge"] == "left_only"].iterrows():
                 lacking.setdefault((row["plant"], row["product"]), []).append(row["material"])
     able = plants[[(p, q) not in lacking for p, q in zip(plants["plant"], plants["product"])]]
-    starts = pd.concat([able.rename(columns={"plant": "node", "product": "item"}),
-                        suppliers.rename(columns={"supplier": "node", "product": "item"})], ignore_index=True)
+    starts = pd.concat(
+        [
+            able.rename(columns={"plant": "node", "product": "item"}),
+            suppliers.rename(columns={"supplier": "node", "product": "item"}),
+        ],
+        ignore_index=True,
+    )
     wanted = set(demand["product"].astype(str))
     starts = starts[starts["item"].isin(wanted)]
     reached = _reach(starts, ln)
@@ -706,15 +846,20 @@ def unreachable_demand(tables: dict[str, pd.DataFrame], lanes: pd.DataFrame) -> 
             col = "product"
         elif not sl and all((m, p) in lacking for m in mk):
             why = "; ".join(f"{m} lacks {_names(lacking[(m, p)])}" for m in sorted(set(mk))[:3])
-            msg = (f"'{p}' for customer '{c}' has no source: every plant making it lacks a lane path for a "
-                   f"material of its bill of materials ({why}) and no supplier offers it")
+            msg = (
+                f"'{p}' for customer '{c}' has no source: every plant making it lacks a lane path for a "
+                f"material of its bill of materials ({why}) and no supplier offers it"
+            )
             col = "product"
         else:
-            src = "; ".join(x for x in (f"plants: {_names(mk)}" if mk else "", f"suppliers: {_names(sl)}" if sl else "")
-                            if x)
-            msg = (f"no lane path reaches customer '{c}' with '{p}' from any source ({src}), directly or via a DC; "
-                   "check the modes' min_km/max_km and legs, the settings' lanes.legs and lanes.max_dc_customer_km, "
-                   "DCs forced closed, and lanes with available = false")
+            src = "; ".join(
+                x for x in (f"plants: {_names(mk)}" if mk else "", f"suppliers: {_names(sl)}" if sl else "") if x
+            )
+            msg = (
+                f"no lane path reaches customer '{c}' with '{p}' from any source ({src}), directly or via a DC; "
+                "check the modes' min_km/max_km and legs, the settings' lanes.legs and lanes.max_dc_customer_km, "
+                "DCs forced closed, and lanes with available = false"
+            )
             col = "customer"
         problems.append(Problem("demand", r, col, msg))
     return problems
@@ -722,21 +867,33 @@ def unreachable_demand(tables: dict[str, pd.DataFrame], lanes: pd.DataFrame) -> 
 
 # --------------------------------------------------------------------------- entry points
 
-def _lane_builder():
-    """``netopt.lanes.build_lanes`` when that module exists, else None."""
-    try:
-        from netopt.lanes import build_lanes
-    except ModuleNotFoundError as e:  # only a missing netopt.lanes, not a broken one
-        if e.name != "netopt.lanes":
-            raise
-        return None
-    return build_lanes
+
+_LANE_BUILDER: list[Callable] = []  # set by netopt.network.lanes on import (the stage after this one)
 
 
-def validate_and_coerce(tables: dict[str, pd.DataFrame | None], settings: dict | None,
-                        sources: dict[str, str] | None = None, *,
-                        settings_rows: dict[tuple[str, str], int] | None = None,
-                        reachability: bool = True) -> tuple[dict[str, pd.DataFrame], dict, list[Problem]]:
+def register_lane_builder(build: Callable) -> None:
+    """Let validation check demand reachability with the network stage's lane builder.
+
+    The data stage never imports the network stage; the network stage registers its
+    builder here when it is imported (``import netopt`` always imports it).
+    """
+    _LANE_BUILDER[:] = [build]
+
+
+def _lane_builder() -> Callable | None:
+    """The registered lane builder, or None when the network stage is not imported."""
+    return _LANE_BUILDER[0] if _LANE_BUILDER else None
+
+
+def validate_and_coerce(
+    tables: dict[str, pd.DataFrame | None],
+    settings: dict | None,
+    sources: dict[str, str] | None = None,
+    *,
+    settings_rows: dict[tuple[str, str], int] | None = None,
+    reachability: bool = True,
+    built: dict | None = None,
+) -> tuple[dict[str, pd.DataFrame], dict, list[Problem]]:
     """Type and check a whole case.
 
     Args:
@@ -750,6 +907,8 @@ def validate_and_coerce(tables: dict[str, pd.DataFrame | None], settings: dict |
         settings_rows: sheet row of each ``(section, name)`` when read from a workbook.
         reachability: run the demand reachability check (needs the lane builder) when
             nothing else is wrong.
+        built: when given, receives ``built["lanes"]``, the lane table the reachability
+            check built (so the solve that follows need not build it again).
 
     Returns:
         ``(typed tables, typed settings, problems)``: every declared table typed with
@@ -770,13 +929,20 @@ def validate_and_coerce(tables: dict[str, pd.DataFrame | None], settings: dict |
     for name, t in TABLES.items():
         frame = tables.get(name) if name in given else None
         if frame is None and t.required:
-            problems.append(Problem(name, None, None,
-                                    f"required table is missing (expected {t.file_name} in the case folder "
-                                    f"or a sheet '{name}' in the workbook)"))
+            problems.append(
+                Problem(
+                    name,
+                    None,
+                    None,
+                    f"required table is missing (expected {t.file_name} in the case folder "
+                    f"or a sheet '{name}' in the workbook)",
+                )
+            )
         typed[name], probs = coerce_table(name, frame)
         problems += probs
-        if frame is not None and not any(p.severity == "error" and p.row is None and p.column in t.column_names
-                                         for p in probs):
+        if frame is not None and not any(
+            p.severity == "error" and p.row is None and p.column in t.column_names for p in probs
+        ):
             usable.add(name)
     typed_settings, probs = coerce_settings(settings, label, settings_rows)
     problems += probs
@@ -799,8 +965,11 @@ def validate_and_coerce(tables: dict[str, pd.DataFrame | None], settings: dict |
     if reachability and not any(p.severity == "error" for p in problems):
         build_lanes = _lane_builder()
         if build_lanes is None:
-            problems.append(Problem("lanes", None, None,
-                                    "demand reachability not checked: the lane builder is not available", "warning"))
+            problems.append(
+                Problem(
+                    "lanes", None, None, "demand reachability not checked: the lane builder is not available", "warning"
+                )
+            )
         else:
             try:
                 lanes = build_lanes(Case("(validation)", typed, typed_settings))
@@ -808,6 +977,8 @@ def validate_and_coerce(tables: dict[str, pd.DataFrame | None], settings: dict |
                 problems += e.problems + e.warnings
             else:
                 problems += unreachable_demand(typed, lanes)
+                if built is not None:
+                    built["lanes"] = lanes
     return typed, typed_settings, sort_problems(problems)
 
 
@@ -825,7 +996,8 @@ def sort_problems(problems: list[Problem]) -> list[Problem]:
     return sorted(problems, key=key)
 
 
-def validate(tables: dict[str, pd.DataFrame | None], settings: dict | None,
-             sources: dict[str, str] | None = None) -> list[Problem]:
+def validate(
+    tables: dict[str, pd.DataFrame | None], settings: dict | None, sources: dict[str, str] | None = None
+) -> list[Problem]:
     """Every problem of a case at once (errors and warnings); see :func:`validate_and_coerce`."""
     return validate_and_coerce(tables, settings, sources)[2]

@@ -65,6 +65,9 @@ class Case:
     path: Path | None = None
     scenarios: list[dict] = field(default_factory=list)
     warnings: list[Problem] = field(default_factory=list)
+    generated_lanes: pd.DataFrame | None = field(default=None, repr=False, compare=False)
+    """The lane table (``netopt.network.lanes.case_lanes``), built once per case and shared by
+    every solve and study of it; :meth:`copy` drops it, since a copy is made to be changed."""
 
     def __getattr__(self, item: str) -> pd.DataFrame:
         tables = self.__dict__.get("tables", {})
@@ -75,7 +78,13 @@ class Case:
     def setting(self, section: str, name: str):
         return self.settings[section][name]
 
-    def copy(self) -> "Case":
+    def copy(self) -> Case:
         """Deep copy (tables and settings), for scenario changes."""
-        return Case(self.name, {k: v.copy() for k, v in self.tables.items()}, copy.deepcopy(self.settings),
-                    self.path, copy.deepcopy(self.scenarios), list(self.warnings))
+        return Case(
+            self.name,
+            {k: v.copy() for k, v in self.tables.items()},
+            copy.deepcopy(self.settings),
+            self.path,
+            copy.deepcopy(self.scenarios),
+            list(self.warnings),
+        )

@@ -18,14 +18,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-DISCLAIMER = ("netopt results are decision support, not decisions. They are only as good as the input data "
-              "(demand, costs, capacities, lanes) and the assumptions in the settings. Legal, safety, customs "
-              "and labour rules (driving hours, site permits, works councils, consultation duties) are the "
-              "user's to check locally before acting on any plan.")
-
-MONEY_HINTS = ("cost", "amount", "value", "penalty", "objective", "delta", "price")
-SHARE_HINTS = ("share", "utilisation", "pct", "gap")
-DAY_HINTS = ("days",)
+from netopt.present.labels import DAY_HINTS, DISCLAIMER, MONEY_HINTS, SHARE_HINTS
+from netopt.present.report import write_report
 
 
 @contextlib.contextmanager
@@ -108,18 +102,19 @@ def _unit_format(unit: str, currency: str = "") -> str:
 
 def _sheet_name(name: str, taken: set[str]) -> str:
     """A valid, unique sheet name: no []:*?/\\, at most 31 characters."""
-    base = "".join("_" if ch in '[]:*?/\\' else ch for ch in str(name)).strip("'") or "sheet"
+    base = "".join("_" if ch in "[]:*?/\\" else ch for ch in str(name)).strip("'") or "sheet"
     base = base[:31]
     out, k = base, 2
     while out.lower() in taken:
         suffix = f"~{k}"
-        out, k = base[:31 - len(suffix)] + suffix, k + 1
+        out, k = base[: 31 - len(suffix)] + suffix, k + 1
     taken.add(out.lower())
     return out
 
 
-def write_workbook(sheets: dict[str, pd.DataFrame], path: str | Path, notes: str | None = None,
-                   currency: str = "") -> None:
+def write_workbook(
+    sheets: dict[str, pd.DataFrame], path: str | Path, notes: str | None = None, currency: str = ""
+) -> None:
     """One sheet per table: bold header, frozen header row, number formats, column widths; values only.
 
     Number formats follow column names (shares as %, days, money in ``currency``); a table
@@ -174,7 +169,7 @@ def write_workbook(sheets: dict[str, pd.DataFrame], path: str | Path, notes: str
         ws.freeze_panes = "A2"
         for j, c in enumerate(cols, start=1):
             sample = [len(str(c))] + [_shown_len(x) for x in values[:200, j - 1]] if len(values) else [len(str(c))]
-            extra = len(currency) + 1 if fmts[j - 1] and currency and "#,##0\"" in fmts[j - 1] else 0
+            extra = len(currency) + 1 if fmts[j - 1] and currency and '#,##0"' in fmts[j - 1] else 0
             width = min(45, max(9, max(sample) + 2 + extra))
             ws.column_dimensions[ws.cell(row=1, column=j).column_letter].width = width
     wb.save(path)
@@ -243,6 +238,7 @@ def write_result(result, out: str | Path, workbook: bool = True) -> Path:
 
 def markdown_table(df: pd.DataFrame, floatfmt: str = ",.0f") -> str:
     """A GitHub-style Markdown table (numbers formatted, text escaped)."""
+
     def fmt(v, col):
         if v is None or (isinstance(v, float) and math.isnan(v)):
             return ""
@@ -256,6 +252,7 @@ def markdown_table(df: pd.DataFrame, floatfmt: str = ",.0f") -> str:
                 return f"{float(v):.2f}"
             return format(float(v), floatfmt)
         return str(v).replace("|", "\\|")
+
     cols = [str(c) for c in df.columns]
     lines = ["| " + " | ".join(cols) + " |", "|" + "|".join("---" for _ in cols) + "|"]
     for row in df.itertuples(index=False):
@@ -267,8 +264,7 @@ def _label_folder(label: str) -> str:
     return "".join(ch if ch.isalnum() or ch in "-_" else "_" for ch in label).strip("_")
 
 
-def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None = None,
-              report: bool = True) -> Path:
+def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None = None, report: bool = True) -> Path:
     """Write a base-plus-scenarios run atomically.
 
     Layout: ``comparison.csv``, ``comparison.md``, ``results.xlsx`` (comparison and the
@@ -279,15 +275,22 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
     with atomic_folder(out) as tmp:
         run.comparison.to_csv(tmp / "comparison.csv", index=False)
         (tmp / "comparison.md").write_text(
-            f"# Scenario comparison: {run.base.case_name}\n\n" + markdown_table(comparison_view(run.comparison))
-            + "\n" + DISCLAIMER + "\n")
+            f"# Scenario comparison: {run.base.case_name}\n\n"
+            + markdown_table(comparison_view(run.comparison))
+            + "\n"
+            + DISCLAIMER
+            + "\n"
+        )
         write_result_files(run.base, tmp / "base")
         for label, r in run.results.items():
             if label == "base":
                 continue
             write_result_files(r, tmp / "scenarios" / _label_folder(label), workbook=False)
-        frontiers = {f"frontier_{_label_folder(name)}": df for name, df in getattr(run, "frontiers", {}).items()
-                     if df is not None}
+        frontiers = {
+            f"frontier_{_label_folder(name)}": df
+            for name, df in getattr(run, "frontiers", {}).items()
+            if df is not None
+        }
         for name, df in frontiers.items():
             df.to_csv(tmp / f"{name}.csv", index=False)
         sheets = {"comparison": run.comparison}
@@ -295,27 +298,35 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
         sheets.update(extra_sheets or {})
         write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER, currency=_currency_of(run.base))
-        summary = {"case": run.base.case_name, "disclaimer": DISCLAIMER,
-                   "scenarios": _jsonable(run.comparison.to_dict(orient="records")),
-                   "base": _jsonable(run.base.summary())}
+        summary = {
+            "case": run.base.case_name,
+            "disclaimer": DISCLAIMER,
+            "scenarios": _jsonable(run.comparison.to_dict(orient="records")),
+            "base": _jsonable(run.base.summary()),
+        }
         (tmp / "summary.json").write_text(json.dumps(summary, indent=2))
         if report:
-            try:
-                from netopt.report import write_report
-            except ImportError:
-                pass
-            else:
-                extra = {("frontier" if len(frontiers) == 1 else k): v for k, v in frontiers.items()}
-                write_report(run, tmp / "report.html", extra=extra or None)
+            extra = {("frontier" if len(frontiers) == 1 else k): v for k, v in frontiers.items()}
+            write_report(run, tmp / "report.html", extra=extra or None)
     return out
 
 
-COMPARISON_VIEW = [("scenario", "scenario"), ("resolve", "re-solve"), ("total_cost", "total cost"),
-                   ("delta_cost", "Δ vs base"), ("delta_pct", "Δ share"), ("dcs_open", "DCs"),
-                   ("share_within_window", "within window share"), ("avg_transit_days", "avg transit days"),
-                   ("max_supplier_share", "max supplier share"), ("lost_units", "lost units"),
-                   ("lost_value", "lost value"), ("co2e_tonnes", "CO2e t"), ("status", "status"),
-                   ("verified", "verified")]
+COMPARISON_VIEW = [
+    ("scenario", "scenario"),
+    ("resolve", "re-solve"),
+    ("total_cost", "total cost"),
+    ("delta_cost", "Δ vs base"),
+    ("delta_pct", "Δ share"),
+    ("dcs_open", "DCs"),
+    ("share_within_window", "within window share"),
+    ("avg_transit_days", "avg transit days"),
+    ("max_supplier_share", "max supplier share"),
+    ("lost_units", "lost units"),
+    ("lost_value", "lost value"),
+    ("co2e_tonnes", "CO2e t"),
+    ("status", "status"),
+    ("verified", "verified"),
+]
 
 
 def comparison_view(comparison: pd.DataFrame) -> pd.DataFrame:

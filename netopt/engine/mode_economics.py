@@ -28,10 +28,37 @@ import numpy as np
 import pandas as pd
 
 KEYS = ["origin", "destination", "product"]
-COLUMNS = ["origin", "destination", "leg", "product", "quantity", "mode", "chosen", "flow", "share", "distance_km",
-           "transit_days", "within_window", "capacity", "pruned", "freight", "pipeline", "carbon", "total",
-           "co2_kg_per_unit", "freight_cost", "pipeline_cost", "carbon_cost", "total_cost", "co2_kg",
-           "switch_cost", "switch_co2_kg", "cost_per_t_co2_saved", "cheapest", "lowest_co2"]
+COLUMNS = [
+    "origin",
+    "destination",
+    "leg",
+    "product",
+    "quantity",
+    "mode",
+    "chosen",
+    "flow",
+    "share",
+    "distance_km",
+    "transit_days",
+    "within_window",
+    "capacity",
+    "pruned",
+    "freight",
+    "pipeline",
+    "carbon",
+    "total",
+    "co2_kg_per_unit",
+    "freight_cost",
+    "pipeline_cost",
+    "carbon_cost",
+    "total_cost",
+    "co2_kg",
+    "switch_cost",
+    "switch_co2_kg",
+    "cost_per_t_co2_saved",
+    "cheapest",
+    "lowest_co2",
+]
 
 
 def mode_economics(net, flows: pd.DataFrame) -> pd.DataFrame:
@@ -41,8 +68,22 @@ def mode_economics(net, flows: pd.DataFrame) -> pd.DataFrame:
     arcs = net.arcs_all if getattr(net, "arcs_all", None) is not None else net.arcs
     used = flows.groupby(KEYS + ["mode"], as_index=False)["quantity"].sum().rename(columns={"quantity": "flow"})
     pairs = used.groupby(KEYS, as_index=False)["flow"].sum().rename(columns={"flow": "quantity"})
-    a = arcs[KEYS + ["leg", "mode", "distance_km", "transit_days", "within_window", "capacity", "lane_capacity",
-                     "freight_per_unit", "pipeline_per_unit", "carbon_per_unit", "co2_kg_per_unit"]]
+    a = arcs[
+        KEYS
+        + [
+            "leg",
+            "mode",
+            "distance_km",
+            "transit_days",
+            "within_window",
+            "capacity",
+            "lane_capacity",
+            "freight_per_unit",
+            "pipeline_per_unit",
+            "carbon_per_unit",
+            "co2_kg_per_unit",
+        ]
+    ]
     t = pairs.merge(a, on=KEYS, how="inner").merge(used, on=KEYS + ["mode"], how="left")
     kept = net.arcs[KEYS + ["mode"]].assign(_kept=True)
     t = t.merge(kept, on=KEYS + ["mode"], how="left")
@@ -55,8 +96,13 @@ def mode_economics(net, flows: pd.DataFrame) -> pd.DataFrame:
     t = t.rename(columns={"freight_per_unit": "freight", "pipeline_per_unit": "pipeline", "carbon_per_unit": "carbon"})
     t["total"] = t["freight"] + t["pipeline"] + t["carbon"]
     q = t["quantity"].to_numpy(float)
-    for col, src in (("freight_cost", "freight"), ("pipeline_cost", "pipeline"), ("carbon_cost", "carbon"),
-                     ("total_cost", "total"), ("co2_kg", "co2_kg_per_unit")):
+    for col, src in (
+        ("freight_cost", "freight"),
+        ("pipeline_cost", "pipeline"),
+        ("carbon_cost", "carbon"),
+        ("total_cost", "total"),
+        ("co2_kg", "co2_kg_per_unit"),
+    ):
         t[col] = q * t[src].to_numpy(float)
     actual = (t["flow"] * t["total"]).groupby([t[k] for k in KEYS]).transform("sum")
     actual_co2 = (t["flow"] * t["co2_kg_per_unit"]).groupby([t[k] for k in KEYS]).transform("sum")

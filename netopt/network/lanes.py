@@ -10,20 +10,38 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case, CaseError, Problem
-from netopt.geo import haversine_km, pairwise_km, shortest_path_km
-from netopt.schema import LEGS
+from netopt.data.case import Case, CaseError, Problem
+from netopt.data.schema import LEGS
+from netopt.data.validate import register_lane_builder
+from netopt.network.geo import haversine_km, pairwise_km, shortest_path_km
 
 LANE_COLUMNS = [
-    "origin", "origin_kind", "destination", "destination_kind", "leg", "mode", "product",
-    "distance_km", "transit_days", "cost_per_unit", "capacity", "source",
-    "origin_lat", "origin_lon", "destination_lat", "destination_lon",
+    "origin",
+    "origin_kind",
+    "destination",
+    "destination_kind",
+    "leg",
+    "mode",
+    "product",
+    "distance_km",
+    "transit_days",
+    "cost_per_unit",
+    "capacity",
+    "source",
+    "origin_lat",
+    "origin_lon",
+    "destination_lat",
+    "destination_lon",
 ]
 _KEY = ["origin", "destination", "mode", "product"]
 _ORIGIN_KINDS = ("supplier", "plant", "dc")
 _DESTINATION_KINDS = ("plant", "dc", "customer")
-_SITE_TABLES = {"supplier": ("suppliers", "supplier"), "plant": ("plants", "plant"),
-                "dc": ("dcs", "dc"), "customer": ("customers", "customer")}
+_SITE_TABLES = {
+    "supplier": ("suppliers", "supplier"),
+    "plant": ("plants", "plant"),
+    "dc": ("dcs", "dc"),
+    "customer": ("customers", "customer"),
+}
 
 
 def _text(s: pd.Series) -> pd.Series:
@@ -35,11 +53,13 @@ def _sites(case: Case, kind: str) -> pd.DataFrame:
     table, col = _SITE_TABLES[kind]
     df = case.tables[table].sort_index()
     if df.empty:
-        return pd.DataFrame({"lat": pd.Series(dtype=float), "lon": pd.Series(dtype=float)},
-                            index=pd.Index([], dtype=str))
+        return pd.DataFrame(
+            {"lat": pd.Series(dtype=float), "lon": pd.Series(dtype=float)}, index=pd.Index([], dtype=str)
+        )
     codes = _text(df[col])
-    out = pd.DataFrame({"code": codes.to_numpy(), "lat": df["lat"].astype(float).to_numpy(),
-                        "lon": df["lon"].astype(float).to_numpy()})
+    out = pd.DataFrame(
+        {"code": codes.to_numpy(), "lat": df["lat"].astype(float).to_numpy(), "lon": df["lon"].astype(float).to_numpy()}
+    )
     out = out.drop_duplicates("code", keep="first").set_index("code")
     out.index.name = None
     return out
@@ -69,8 +89,9 @@ def _leg_masks(case: Case, sites: dict[str, pd.DataFrame]) -> dict[str, np.ndarr
     t = case.tables
     sup = pd.DataFrame({"site": _text(t["suppliers"]["supplier"]), "product": _text(t["suppliers"]["product"])})
     plt = pd.DataFrame({"site": _text(t["plants"]["plant"]), "product": _text(t["plants"]["product"])})
-    bom = pd.DataFrame({"product": _text(t["bill_of_materials"]["product"]),
-                        "material": _text(t["bill_of_materials"]["material"])})
+    bom = pd.DataFrame(
+        {"product": _text(t["bill_of_materials"]["product"]), "material": _text(t["bill_of_materials"]["material"])}
+    )
     dem = pd.DataFrame({"site": _text(t["demand"]["customer"]), "product": _text(t["demand"]["product"])})
     prods = t["products"]
     finished = set(_text(prods["product"])[_text(prods["kind"]).replace("", "finished") == "finished"])
@@ -151,8 +172,7 @@ def build_lanes(case: Case) -> pd.DataFrame:
     default_legs = _parse_legs(lane_settings.get("legs", []))
     for leg in default_legs:
         if leg not in LEGS:
-            problems.append(Problem("settings", None, "lanes.legs",
-                                    f"unknown leg {leg!r}; legs are {', '.join(LEGS)}"))
+            problems.append(Problem("settings", None, "lanes.legs", f"unknown leg {leg!r}; legs are {', '.join(LEGS)}"))
     cap_customer = float(lane_settings.get("max_dc_customer_km", -1.0))
 
     mode_info: dict[str, dict] = {}
@@ -240,15 +260,28 @@ def build_lanes(case: Case) -> pd.DataFrame:
             if len(ii) == 0:
                 continue
             km = dist[ii, jj]
-            chunks.append(pd.DataFrame({
-                "origin": o.index.to_numpy()[ii], "origin_kind": ok,
-                "destination": d.index.to_numpy()[jj], "destination_kind": dk,
-                "leg": leg, "mode": name, "product": "",
-                "distance_km": km, "transit_days": km / info["speed"] + info["handling"],
-                "cost_per_unit": np.nan, "capacity": np.inf, "source": "generated",
-                "origin_lat": o["lat"].to_numpy()[ii], "origin_lon": o["lon"].to_numpy()[ii],
-                "destination_lat": d["lat"].to_numpy()[jj], "destination_lon": d["lon"].to_numpy()[jj],
-            }))
+            chunks.append(
+                pd.DataFrame(
+                    {
+                        "origin": o.index.to_numpy()[ii],
+                        "origin_kind": ok,
+                        "destination": d.index.to_numpy()[jj],
+                        "destination_kind": dk,
+                        "leg": leg,
+                        "mode": name,
+                        "product": "",
+                        "distance_km": km,
+                        "transit_days": km / info["speed"] + info["handling"],
+                        "cost_per_unit": np.nan,
+                        "capacity": np.inf,
+                        "source": "generated",
+                        "origin_lat": o["lat"].to_numpy()[ii],
+                        "origin_lon": o["lon"].to_numpy()[ii],
+                        "destination_lat": d["lat"].to_numpy()[jj],
+                        "destination_lon": d["lon"].to_numpy()[jj],
+                    }
+                )
+            )
 
     # ---- explicit lanes: fill blanks, override, remove
     avail = explicit[explicit["available"]].copy()
@@ -259,8 +292,9 @@ def build_lanes(case: Case) -> pd.DataFrame:
         computed = np.empty(len(avail))
         for name in pd.unique(names):
             sel = names == name
-            computed[sel] = row_distances(name, avail["origin"].to_numpy()[sel],
-                                          avail["destination"].to_numpy()[sel], gc[sel])
+            computed[sel] = row_distances(
+                name, avail["origin"].to_numpy()[sel], avail["destination"].to_numpy()[sel], gc[sel]
+            )
         given = avail["distance_km"].to_numpy(dtype=float)
         km = np.where(np.isnan(given), computed, given)
         speed = np.array([mode_info[n]["speed"] for n in names])
@@ -289,8 +323,10 @@ def build_lanes(case: Case) -> pd.DataFrame:
             lanes = lanes[~pd.MultiIndex.from_frame(lanes[_KEY]).isin(pd.MultiIndex.from_frame(one[_KEY]))]
             # bar the product from a lane still open to every product
             every = lanes[lanes["product"] == ""]
-            bars = every.merge(one[["origin", "destination", "mode", "product"]].rename(columns={"product": "barred"}),
-                               on=["origin", "destination", "mode"])
+            bars = every.merge(
+                one[["origin", "destination", "mode", "product"]].rename(columns={"product": "barred"}),
+                on=["origin", "destination", "mode"],
+            )
             if len(bars):
                 bars = bars.assign(product=bars["barred"], capacity=0.0, cost_per_unit=np.nan, source="explicit")
                 lanes = pd.concat([lanes, bars[LANE_COLUMNS]], ignore_index=True)
@@ -298,14 +334,15 @@ def build_lanes(case: Case) -> pd.DataFrame:
     return _sorted(lanes)
 
 
-def _explicit_rows(case: Case, sites: dict[str, pd.DataFrame], mode_info: dict[str, dict],
-                   problems: list[Problem]) -> pd.DataFrame:
+def _explicit_rows(
+    case: Case, sites: dict[str, pd.DataFrame], mode_info: dict[str, dict], problems: list[Problem]
+) -> pd.DataFrame:
     """The explicit lanes table with kinds, leg and coordinates resolved; bad rows become problems."""
     ex = case.tables["lanes"]
     cols = LANE_COLUMNS + ["available"]
     kind_of: dict[str, str] = {}
     for k in ("customer", "dc", "plant", "supplier"):  # later kinds win only if codes collide
-        kind_of.update({c: k for c in sites[k].index})
+        kind_of.update(dict.fromkeys(sites[k].index, k))
     rows = []
     ex = ex.sort_index()
     for row, r in zip(ex.index, ex.to_dict("records")):
@@ -323,30 +360,47 @@ def _explicit_rows(case: Case, sites: dict[str, pd.DataFrame], mode_info: dict[s
             problems.append(Problem("lanes", row, "destination", f"{d!r} is not a plant, DC or customer of the case"))
             bad = True
         elif dk not in _DESTINATION_KINDS:
-            problems.append(Problem("lanes", row, "destination",
-                                    f"{d!r} is a {dk}; lanes end at a plant, DC or customer"))
+            problems.append(
+                Problem("lanes", row, "destination", f"{d!r} is a {dk}; lanes end at a plant, DC or customer")
+            )
             bad = True
         if m not in mode_info:
             problems.append(Problem("lanes", row, "mode", f"unknown mode {m!r} (not in modes)"))
             bad = True
         if not bad and f"{ok}-{dk}" not in LEGS:
-            problems.append(Problem("lanes", row, "destination",
-                                    f"{ok} {o!r} → {dk} {d!r} is not a leg netopt models; legs are {', '.join(LEGS)}"))
+            problems.append(
+                Problem(
+                    "lanes",
+                    row,
+                    "destination",
+                    f"{ok} {o!r} → {dk} {d!r} is not a leg netopt models; legs are {', '.join(LEGS)}",
+                )
+            )
             bad = True
         if bad:
             continue
         available = r["available"]
-        rows.append({
-            "origin": o, "origin_kind": ok, "destination": d, "destination_kind": dk, "leg": f"{ok}-{dk}",
-            "mode": m, "product": p,
-            "distance_km": _num(r["distance_km"]), "transit_days": _num(r["transit_days"]),
-            "cost_per_unit": _num(r["cost_per_unit"]),
-            "capacity": np.inf if pd.isna(r["capacity"]) else float(r["capacity"]),
-            "source": "explicit",
-            "origin_lat": float(sites[ok].at[o, "lat"]), "origin_lon": float(sites[ok].at[o, "lon"]),
-            "destination_lat": float(sites[dk].at[d, "lat"]), "destination_lon": float(sites[dk].at[d, "lon"]),
-            "available": True if pd.isna(available) else bool(available),
-        })
+        rows.append(
+            {
+                "origin": o,
+                "origin_kind": ok,
+                "destination": d,
+                "destination_kind": dk,
+                "leg": f"{ok}-{dk}",
+                "mode": m,
+                "product": p,
+                "distance_km": _num(r["distance_km"]),
+                "transit_days": _num(r["transit_days"]),
+                "cost_per_unit": _num(r["cost_per_unit"]),
+                "capacity": np.inf if pd.isna(r["capacity"]) else float(r["capacity"]),
+                "source": "explicit",
+                "origin_lat": float(sites[ok].at[o, "lat"]),
+                "origin_lon": float(sites[ok].at[o, "lon"]),
+                "destination_lat": float(sites[dk].at[d, "lat"]),
+                "destination_lon": float(sites[dk].at[d, "lon"]),
+                "available": True if pd.isna(available) else bool(available),
+            }
+        )
     if not rows:
         return _empty().assign(available=pd.Series(dtype=bool))
     out = pd.DataFrame(rows, columns=cols)
@@ -354,8 +408,16 @@ def _explicit_rows(case: Case, sites: dict[str, pd.DataFrame], mode_info: dict[s
     return out
 
 
-_FLOAT_COLUMNS = {"distance_km", "transit_days", "cost_per_unit", "capacity",
-                  "origin_lat", "origin_lon", "destination_lat", "destination_lon"}
+_FLOAT_COLUMNS = {
+    "distance_km",
+    "transit_days",
+    "cost_per_unit",
+    "capacity",
+    "origin_lat",
+    "origin_lon",
+    "destination_lat",
+    "destination_lon",
+}
 
 
 def _num(v) -> float:
@@ -389,11 +451,33 @@ def lane_summary(lanes: pd.DataFrame) -> pd.DataFrame:
     if lanes.empty:
         return pd.DataFrame({c: pd.Series(dtype=str if c in ("leg", "mode") else float) for c in cols})
     g = lanes.assign(_gen=lanes["source"] == "generated", _exp=lanes["source"] == "explicit")
-    out = g.groupby(["leg", "mode"], sort=False).agg(
-        lanes=("origin", "size"), generated=("_gen", "sum"), explicit=("_exp", "sum"),
-        shortest_km=("distance_km", "min"), longest_km=("distance_km", "max")).reset_index()
+    out = (
+        g.groupby(["leg", "mode"], sort=False)
+        .agg(
+            lanes=("origin", "size"),
+            generated=("_gen", "sum"),
+            explicit=("_exp", "sum"),
+            shortest_km=("distance_km", "min"),
+            longest_km=("distance_km", "max"),
+        )
+        .reset_index()
+    )
     order = {leg: i for i, leg in enumerate(LEGS)}
     out = out.assign(_o=out["leg"].map(order)).sort_values(["_o", "mode"]).drop(columns="_o")
     for c in ("lanes", "generated", "explicit"):
         out[c] = out[c].astype(int)
     return out.reset_index(drop=True)[cols]
+
+
+def case_lanes(case: Case) -> pd.DataFrame:
+    """The case's lane table, built once per :class:`Case` and kept on it.
+
+    Validation builds it for the reachability check; every solve and study of the same
+    case object then reuses it.  ``Case.copy()`` (made to apply scenario changes) drops it.
+    """
+    if case.generated_lanes is None:
+        case.generated_lanes = build_lanes(case)
+    return case.generated_lanes
+
+
+register_lane_builder(build_lanes)

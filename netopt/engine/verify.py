@@ -13,7 +13,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case
+from netopt.data.case import Case
 
 REL_TOL = 1e-6
 
@@ -32,9 +32,13 @@ class Verification:
     checks: pd.DataFrame = field(default_factory=pd.DataFrame)
 
     def as_dict(self) -> dict:
-        return {"verified": self.passed, "largest_violation": self.largest_violation,
-                "largest_violation_rule": self.largest_violation_rule,
-                "recomputed_objective": self.recomputed_objective, "objective_rel_diff": self.objective_rel_diff}
+        return {
+            "verified": self.passed,
+            "largest_violation": self.largest_violation,
+            "largest_violation_rule": self.largest_violation_rule,
+            "recomputed_objective": self.recomputed_objective,
+            "objective_rel_diff": self.objective_rel_diff,
+        }
 
 
 class _Checks:
@@ -85,8 +89,14 @@ def _at(series: pd.Series, frame: pd.DataFrame, keys: list[str]) -> np.ndarray:
     return series.reindex(pd.MultiIndex.from_frame(frame[keys])).fillna(0.0).to_numpy(float)
 
 
-def verify(case: Case, lanes: pd.DataFrame, tables: dict[str, pd.DataFrame], solver_objective: float,
-           fixed_open: dict[str, bool] | None = None, extra_cost: dict[str, float] | None = None) -> Verification:
+def verify(
+    case: Case,
+    lanes: pd.DataFrame,
+    tables: dict[str, pd.DataFrame],
+    solver_objective: float,
+    fixed_open: dict[str, bool] | None = None,
+    extra_cost: dict[str, float] | None = None,
+) -> Verification:
     """Check a solution's tables against the case; see module docstring.
 
     ``extra_cost`` holds cost components computed outside the flow model (e.g. safety
@@ -104,9 +114,14 @@ def verify(case: Case, lanes: pd.DataFrame, tables: dict[str, pd.DataFrame], sol
     # --- demand met: deliveries + lost = demand
     dem = t["demand"][t["demand"]["quantity"] > 0]
     last = flows[flows["destination_kind"] == "customer"]
-    delivered = _at(_sum_by(last, ["destination", "product"]), dem.rename(columns={"customer": "destination"}),
-                    ["destination", "product"])
-    lost = _at(_sum_by(unmet, ["customer", "product"], "lost_units"), dem, ["customer", "product"]) if len(unmet) else 0.0
+    delivered = _at(
+        _sum_by(last, ["destination", "product"]),
+        dem.rename(columns={"customer": "destination"}),
+        ["destination", "product"],
+    )
+    lost = (
+        _at(_sum_by(unmet, ["customer", "product"], "lost_units"), dem, ["customer", "product"]) if len(unmet) else 0.0
+    )
     where = (dem["customer"] + "/" + dem["product"]).to_numpy()
     ck.eq("demand met (units)", delivered + lost, dem["quantity"].to_numpy(float), where=where)
     if not bool(pol["allow_unmet_demand"]):
@@ -125,27 +140,46 @@ def verify(case: Case, lanes: pd.DataFrame, tables: dict[str, pd.DataFrame], sol
 
     # --- plants: output = production; materials = BOM × production
     pout = _sum_by(flows[flows["origin_kind"] == "plant"], ["origin", "product"])
-    ck.eq("plant output = production (units)", _at(pout, prod.rename(columns={"plant": "origin"}), ["origin", "product"]),
-          prod["quantity"].to_numpy(float), where=(prod["plant"] + "/" + prod["product"]).to_numpy())
+    ck.eq(
+        "plant output = production (units)",
+        _at(pout, prod.rename(columns={"plant": "origin"}), ["origin", "product"]),
+        prod["quantity"].to_numpy(float),
+        where=(prod["plant"] + "/" + prod["product"]).to_numpy(),
+    )
     plants = t["plants"]
-    ck.le("plant capacity (units)", prod["quantity"].to_numpy(float),
-          plants.set_index(["plant", "product"])["capacity"].reindex(pd.MultiIndex.from_frame(prod[["plant", "product"]])).to_numpy(float),
-          where=(prod["plant"] + "/" + prod["product"]).to_numpy())
+    ck.le(
+        "plant capacity (units)",
+        prod["quantity"].to_numpy(float),
+        plants.set_index(["plant", "product"])["capacity"]
+        .reindex(pd.MultiIndex.from_frame(prod[["plant", "product"]]))
+        .to_numpy(float),
+        where=(prod["plant"] + "/" + prod["product"]).to_numpy(),
+    )
     bom = t["bill_of_materials"]
     if len(bom):
         need = prod.merge(bom, on="product")
         need["need"] = need["quantity"] * need["quantity_per_unit"]
         need = need.groupby(["plant", "material"], as_index=False)["need"].sum()
         got = _sum_by(flows[flows["destination_kind"] == "plant"], ["destination", "product"])
-        recv = _at(got, need.rename(columns={"plant": "destination", "material": "product"}), ["destination", "product"])
-        ck.eq("plant materials received = bill of materials × production (units)", recv, need["need"].to_numpy(float),
-              where=(need["plant"] + "/" + need["material"]).to_numpy())
+        recv = _at(
+            got, need.rename(columns={"plant": "destination", "material": "product"}), ["destination", "product"]
+        )
+        ck.eq(
+            "plant materials received = bill of materials × production (units)",
+            recv,
+            need["need"].to_numpy(float),
+            where=(need["plant"] + "/" + need["material"]).to_numpy(),
+        )
 
     # --- supplier capacity
     sup = t["suppliers"]
     sout = _sum_by(flows[flows["origin_kind"] == "supplier"], ["origin", "product"])
-    ck.le("supplier capacity (units)", _at(sout, sup.rename(columns={"supplier": "origin"}), ["origin", "product"]),
-          sup["capacity"].to_numpy(float), where=(sup["supplier"] + "/" + sup["product"]).to_numpy())
+    ck.le(
+        "supplier capacity (units)",
+        _at(sout, sup.rename(columns={"supplier": "origin"}), ["origin", "product"]),
+        sup["capacity"].to_numpy(float),
+        where=(sup["supplier"] + "/" + sup["product"]).to_numpy(),
+    )
 
     # --- DCs: throughput within the chosen capacity, nothing through a closed DC, forced decisions
     dc_in = _sum_by(flows[flows["destination_kind"] == "dc"], ["destination"])
@@ -154,8 +188,12 @@ def verify(case: Case, lanes: pd.DataFrame, tables: dict[str, pd.DataFrame], sol
     tout = dc_out.reindex(dcs["dc"]).fillna(0.0).to_numpy(float)
     cap = _dc_capacity(t, dcs)
     ck.le("DC throughput within capacity (units)", tin, cap, where=dcs["dc"].to_numpy())
-    ck.le("no flow through a closed DC (units)", np.where(dcs["open"], 0.0, tin + tout), np.zeros(len(dcs)),
-          where=dcs["dc"].to_numpy())
+    ck.le(
+        "no flow through a closed DC (units)",
+        np.where(dcs["open"], 0.0, tin + tout),
+        np.zeros(len(dcs)),
+        where=dcs["dc"].to_numpy(),
+    )
     forced = t["dcs"].set_index("dc")["force"].reindex(dcs["dc"]).fillna("").to_numpy()
     bad = ((forced == "open") & ~dcs["open"].to_numpy()) | ((forced == "closed") & dcs["open"].to_numpy())
     if fixed_open is not None:
@@ -173,29 +211,46 @@ def verify(case: Case, lanes: pd.DataFrame, tables: dict[str, pd.DataFrame], sol
     ck.le("flows only on available lanes (count)", np.atleast_1d(float(lane_rows["_lane"].isna().sum())), np.zeros(1))
     gen = lane_rows[(lane_rows["_lane_product"] == "")]
     if len(gen):
-        used = gen.groupby(["origin", "destination", "mode"]).agg(q=("quantity", "sum"), cap=("_lane_capacity", "first"))
-        ck.le("lane-and-mode capacity (units)", used["q"].to_numpy(float), used["cap"].to_numpy(float),
-              where=["/".join(i) for i in used.index])
+        used = gen.groupby(["origin", "destination", "mode"]).agg(
+            q=("quantity", "sum"), cap=("_lane_capacity", "first")
+        )
+        ck.le(
+            "lane-and-mode capacity (units)",
+            used["q"].to_numpy(float),
+            used["cap"].to_numpy(float),
+            where=["/".join(i) for i in used.index],
+        )
     spc = lane_rows[(lane_rows["_lane_product"] != "")]
     if len(spc):
-        ck.le("lane capacity for one product (units)", spc["quantity"].to_numpy(float),
-              spc["_lane_capacity"].to_numpy(float))
+        ck.le(
+            "lane capacity for one product (units)",
+            spc["quantity"].to_numpy(float),
+            spc["_lane_capacity"].to_numpy(float),
+        )
 
     # --- sourcing shares
     sflows = flows[flows["origin_kind"] == "supplier"]
     if len(sflows):
         by_sup = sflows.groupby(["destination", "product", "origin"], as_index=False)["quantity"].sum()
         by_sup["total"] = by_sup.groupby(["destination", "product"])["quantity"].transform("sum")
-        ck.le("max supplier share", by_sup["quantity"].to_numpy(float),
-              float(pol["max_supplier_share"]) * by_sup["total"].to_numpy(float), scale=by_sup["total"],
-              where=(by_sup["destination"] + "/" + by_sup["product"] + "/" + by_sup["origin"]).to_numpy())
+        ck.le(
+            "max supplier share",
+            by_sup["quantity"].to_numpy(float),
+            float(pol["max_supplier_share"]) * by_sup["total"].to_numpy(float),
+            scale=by_sup["total"],
+            where=(by_sup["destination"] + "/" + by_sup["product"] + "/" + by_sup["origin"]).to_numpy(),
+        )
         if float(pol["max_region_share"]) < 1:
             region = sup.drop_duplicates("supplier").set_index("supplier")["region"]
             r = sflows.assign(region=sflows["origin"].map(region))
             by_r = r.groupby(["destination", "product", "region"], as_index=False)["quantity"].sum()
             by_r["total"] = by_r.groupby(["destination", "product"])["quantity"].transform("sum")
-            ck.le("max region share", by_r["quantity"].to_numpy(float),
-                  float(pol["max_region_share"]) * by_r["total"].to_numpy(float), scale=by_r["total"])
+            ck.le(
+                "max region share",
+                by_r["quantity"].to_numpy(float),
+                float(pol["max_region_share"]) * by_r["total"].to_numpy(float),
+                scale=by_r["total"],
+            )
         k_min = int(pol["min_active_suppliers"])
         if k_min >= 2:
             offers = flows_possible_suppliers(lanes, sup)
@@ -216,13 +271,22 @@ def verify(case: Case, lanes: pd.DataFrame, tables: dict[str, pd.DataFrame], sol
     c2 = c2.fillna({"max_days": 0.0, "target_share": 0.0})
     if (c2["target_share"] > 0).any() and len(lane_rows):
         lw = lane_rows[lane_rows["destination_kind"] == "customer"].merge(
-            c2[["customer", "max_days"]], left_on="destination", right_on="customer")
-        lw["in"] = np.where(lw["_lane_transit"].to_numpy(float) <= lw["max_days"].to_numpy(float) + 1e-9,
-                            lw["quantity"].to_numpy(float), 0.0)
+            c2[["customer", "max_days"]], left_on="destination", right_on="customer"
+        )
+        lw["in"] = np.where(
+            lw["_lane_transit"].to_numpy(float) <= lw["max_days"].to_numpy(float) + 1e-9,
+            lw["quantity"].to_numpy(float),
+            0.0,
+        )
         g = lw.groupby("destination").agg(d=("quantity", "sum"), w=("in", "sum"))
         tg = c2.set_index("customer")["target_share"].reindex(g.index).to_numpy(float)
-        ck.le("service window share", tg * g["d"].to_numpy(float), g["w"].to_numpy(float), scale=g["d"],
-              where=g.index.to_numpy())
+        ck.le(
+            "service window share",
+            tg * g["d"].to_numpy(float),
+            g["w"].to_numpy(float),
+            scale=g["d"],
+            where=g.index.to_numpy(),
+        )
 
     # --- single sourcing and one mode per lane
     if bool(pol["single_sourcing"]) and len(last):
@@ -241,19 +305,38 @@ def verify(case: Case, lanes: pd.DataFrame, tables: dict[str, pd.DataFrame], sol
     total = float(sum(cost.values()))
     diff = abs(total - solver_objective) / max(1.0, abs(solver_objective))
     checks = ck.frame()
-    checks = pd.concat([checks, pd.DataFrame([("recomputed cost = solver objective", abs(total - solver_objective),
-                                               diff, "")], columns=checks.columns)], ignore_index=True)
+    checks = pd.concat(
+        [
+            checks,
+            pd.DataFrame(
+                [("recomputed cost = solver objective", abs(total - solver_objective), diff, "")],
+                columns=checks.columns,
+            ),
+        ],
+        ignore_index=True,
+    )
     worst = checks.loc[checks["relative_violation"].idxmax()]
     passed = bool((checks["relative_violation"] <= REL_TOL).all())
-    return Verification(passed=passed, largest_violation=float(worst["relative_violation"]),
-                        largest_violation_rule=str(worst["rule"]), recomputed_cost=cost, recomputed_objective=total,
-                        solver_objective=solver_objective, objective_rel_diff=diff, checks=checks)
+    return Verification(
+        passed=passed,
+        largest_violation=float(worst["relative_violation"]),
+        largest_violation_rule=str(worst["rule"]),
+        recomputed_cost=cost,
+        recomputed_objective=total,
+        solver_objective=solver_objective,
+        objective_rel_diff=diff,
+        checks=checks,
+    )
 
 
 def flows_possible_suppliers(lanes: pd.DataFrame, sup: pd.DataFrame) -> pd.Series:
     """Number of suppliers with a lane to each (site, product) — for min-active checks."""
     l = lanes[lanes["origin_kind"] == "supplier"][["origin", "destination", "product"]]
-    gen = l[l["product"] == ""].drop(columns="product").merge(sup[["supplier", "product"]].rename(columns={"supplier": "origin"}), on="origin")
+    gen = (
+        l[l["product"] == ""]
+        .drop(columns="product")
+        .merge(sup[["supplier", "product"]].rename(columns={"supplier": "origin"}), on="origin")
+    )
     allp = pd.concat([gen, l[l["product"] != ""]]).drop_duplicates()
     return allp.groupby(["destination", "product"])["origin"].nunique()
 
@@ -276,11 +359,18 @@ def _match_lanes(flows: pd.DataFrame, lanes: pd.DataFrame) -> pd.DataFrame:
     """Attach to each flow the lane row it uses (product-specific row first, else the generic row)."""
     keys = ["origin", "destination", "mode"]
     cols = keys + ["product", "distance_km", "transit_days", "cost_per_unit", "capacity"]
-    ln = lanes[cols].rename(columns={"product": "_lane_product", "distance_km": "_lane_distance",
-                                     "transit_days": "_lane_transit", "cost_per_unit": "_lane_cost",
-                                     "capacity": "_lane_capacity"})
-    spec = flows.merge(ln[ln["_lane_product"] != ""], left_on=keys + ["product"], right_on=keys + ["_lane_product"],
-                       how="left")
+    ln = lanes[cols].rename(
+        columns={
+            "product": "_lane_product",
+            "distance_km": "_lane_distance",
+            "transit_days": "_lane_transit",
+            "cost_per_unit": "_lane_cost",
+            "capacity": "_lane_capacity",
+        }
+    )
+    spec = flows.merge(
+        ln[ln["_lane_product"] != ""], left_on=keys + ["product"], right_on=keys + ["_lane_product"], how="left"
+    )
     gen = flows.merge(ln[ln["_lane_product"] == ""], on=keys, how="left")
     out = spec.copy()
     use_gen = out["_lane_product"].isna().to_numpy()
@@ -290,7 +380,9 @@ def _match_lanes(flows: pd.DataFrame, lanes: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def recompute_cost(case: Case, lane_rows: pd.DataFrame, tables: dict[str, pd.DataFrame]) -> tuple[dict[str, float], float]:
+def recompute_cost(
+    case: Case, lane_rows: pd.DataFrame, tables: dict[str, pd.DataFrame]
+) -> tuple[dict[str, float], float]:
     """Every cost component (currency/yr) from input tables and result quantities; also CO2e kg/yr."""
     t = case.tables
     s = case.settings
@@ -299,7 +391,13 @@ def recompute_cost(case: Case, lane_rows: pd.DataFrame, tables: dict[str, pd.Dat
     modes = t["modes"].set_index("mode")
     w = f["product"].map(prod["unit_weight_kg"]).to_numpy(float)
     v = f["product"].map(prod["unit_value"]).to_numpy(float)
-    hr = f["product"].map(prod["holding_rate"]).astype(float).fillna(float(s["inventory"]["holding_rate"])).to_numpy(float)
+    hr = (
+        f["product"]
+        .map(prod["holding_rate"])
+        .astype(float)
+        .fillna(float(s["inventory"]["holding_rate"]))
+        .to_numpy(float)
+    )
     q = f["quantity"].to_numpy(float)
     dist = f["_lane_distance"].to_numpy(float)
     days = f["_lane_transit"].to_numpy(float)
@@ -310,12 +408,20 @@ def recompute_cost(case: Case, lane_rows: pd.DataFrame, tables: dict[str, pd.Dat
     co2 = q * w / 1000 * dist * f["mode"].map(modes["co2_kg_per_tonne_km"]).to_numpy(float)
     sup = t["suppliers"].set_index(["supplier", "product"])["unit_cost"]
     sf = f[f["origin_kind"] == "supplier"]
-    supply = float((sf["quantity"].to_numpy(float)
-                    * sup.reindex(pd.MultiIndex.from_frame(sf[["origin", "product"]])).to_numpy(float)).sum())
+    supply = float(
+        (
+            sf["quantity"].to_numpy(float)
+            * sup.reindex(pd.MultiIndex.from_frame(sf[["origin", "product"]])).to_numpy(float)
+        ).sum()
+    )
     plants = t["plants"].set_index(["plant", "product"])["unit_cost"]
     pr = tables["production"]
-    production = float((pr["quantity"].to_numpy(float)
-                        * plants.reindex(pd.MultiIndex.from_frame(pr[["plant", "product"]])).to_numpy(float)).sum())
+    production = float(
+        (
+            pr["quantity"].to_numpy(float)
+            * plants.reindex(pd.MultiIndex.from_frame(pr[["plant", "product"]])).to_numpy(float)
+        ).sum()
+    )
     dcs = tables["dcs"]
     base = t["dcs"].set_index("dc")
     sizes = t["dc_sizes"].set_index(["dc", "size"]) if len(t["dc_sizes"]) else None
@@ -323,13 +429,25 @@ def recompute_cost(case: Case, lane_rows: pd.DataFrame, tables: dict[str, pd.Dat
     for d, o, size in zip(dcs["dc"], dcs["open"], dcs["size"]):
         if o:
             fixed += float(sizes.loc[(d, size), "fixed_cost"]) if size else float(base.loc[d, "fixed_cost"])
-    closing = float(base.loc[dcs.loc[~dcs["open"].to_numpy(bool), "dc"]].query("status == 'existing'")["closing_cost"].sum())
+    closing = float(
+        base.loc[dcs.loc[~dcs["open"].to_numpy(bool), "dc"]].query("status == 'existing'")["closing_cost"].sum()
+    )
     into_dc = f[f["destination_kind"] == "dc"]
-    handling = float((into_dc["quantity"].to_numpy(float)
-                      * into_dc["destination"].map(base["handling_cost"]).to_numpy(float)).sum())
+    handling = float(
+        (into_dc["quantity"].to_numpy(float) * into_dc["destination"].map(base["handling_cost"]).to_numpy(float)).sum()
+    )
     un = tables["unmet"]
     pen = float(s["policy"]["unmet_penalty_per_unit"])
-    unmet_cost = float((un["lost_units"].to_numpy(float) * (pen if pen > 0 else 2 * un["product"].map(prod["unit_value"]).to_numpy(float))).sum()) if len(un) else 0.0
+    unmet_cost = (
+        float(
+            (
+                un["lost_units"].to_numpy(float)
+                * (pen if pen > 0 else 2 * un["product"].map(prod["unit_value"]).to_numpy(float))
+            ).sum()
+        )
+        if len(un)
+        else 0.0
+    )
     cost = {
         "supply": supply,
         "production": production,

@@ -82,8 +82,9 @@ def edge_graph(edges_df: pd.DataFrame, mode: str | None = None) -> nx.Graph:
     return g
 
 
-def shortest_path_km(edges_df: pd.DataFrame, sources: Iterable[str], targets: Iterable[str],
-                     mode: str | None = None) -> pd.DataFrame:
+def shortest_path_km(
+    edges_df: pd.DataFrame, sources: Iterable[str], targets: Iterable[str], mode: str | None = None
+) -> pd.DataFrame:
     """Shortest-path km over an undirected edge table, from each source to each target.
 
     One Dijkstra run per source (networkx).  Parallel edges: the shortest counts.

@@ -34,7 +34,8 @@ import numpy as np
 import pandas as pd
 from scipy import sparse
 
-from netopt.case import Case
+from netopt.data.case import Case
+from netopt.network.arcs import build_network
 
 INF = highspy.kHighsInf
 DAYS_PER_YEAR = 365.0
@@ -42,6 +43,7 @@ EPS = 1e-9
 
 
 # ---------------------------------------------------------------------------------- LP helper
+
 
 def _highs(c, A: sparse.spmatrix, row_lo, row_hi, col_lo, col_hi) -> highspy.Highs:
     """A quiet single-thread HiGHS instance holding ``min c·x, row_lo ≤ A x ≤ row_hi, col bounds``."""
@@ -77,9 +79,16 @@ def _run(h: highspy.Highs) -> tuple[str, np.ndarray]:
 
 # ---------------------------------------------------------------------------------- single tier
 
-def single_tier_exposure(capacity: dict[str, float], demand: dict[str, float], inventory: dict[str, float],
-                         loss: dict[str, float], active: dict[str, set[tuple[str, str]]],
-                         ttr: dict[str, float], tts_cap: float = 999.0) -> pd.DataFrame:
+
+def single_tier_exposure(
+    capacity: dict[str, float],
+    demand: dict[str, float],
+    inventory: dict[str, float],
+    loss: dict[str, float],
+    active: dict[str, set[tuple[str, str]]],
+    ttr: dict[str, float],
+    tts_cap: float = 999.0,
+) -> pd.DataFrame:
     """The published single-tier TTR and TTS linear programs, one scenario at a time.
 
     Args:
@@ -122,23 +131,43 @@ def single_tier_exposure(capacity: dict[str, float], demand: dict[str, float], i
         row_hi = np.concatenate([np.full(npr, np.inf), np.zeros(ns)])
         t = float(ttr[n])
         # TTR model: t fixed, minimise lost value.
-        h = _highs(np.concatenate([np.zeros(ny), f, [0.0]]), A, row_lo, row_hi,
-                   np.zeros(ny + npr + 1), np.concatenate([np.full(ny + npr, np.inf), [t]]))
+        h = _highs(
+            np.concatenate([np.zeros(ny), f, [0.0]]),
+            A,
+            row_lo,
+            row_hi,
+            np.zeros(ny + npr + 1),
+            np.concatenate([np.full(ny + npr, np.inf), [t]]),
+        )
         h.changeColBounds(ny + npr, t, t)
         status, x = _run(h)
         if status != "optimal":
             raise RuntimeError(f"scenario {n}: TTR model {status}")
-        impact = float(f @ x[ny:ny + npr])
-        lost = float(x[ny:ny + npr].sum())
+        impact = float(f @ x[ny : ny + npr])
+        lost = float(x[ny : ny + npr].sum())
         # TTS model: no loss allowed, maximise t (capped).
-        h = _highs(np.concatenate([np.zeros(ny + npr), [-1.0]]), A, row_lo, row_hi,
-                   np.zeros(ny + npr + 1), np.concatenate([np.full(ny, np.inf), np.zeros(npr), [tts_cap]]))
+        h = _highs(
+            np.concatenate([np.zeros(ny + npr), [-1.0]]),
+            A,
+            row_lo,
+            row_hi,
+            np.zeros(ny + npr + 1),
+            np.concatenate([np.full(ny, np.inf), np.zeros(npr), [tts_cap]]),
+        )
         status, x = _run(h)
         if status != "optimal":
             raise RuntimeError(f"scenario {n}: TTS model {status}")
         tts = float(x[-1])
-        rows.append({"scenario": n, "performance_impact": impact, "lost_units": lost, "tts": tts, "ttr": t,
-                     "shortage_periods": max(t - tts, 0.0)})
+        rows.append(
+            {
+                "scenario": n,
+                "performance_impact": impact,
+                "lost_units": lost,
+                "tts": tts,
+                "ttr": t,
+                "shortage_periods": max(t - tts, 0.0),
+            }
+        )
     out = pd.DataFrame(rows)
     top = out["performance_impact"].max() if len(out) else 0.0
     out.insert(3, "rei", out["performance_impact"] / top if top > EPS else 0.0)
@@ -146,6 +175,7 @@ def single_tier_exposure(capacity: dict[str, float], demand: dict[str, float], i
 
 
 # ---------------------------------------------------------------------------------- network inputs
+
 
 def time_to_recover(case: Case) -> pd.Series:
     """Days to restore each supplier, plant and DC (site → days).
@@ -161,8 +191,11 @@ def time_to_recover(case: Case) -> pd.Series:
         df = t[table]
         if not len(df):
             continue
-        v = pd.to_numeric(df["time_to_recover_days"], errors="coerce") if "time_to_recover_days" in df else \
-            pd.Series(np.nan, index=df.index)
+        v = (
+            pd.to_numeric(df["time_to_recover_days"], errors="coerce")
+            if "time_to_recover_days" in df
+            else pd.Series(np.nan, index=df.index)
+        )
         g = pd.Series(v.to_numpy(float), index=df[col].astype(str).to_numpy()).groupby(level=0).max()
         for site in df[col].astype(str).unique():
             x = g.get(site, np.nan)
@@ -184,8 +217,12 @@ def base_stock(base) -> tuple[pd.DataFrame, str]:
     """
     f = base.tables["flows"]
     pipe = f.assign(units=f["quantity"].to_numpy(float) * f["transit_days"].to_numpy(float) / DAYS_PER_YEAR)
-    parts = [pipe.groupby(["destination", "product"], as_index=False)["units"].sum()
-             .rename(columns={"destination": "site"}).assign(source="pipeline")]
+    parts = [
+        pipe.groupby(["destination", "product"], as_index=False)["units"]
+        .sum()
+        .rename(columns={"destination": "site"})
+        .assign(source="pipeline")
+    ]
     note = "pipeline stock only (the base has no safety_stock table)"
     ss = base.tables.get("safety_stock")
     if ss is not None and len(ss):
@@ -203,6 +240,7 @@ def base_stock(base) -> tuple[pd.DataFrame, str]:
 
 
 # ---------------------------------------------------------------------------------- network LP
+
 
 class ExposureModel:
     """The network TTS/TTR linear program of one solved base, kept in HiGHS for one re-solve per node.
@@ -222,8 +260,6 @@ class ExposureModel:
     """
 
     def __init__(self, case: Case, base, stock: pd.DataFrame | None = None):
-        from netopt.network import build_network
-
         self.case = case
         if stock is None:
             stock, self.stock_note = base_stock(base)
@@ -257,7 +293,11 @@ class ExposureModel:
         s = stock.groupby(["site", "product"])["units"].sum()
 
         def stock_of(sites, products):
-            return s.reindex(pd.MultiIndex.from_arrays([np.asarray(sites), np.asarray(products)])).fillna(0.0).to_numpy(float)
+            return (
+                s.reindex(pd.MultiIndex.from_arrays([np.asarray(sites), np.asarray(products)]))
+                .fillna(0.0)
+                .to_numpy(float)
+            )
 
         rows_i: list[np.ndarray] = []
         rows_j: list[np.ndarray] = []
@@ -289,12 +329,20 @@ class ExposureModel:
         # DC stock rows
         into = a["destination_kind"].eq("dc").to_numpy()
         out = a["origin_kind"].eq("dc").to_numpy()
-        pairs = pd.concat([a.loc[into, ["destination", "product"]].set_axis(["site", "product"], axis=1),
-                           a.loc[out, ["origin", "product"]].set_axis(["site", "product"], axis=1)]).drop_duplicates()
+        pairs = pd.concat(
+            [
+                a.loc[into, ["destination", "product"]].set_axis(["site", "product"], axis=1),
+                a.loc[out, ["origin", "product"]].set_axis(["site", "product"], axis=1),
+            ]
+        ).drop_duplicates()
         pairs = pairs.sort_values(["site", "product"]).reset_index(drop=True)
         ppos = pd.Series(np.arange(len(pairs)), index=pd.MultiIndex.from_frame(pairs))
-        ri = ppos.reindex(pd.MultiIndex.from_frame(a.loc[into, ["destination", "product"]].set_axis(["site", "product"], axis=1))).to_numpy(int)
-        ro = ppos.reindex(pd.MultiIndex.from_frame(a.loc[out, ["origin", "product"]].set_axis(["site", "product"], axis=1))).to_numpy(int)
+        ri = ppos.reindex(
+            pd.MultiIndex.from_frame(a.loc[into, ["destination", "product"]].set_axis(["site", "product"], axis=1))
+        ).to_numpy(int)
+        ro = ppos.reindex(
+            pd.MultiIndex.from_frame(a.loc[out, ["origin", "product"]].set_axis(["site", "product"], axis=1))
+        ).to_numpy(int)
         add(nrow + ro, yi[out], np.ones(out.sum()))
         add(nrow + ri, yi[into], -np.ones(into.sum()))
         lo.append(np.full(len(pairs), -np.inf))
@@ -317,13 +365,16 @@ class ExposureModel:
         bom = net.bom
         if len(bom) and nu:
             use = mk.reset_index(drop=True).reset_index().rename(columns={"index": "mk"}).merge(bom, on="product")
-            mats = use[["plant", "material"]].drop_duplicates().sort_values(["plant", "material"]).reset_index(drop=True)
+            mats = (
+                use[["plant", "material"]].drop_duplicates().sort_values(["plant", "material"]).reset_index(drop=True)
+            )
             matpos = pd.Series(np.arange(len(mats)), index=pd.MultiIndex.from_frame(mats))
             ru = matpos.reindex(pd.MultiIndex.from_frame(use[["plant", "material"]])).to_numpy(int)
             add(nrow + ru, ny + use["mk"].to_numpy(int), use["quantity_per_unit"].to_numpy(float))
             pi = np.flatnonzero(a["destination_kind"].eq("plant").to_numpy())
-            r = matpos.reindex(pd.MultiIndex.from_frame(a.iloc[pi][["destination", "product"]].set_axis(
-                ["plant", "material"], axis=1))).to_numpy()
+            r = matpos.reindex(
+                pd.MultiIndex.from_frame(a.iloc[pi][["destination", "product"]].set_axis(["plant", "material"], axis=1))
+            ).to_numpy()
             ok = ~np.isnan(r)
             add(nrow + r[ok].astype(int), pi[ok], -np.ones(ok.sum()))
             lo.append(np.full(len(mats), -np.inf))
@@ -351,8 +402,11 @@ class ExposureModel:
             offers = a.iloc[si][["origin", "product"]].drop_duplicates().sort_values(["origin", "product"])
             opos = pd.Series(np.arange(len(offers)), index=pd.MultiIndex.from_frame(offers))
             r = opos.reindex(pd.MultiIndex.from_frame(a.iloc[si][["origin", "product"]])).to_numpy(int)
-            caps = net.suppliers.set_index(["supplier", "product"])["capacity"].reindex(
-                pd.MultiIndex.from_frame(offers)).to_numpy(float)
+            caps = (
+                net.suppliers.set_index(["supplier", "product"])["capacity"]
+                .reindex(pd.MultiIndex.from_frame(offers))
+                .to_numpy(float)
+            )
             cap_rows(r, si, caps)
         # plant lines
         cap_rows(np.arange(nu), ny + np.arange(nu), mk["capacity"].to_numpy(float))
@@ -378,8 +432,9 @@ class ExposureModel:
         if len(ci):
             cap_rows(np.arange(len(ci)), ci, pc[ci])
 
-        A = sparse.coo_matrix((np.concatenate(vals), (np.concatenate(rows_i), np.concatenate(rows_j))),
-                              shape=(nrow, ncol)).tocsc()
+        A = sparse.coo_matrix(
+            (np.concatenate(vals), (np.concatenate(rows_i), np.concatenate(rows_j))), shape=(nrow, ncol)
+        ).tocsc()
         self.row_lo = np.concatenate(lo)
         self.row_hi = np.concatenate(hi)
         self.col_lo = np.zeros(ncol)
@@ -445,8 +500,15 @@ def exposure_nodes(case: Case, base) -> pd.DataFrame:
     return pd.DataFrame(rows, columns=["node", "type"])
 
 
-def exposure(case: Case, base, *, stock: pd.DataFrame | None = None, ttr: dict[str, float] | pd.Series | None = None,
-             nodes: list[str] | None = None, tts_cap_days: float = 365.0) -> tuple[pd.DataFrame, str]:
+def exposure(
+    case: Case,
+    base,
+    *,
+    stock: pd.DataFrame | None = None,
+    ttr: dict[str, float] | pd.Series | None = None,
+    nodes: list[str] | None = None,
+    tts_cap_days: float = 365.0,
+) -> tuple[pd.DataFrame, str]:
     """Time-to-survive and performance impact of each node of the solved base network.
 
     Args:
@@ -477,12 +539,37 @@ def exposure(case: Case, base, *, stock: pd.DataFrame | None = None, ttr: dict[s
         t_rec = float(ttr_all.get(node, case.settings["resilience"]["time_to_recover_days"]))
         tts = model.time_to_survive(node, tts_cap_days)
         value, units, short = model.impact(node, t_rec)
-        rows.append({"node": node, "type": kind, "ttr_days": t_rec, "tts_days": tts,
-                     "tts_capped": tts >= tts_cap_days - 1e-9, "lost_units": units, "lost_value": value,
-                     "customers_short": short, "shortage_days": max(t_rec - tts, 0.0),
-                     "tts_below_ttr": tts < t_rec - 1e-9, "stock_units": float(node_stock.get(node, 0.0))})
-    out = pd.DataFrame(rows, columns=["node", "type", "ttr_days", "tts_days", "tts_capped", "lost_units", "lost_value",
-                                      "customers_short", "shortage_days", "tts_below_ttr", "stock_units"])
+        rows.append(
+            {
+                "node": node,
+                "type": kind,
+                "ttr_days": t_rec,
+                "tts_days": tts,
+                "tts_capped": tts >= tts_cap_days - 1e-9,
+                "lost_units": units,
+                "lost_value": value,
+                "customers_short": short,
+                "shortage_days": max(t_rec - tts, 0.0),
+                "tts_below_ttr": tts < t_rec - 1e-9,
+                "stock_units": float(node_stock.get(node, 0.0)),
+            }
+        )
+    out = pd.DataFrame(
+        rows,
+        columns=[
+            "node",
+            "type",
+            "ttr_days",
+            "tts_days",
+            "tts_capped",
+            "lost_units",
+            "lost_value",
+            "customers_short",
+            "shortage_days",
+            "tts_below_ttr",
+            "stock_units",
+        ],
+    )
     top = out["lost_value"].max() if len(out) else 0.0
     out.insert(7, "rei", out["lost_value"] / top if top > EPS else 0.0)
     out = out.sort_values(["lost_value", "tts_days", "node"], ascending=[False, True, True], kind="stable")

@@ -8,9 +8,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from netopt.inventory_report import inventory_kpis, pipeline_table, safety_stock_table
-from netopt.mode_economics import mode_economics
-from netopt.network import Network
+from netopt.engine.inventory_report import inventory_kpis, pipeline_table, safety_stock_table
+from netopt.engine.mode_economics import mode_economics
+from netopt.network.arcs import Network
 
 TABLE_DOCS = {
     "flows": "Units/yr per lane, mode and product, with per-flow costs (currency/yr), CO2e (kg/yr) and transit days",
@@ -23,12 +23,12 @@ TABLE_DOCS = {
     "cost": "Annual landed cost by component (currency/yr); rows sum to the total",
     "kpis": "Headline indicators with units",
     "safety_stock": "Per DC and product: throughput (units/yr), the model's piecewise-linear safety stock and the "
-                    "exact formula for the customers served (units), approximation errors (ratio), cost (currency/yr)",
+    "exact formula for the customers served (units), approximation errors (ratio), cost (currency/yr)",
     "pipeline": "In-transit stock per lane, mode and product by Little's law: units, value (currency), cost (currency/yr)",
     "inventory_kpis": "Safety and in-transit stock per DC and for the network: value (currency), days of throughput, "
-                      "turns per year (cycle stock not modelled)",
+    "turns per year (cycle stock not modelled)",
     "mode_economics": "Every admissible mode of each used lane and product: cost per unit and per year if all went "
-                      "by it, transit days, CO2e, the chosen mode and the cost of switching (currency/yr)",
+    "by it, transit days, CO2e, the chosen mode and the cost of switching (currency/yr)",
 }
 
 EPS = 1e-7
@@ -38,16 +38,33 @@ def flows_table(net: Network, flow: np.ndarray) -> pd.DataFrame:
     """Positive flows with their costs (currency/yr), CO2e (kg/yr) and transport work."""
     a = net.arcs
     keep = flow > EPS
-    f = a.loc[keep, ["origin", "origin_kind", "destination", "destination_kind", "leg", "mode", "product",
-                     "distance_km", "transit_days"]].copy()
+    f = a.loc[
+        keep,
+        [
+            "origin",
+            "origin_kind",
+            "destination",
+            "destination_kind",
+            "leg",
+            "mode",
+            "product",
+            "distance_km",
+            "transit_days",
+        ],
+    ].copy()
     q = flow[keep]
     f.insert(7, "quantity", q)
     w = f["product"].map(net.products.set_index("product")["unit_weight_kg"]).to_numpy(float)
     f["tonnes"] = q * w / 1000.0
     f["tonne_km"] = f["tonnes"] * f["distance_km"]
-    for col, src in (("supply_cost", "supply_per_unit"), ("freight_cost", "freight_per_unit"),
-                     ("handling_cost", "handling_per_unit"), ("pipeline_cost", "pipeline_per_unit"),
-                     ("carbon_cost", "carbon_per_unit"), ("co2_kg", "co2_kg_per_unit")):
+    for col, src in (
+        ("supply_cost", "supply_per_unit"),
+        ("freight_cost", "freight_per_unit"),
+        ("handling_cost", "handling_per_unit"),
+        ("pipeline_cost", "pipeline_per_unit"),
+        ("carbon_cost", "carbon_per_unit"),
+        ("co2_kg", "co2_kg_per_unit"),
+    ):
         f[col] = q * a.loc[keep, src].to_numpy(float)
     f["within_window"] = a.loc[keep, "within_window"].to_numpy(bool)
     return f.reset_index(drop=True)
@@ -62,8 +79,11 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
 
     make = net.make.copy()
     make["quantity"] = values["make"]
-    make["utilisation"] = np.where(np.isfinite(make["capacity"]) & (make["capacity"] > 0),
-                                   make["quantity"] / make["capacity"].replace(0, np.nan), np.nan)
+    make["utilisation"] = np.where(
+        np.isfinite(make["capacity"]) & (make["capacity"] > 0),
+        make["quantity"] / make["capacity"].replace(0, np.nan),
+        np.nan,
+    )
     make["cost"] = make["quantity"] * make["unit_cost"]
     t["production"] = make[["plant", "product", "quantity", "capacity", "utilisation", "cost"]]
 
@@ -74,16 +94,36 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
     inflow = flows[flows["destination_kind"] == "dc"].groupby("destination")["quantity"].sum()
     d = net.dcs[["dc", "status", "lat", "lon", "region", "fixed_cost", "capacity"]].copy()
     d["open"] = d["dc"].isin(chosen.index)
-    d["decision"] = np.select([d["status"].eq("existing") & d["open"], d["status"].eq("existing"), d["open"]],
-                              ["keep", "close", "open"], "stay closed")
+    d["decision"] = np.select(
+        [d["status"].eq("existing") & d["open"], d["status"].eq("existing"), d["open"]],
+        ["keep", "close", "open"],
+        "stay closed",
+    )
     d["size"] = d["dc"].map(chosen["size"]).fillna("")
     d["capacity"] = np.where(d["open"], d["dc"].map(chosen["capacity"]), 0.0)
     d["fixed_cost"] = np.where(d["open"], d["dc"].map(chosen["fixed_cost"]), 0.0)
     d["throughput"] = d["dc"].map(inflow).fillna(0.0)
-    d["utilisation"] = np.where(d["open"] & np.isfinite(d["capacity"].astype(float)) & (d["capacity"] > 0),
-                                d["throughput"] / d["capacity"].replace(0, np.nan), np.nan)
-    t["dcs"] = d[["dc", "status", "decision", "open", "size", "region", "lat", "lon", "capacity", "throughput",
-                  "utilisation", "fixed_cost"]]
+    d["utilisation"] = np.where(
+        d["open"] & np.isfinite(d["capacity"].astype(float)) & (d["capacity"] > 0),
+        d["throughput"] / d["capacity"].replace(0, np.nan),
+        np.nan,
+    )
+    t["dcs"] = d[
+        [
+            "dc",
+            "status",
+            "decision",
+            "open",
+            "size",
+            "region",
+            "lat",
+            "lon",
+            "capacity",
+            "throughput",
+            "utilisation",
+            "fixed_cost",
+        ]
+    ]
 
     # Supplier shares per receiving site and material.
     s = flows[flows["origin_kind"] == "supplier"]
@@ -94,10 +134,13 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
         g["region"] = g["origin"].map(region)
         g = g.rename(columns={"destination": "site", "destination_kind": "site_kind", "origin": "supplier"})
         g["max_share"] = float(net.settings["policy"]["max_supplier_share"])
-        t["supplier_shares"] = g[["site", "site_kind", "product", "supplier", "region", "quantity", "share", "max_share"]]
+        t["supplier_shares"] = g[
+            ["site", "site_kind", "product", "supplier", "region", "quantity", "share", "max_share"]
+        ]
     else:
-        t["supplier_shares"] = pd.DataFrame(columns=["site", "site_kind", "product", "supplier", "region",
-                                                     "quantity", "share", "max_share"])
+        t["supplier_shares"] = pd.DataFrame(
+            columns=["site", "site_kind", "product", "supplier", "region", "quantity", "share", "max_share"]
+        )
 
     # Mode mix.
     mm = flows.groupby("mode", as_index=False)[["quantity", "tonnes", "tonne_km", "freight_cost", "co2_kg"]].sum()
@@ -116,15 +159,24 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
     sv["delivered"] = sv["customer"].map(by_c["delivered"]).fillna(0.0)
     sv["unmet"] = sv["customer"].map(dem.groupby("customer")["unmet"].sum()).fillna(0.0)
     sv["within_window"] = sv["customer"].map(win).fillna(0.0)
-    sv["share_within_window"] = np.where(sv["delivered"] > EPS, sv["within_window"] / sv["delivered"].where(sv["delivered"] > EPS), np.nan)
-    sv["avg_transit_days"] = np.where(sv["delivered"] > EPS, sv["customer"].map(wdays).fillna(0.0) / sv["delivered"].where(sv["delivered"] > EPS), np.nan)
+    sv["share_within_window"] = np.where(
+        sv["delivered"] > EPS, sv["within_window"] / sv["delivered"].where(sv["delivered"] > EPS), np.nan
+    )
+    sv["avg_transit_days"] = np.where(
+        sv["delivered"] > EPS,
+        sv["customer"].map(wdays).fillna(0.0) / sv["delivered"].where(sv["delivered"] > EPS),
+        np.nan,
+    )
     sv["target_met"] = (sv["target_share"] <= 0) | (sv["share_within_window"].fillna(1.0) >= sv["target_share"] - 1e-6)
     t["service"] = sv[sv["demand"] > 0].reset_index(drop=True)
 
     un = dem[dem["unmet"] > EPS].copy()
     un["value"] = un["unmet"] * un["penalty"]
-    t["unmet"] = un[["customer", "product", "quantity", "unmet", "penalty", "value"]].rename(
-        columns={"quantity": "demand", "unmet": "lost_units"}).reset_index(drop=True)
+    t["unmet"] = (
+        un[["customer", "product", "quantity", "unmet", "penalty", "value"]]
+        .rename(columns={"quantity": "demand", "unmet": "lost_units"})
+        .reset_index(drop=True)
+    )
 
     cost_tab = pd.DataFrame({"component": list(cost), "amount": list(cost.values())})
     t["cost"] = cost_tab
@@ -155,9 +207,15 @@ def kpis(net: Network, t: dict[str, pd.DataFrame], cost: dict[str, float]) -> pd
         p95 = avg_days = within = float("nan")
     value = flows["product"].map(net.products.set_index("product")["unit_value"]).to_numpy(float)
     in_transit_units = float((flows["quantity"] * flows["transit_days"]).sum() / 365.0)
-    in_transit_value = float((flows["quantity"].to_numpy(float) * value * flows["transit_days"].to_numpy(float)).sum() / 365.0)
-    sold_value = float((last["quantity"].to_numpy(float)
-                        * last["product"].map(net.products.set_index("product")["unit_value"]).to_numpy(float)).sum())
+    in_transit_value = float(
+        (flows["quantity"].to_numpy(float) * value * flows["transit_days"].to_numpy(float)).sum() / 365.0
+    )
+    sold_value = float(
+        (
+            last["quantity"].to_numpy(float)
+            * last["product"].map(net.products.set_index("product")["unit_value"]).to_numpy(float)
+        ).sum()
+    )
     rows = [
         ("total_landed_cost", total, "currency/yr"),
         ("demand", demand, "units/yr"),
@@ -170,18 +228,28 @@ def kpis(net: Network, t: dict[str, pd.DataFrame], cost: dict[str, float]) -> pd
         ("dcs_open", float(t["dcs"]["open"].sum()), "count"),
         ("in_transit_inventory_units", in_transit_units, "units (average)"),
         ("in_transit_inventory_value", in_transit_value, "currency (average)"),
-        ("in_transit_inventory_days", in_transit_value / (sold_value / 365.0) if sold_value else float("nan"),
-         "days of sales at unit value"),
+        (
+            "in_transit_inventory_days",
+            in_transit_value / (sold_value / 365.0) if sold_value else float("nan"),
+            "days of sales at unit value",
+        ),
         ("co2e_tonnes", float(flows["co2_kg"].sum() / 1000.0), "t CO2e/yr"),
     ]
     ss = t.get("safety_stock")
     if ss is not None:
         rows += [
             ("safety_stock_units", float(ss["ss_units_exact"].sum()), "units (exact formula, customers served)"),
-            ("safety_stock_cost_model", float(ss["cost_model"].sum()), "currency/yr (piecewise-linear, in the objective)"),
+            (
+                "safety_stock_cost_model",
+                float(ss["cost_model"].sum()),
+                "currency/yr (piecewise-linear, in the objective)",
+            ),
             ("safety_stock_cost_exact", float(ss["cost_exact"].sum()), "currency/yr (exact formula)"),
-            ("safety_stock_pwl_max_rel_error", float(ss["max_rel_error"].max()) if len(ss) else 0.0,
-             "ratio (curve vs. its piecewise-linear form, over the breakpoint range)"),
+            (
+                "safety_stock_pwl_max_rel_error",
+                float(ss["max_rel_error"].max()) if len(ss) else 0.0,
+                "ratio (curve vs. its piecewise-linear form, over the breakpoint range)",
+            ),
         ]
     inv = t.get("inventory_kpis")
     if inv is not None and len(inv):

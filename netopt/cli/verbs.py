@@ -12,19 +12,38 @@ import math
 import sys
 import time
 
-from netopt.cli import COMMON, EXIT_INFEASIBLE, EXIT_OK, EXIT_SOLVER, print_warnings, say
+from netopt.cli.common import COMMON, EXIT_INFEASIBLE, EXIT_OK, EXIT_SOLVER, print_warnings, say
+from netopt.data.io import load_case
+from netopt.engine.solve import solve
+from netopt.present.files import _jsonable, atomic_folder, write_result_files, write_run, write_workbook
+from netopt.present.report import write_report
+from netopt.studies.frontier import frontier
+from netopt.studies.resilience import stress_command
+from netopt.studies.scenarios import parse_scenarios, run_scenarios
 
 SOLVER_OPTIONS = argparse.ArgumentParser(add_help=False)
-SOLVER_OPTIONS.add_argument("--out", required=True, metavar="DIR",
-                            help="results folder (written completely or not at all; an earlier folder is replaced)")
-SOLVER_OPTIONS.add_argument("--time-limit", type=float, metavar="S",
-                            help="stop the search after S seconds and keep the best plan found (default: settings)")
-SOLVER_OPTIONS.add_argument("--gap", type=float, metavar="G",
-                            help="stop when the plan is proven within G of the best possible cost, "
-                                 "e.g. 0.001 = 0.1%% (default: settings)")
+SOLVER_OPTIONS.add_argument(
+    "--out",
+    required=True,
+    metavar="DIR",
+    help="results folder (written completely or not at all; an earlier folder is replaced)",
+)
+SOLVER_OPTIONS.add_argument(
+    "--time-limit",
+    type=float,
+    metavar="S",
+    help="stop the search after S seconds and keep the best plan found (default: settings)",
+)
+SOLVER_OPTIONS.add_argument(
+    "--gap",
+    type=float,
+    metavar="G",
+    help="stop when the plan is proven within G of the best possible cost, e.g. 0.001 = 0.1%% (default: settings)",
+)
 SOLVER_OPTIONS.add_argument("--threads", type=int, metavar="N", help="solver threads (default: settings, usually 1)")
-SOLVER_OPTIONS.add_argument("--json", action="store_true",
-                            help="print the summary as JSON on stdout (for scripts) instead of tables")
+SOLVER_OPTIONS.add_argument(
+    "--json", action="store_true", help="print the summary as JSON on stdout (for scripts) instead of tables"
+)
 SOLVER_OPTIONS.add_argument("--no-report", action="store_true", help="skip the HTML report")
 
 
@@ -34,14 +53,25 @@ def _console():
 
     from rich.console import Console
 
-    width = None if sys.stdout.isatty() else int(os.environ.get("COLUMNS", 0)) or max(
-        120, shutil.get_terminal_size((120, 24)).columns)
+    width = (
+        None
+        if sys.stdout.isatty()
+        else int(os.environ.get("COLUMNS", 0)) or max(120, shutil.get_terminal_size((120, 24)).columns)
+    )
     return Console(highlight=False, width=width)
 
 
-TERMINAL_VIEW = [("scenario", "scenario"), ("total_cost", "total cost"), ("delta_cost", "Δ vs base"),
-                 ("dcs_open", "DCs"), ("share_within_window", "in window"), ("lost_units", "lost units"),
-                 ("co2e_tonnes", "CO2e t"), ("status", "status"), ("verified", "checked")]
+TERMINAL_VIEW = [
+    ("scenario", "scenario"),
+    ("total_cost", "total cost"),
+    ("delta_cost", "Δ vs base"),
+    ("dcs_open", "DCs"),
+    ("share_within_window", "in window"),
+    ("lost_units", "lost units"),
+    ("co2e_tonnes", "CO2e t"),
+    ("status", "status"),
+    ("verified", "checked"),
+]
 
 
 def _money(x) -> str:
@@ -65,16 +95,23 @@ def _progress_printer(args):
                 return
             last[0] = now
             gap = info.get("gap")
-            print(f"[{now:7.1f}s]   searching: best {_money(info.get('objective'))}, bound {_money(info.get('bound'))}"
-                  + (f", gap {gap:.3%}" if isinstance(gap, float) and math.isfinite(gap) else ""), flush=True)
+            print(
+                f"[{now:7.1f}s]   searching: best {_money(info.get('objective'))}, bound {_money(info.get('bound'))}"
+                + (f", gap {gap:.3%}" if isinstance(gap, float) and math.isfinite(gap) else ""),
+                flush=True,
+            )
             return
         text = {
             "lanes": lambda: f"lanes: {info.get('lanes', 0):,} lanes generated and read",
             "build": lambda: f"model: {info.get('arcs', 0):,} flow arcs",
-            "solve": lambda: (f"solving: {info.get('columns', 0):,} variables ({info.get('binaries', 0):,} yes/no), "
-                              f"{info.get('rows', 0):,} constraints"),
-            "verified": lambda: f"verification: {'passed' if info.get('passed') else 'FAILED'} "
-                                f"(largest violation {info.get('largest', 0):.2e})",
+            "solve": lambda: (
+                f"solving: {info.get('columns', 0):,} variables ({info.get('binaries', 0):,} yes/no), "
+                f"{info.get('rows', 0):,} constraints"
+            ),
+            "verified": lambda: (
+                f"verification: {'passed' if info.get('passed') else 'FAILED'} "
+                f"(largest violation {info.get('largest', 0):.2e})"
+            ),
             "diagnose": lambda: "no feasible plan: re-solving with penalised slack to find what cannot be met",
         }.get(stage)
         if text:
@@ -85,16 +122,19 @@ def _progress_printer(args):
 
 def print_result(result, console=None) -> None:
     """Readable terminal summary of one solve: status, cost breakdown, DCs, KPIs."""
+    from rich.markup import escape
     from rich.table import Table
 
-    from rich.markup import escape
-
     con = console or _console()
-    status = result.status + ("" if result.status == "optimal" else "  (best plan found, not proven optimal)"
-                              if result.has_solution else "")
-    con.print(f"[bold]{escape(result.case_name)}[/bold]: {status}; cost {_money(result.objective)}, "
-              f"bound {_money(result.bound)}, gap {result.gap:.4%}" if result.has_solution and math.isfinite(result.gap)
-              else f"[bold]{escape(result.case_name)}[/bold]: {status}")
+    status = result.status + (
+        "" if result.status == "optimal" else "  (best plan found, not proven optimal)" if result.has_solution else ""
+    )
+    con.print(
+        f"[bold]{escape(result.case_name)}[/bold]: {status}; cost {_money(result.objective)}, "
+        f"bound {_money(result.bound)}, gap {result.gap:.4%}"
+        if result.has_solution and math.isfinite(result.gap)
+        else f"[bold]{escape(result.case_name)}[/bold]: {status}"
+    )
     if result.diagnosis is not None:
         t = Table(title="What cannot be met (elastic re-solve)")
         for c in result.diagnosis.columns:
@@ -121,8 +161,13 @@ def print_result(result, console=None) -> None:
         t.add_column(c, justify="right" if c in ("throughput", "utilisation") else "left")
     for row in d.itertuples(index=False):
         u = row.utilisation
-        t.add_row(row.dc, row.status, row.decision, _money(row.throughput),
-                  "" if u is None or (isinstance(u, float) and math.isnan(u)) else f"{u:.0%}")
+        t.add_row(
+            row.dc,
+            row.status,
+            row.decision,
+            _money(row.throughput),
+            "" if u is None or (isinstance(u, float) and math.isnan(u)) else f"{u:.0%}",
+        )
     con.print(t)
     k = result.tables["kpis"]
     t = Table(title="Key indicators")
@@ -131,22 +176,26 @@ def print_result(result, console=None) -> None:
     t.add_column("unit")
     for row in k.itertuples(index=False):
         v = row.value
-        txt = "–" if v is None or (isinstance(v, float) and math.isnan(v)) else (
-            f"{v:.1%}" if "share" in row.unit else f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}")
+        txt = (
+            "–"
+            if v is None or (isinstance(v, float) and math.isnan(v))
+            else (f"{v:.1%}" if "share" in row.unit else f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}")
+        )
         t.add_row(row.kpi.replace("_", " "), txt, row.unit)
     con.print(t)
     v = result.verification
     if v is not None:
-        con.print(f"Independent check: {'[green]passed[/green]' if v.passed else '[red]FAILED[/red]'} — recomputed cost "
-                  f"{_money(v.recomputed_objective)}, largest violation {v.largest_violation:.2e} "
-                  f"({v.largest_violation_rule})")
+        con.print(
+            f"Independent check: {'[green]passed[/green]' if v.passed else '[red]FAILED[/red]'} — recomputed cost "
+            f"{_money(v.recomputed_objective)}, largest violation {v.largest_violation:.2e} "
+            f"({v.largest_violation_rule})"
+        )
 
 
 def print_comparison(comparison, console=None) -> None:
     """The scenario comparison as a terminal table."""
-    from rich.table import Table
-
     from rich.markup import escape
+    from rich.table import Table
 
     con = console or _console()
     cols = [(c, n) for c, n in TERMINAL_VIEW if c in comparison.columns]
@@ -166,8 +215,11 @@ def print_comparison(comparison, console=None) -> None:
                 elif "days" in c:
                     cells.append(f"{v:.2f}")
                 elif c == "Δ vs base":
-                    cells.append(("[red]" if v > 0.5 else "[green]" if v < -0.5 else "") + f"{v:+,.0f}"
-                                 + ("[/red]" if v > 0.5 else "[/green]" if v < -0.5 else ""))
+                    cells.append(
+                        ("[red]" if v > 0.5 else "[green]" if v < -0.5 else "")
+                        + f"{v:+,.0f}"
+                        + ("[/red]" if v > 0.5 else "[/green]" if v < -0.5 else "")
+                    )
                 else:
                     cells.append(f"{v:,.0f}")
             else:
@@ -179,8 +231,13 @@ def print_comparison(comparison, console=None) -> None:
         # Numbers are never cut short: their columns are as wide as their widest cell; names wrap instead.
         text = c in ("scenario", "status")
         widest = max((Text.from_markup(r[j]).cell_len for r in rows), default=0)
-        t.add_column(str(c), justify="left" if text else "right", no_wrap=not text,
-                     min_width=None if text else widest, overflow="fold")
+        t.add_column(
+            str(c),
+            justify="left" if text else "right",
+            no_wrap=not text,
+            min_width=None if text else widest,
+            overflow="fold",
+        )
     for cells in rows:
         t.add_row(*cells)
     con.print(t)
@@ -188,36 +245,31 @@ def print_comparison(comparison, console=None) -> None:
 
 # --------------------------------------------------------------------------- solve
 
+
 def add_solve(sub) -> None:
     p = sub.add_parser(
-        "solve", parents=[COMMON, SOLVER_OPTIONS],
+        "solve",
+        parents=[COMMON, SOLVER_OPTIONS],
         help="design the network for one case and write the results",
         description="Choose DC openings, supplier splits and transport modes at the least total landed cost for "
-                    "the case, check the plan independently, and write flows, DC decisions, supplier shares, "
-                    "mode mix, service, cost breakdown and KPIs as CSV files, an Excel workbook, summary.json "
-                    "and an HTML report.")
+        "the case, check the plan independently, and write flows, DC decisions, supplier shares, "
+        "mode mix, service, cost breakdown and KPIs as CSV files, an Excel workbook, summary.json "
+        "and an HTML report.",
+    )
     p.add_argument("case", metavar="CASE", help="case folder (settings.toml + CSV tables) or .xlsx workbook")
     p.set_defaults(func=cmd_solve)
 
 
 def cmd_solve(args: argparse.Namespace) -> int:
-    from netopt.api import solve
-    from netopt.io import load_case
-    from netopt.output import atomic_folder, write_result_files
-
     case = load_case(args.case)
     print_warnings(args, case)
-    r = solve(case, time_limit=args.time_limit, mip_gap=args.gap, threads=args.threads,
-              progress=_progress_printer(args))
+    r = solve(
+        case, time_limit=args.time_limit, mip_gap=args.gap, threads=args.threads, progress=_progress_printer(args)
+    )
     with atomic_folder(args.out) as tmp:
         write_result_files(r, tmp)
         if r.has_solution and not args.no_report:
-            try:
-                from netopt.report import write_report
-            except ImportError:
-                pass
-            else:
-                write_report(r, tmp / "report.html")
+            write_report(r, tmp / "report.html")
     if args.json:
         print(json.dumps(_json(r.summary()), indent=2))
     elif not args.quiet:
@@ -228,42 +280,45 @@ def cmd_solve(args: argparse.Namespace) -> int:
     if not r.has_solution:
         return EXIT_SOLVER
     if r.verification is not None and not r.verification.passed:
-        print(f"error: the independent check failed ({r.verification.largest_violation_rule}: "
-              f"{r.verification.largest_violation:.3g})", file=sys.stderr)
+        print(
+            f"error: the independent check failed ({r.verification.largest_violation_rule}: "
+            f"{r.verification.largest_violation:.3g})",
+            file=sys.stderr,
+        )
         return EXIT_SOLVER
     return EXIT_OK
 
 
 def _json(obj):
-    from netopt.output import _jsonable
-
     return _jsonable(obj)
 
 
 # --------------------------------------------------------------------------- run
 
+
 def add_run(sub) -> None:
     p = sub.add_parser(
-        "run", parents=[COMMON, SOLVER_OPTIONS],
+        "run",
+        parents=[COMMON, SOLVER_OPTIONS],
         help="solve the base case and every what-if scenario, and compare them side by side",
         description="Solve the base case and the scenarios in the case's scenarios.toml (new DCs, closures, lost "
-                    "lanes, suppliers or plants, supplier caps, demand and cost changes). Disruptions can be "
-                    "re-solved holding the network (short-term recovery, DC decisions kept) and redesigning "
-                    "(long-term). Writes comparison.csv/.md, results.xlsx, summary.json, report.html and one "
-                    "sub-folder per scenario.")
+        "lanes, suppliers or plants, supplier caps, demand and cost changes). Disruptions can be "
+        "re-solved holding the network (short-term recovery, DC decisions kept) and redesigning "
+        "(long-term). Writes comparison.csv/.md, results.xlsx, summary.json, report.html and one "
+        "sub-folder per scenario.",
+    )
     p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
     p.add_argument("--only", metavar="NAMES", help="comma-separated scenario names to run (the base always runs)")
-    p.add_argument("--cold", action="store_true",
-                   help="rebuild every hold-the-network re-solve instead of re-solving warm (for comparisons)")
+    p.add_argument(
+        "--cold",
+        action="store_true",
+        help="rebuild every hold-the-network re-solve instead of re-solving warm (for comparisons)",
+    )
     p.add_argument("--list", action="store_true", help="list the scenarios and exit")
     p.set_defaults(func=cmd_run)
 
 
 def cmd_run(args: argparse.Namespace) -> int:
-    from netopt.io import load_case
-    from netopt.output import write_run
-    from netopt.scenarios import parse_scenarios, run_scenarios
-
     case = load_case(args.case)
     print_warnings(args, case)
     scenarios = parse_scenarios(case.scenarios)
@@ -287,8 +342,9 @@ def cmd_run(args: argparse.Namespace) -> int:
         from rich.markup import escape
         from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn
 
-        with Progress(TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(),
-                      transient=False) as bar:
+        with Progress(
+            TextColumn("{task.description}"), BarColumn(), MofNCompleteColumn(), TimeElapsedColumn(), transient=False
+        ) as bar:
             task = bar.add_task("scenarios", total=n_total)
 
             def progress(event, info):
@@ -315,49 +371,73 @@ def cmd_run(args: argparse.Namespace) -> int:
 
 # --------------------------------------------------------------------------- stress
 
+
 def add_stress(sub) -> None:
     p = sub.add_parser(
-        "stress", parents=[COMMON],
+        "stress",
+        parents=[COMMON],
         help="single points of failure and time-to-survive exposure of the base network",
         description="Take each supplier, plant, open DC and used lane out of the solved base network one at a "
-                    "time, re-route holding the network (and optionally redesign), and rank them by recovery cost "
-                    "and lost demand. Then, per site, the time the network survives on its stock (time to "
-                    "survive) against the time to restore it (time to recover), and the demand lost meanwhile. "
-                    "Runs on all local cores, or on a Dask cluster; an interrupted sweep resumes where it stopped.")
+        "time, re-route holding the network (and optionally redesign), and rank them by recovery cost "
+        "and lost demand. Then, per site, the time the network survives on its stock (time to "
+        "survive) against the time to restore it (time to recover), and the demand lost meanwhile. "
+        "Runs on all local cores, or on a Dask cluster; an interrupted sweep resumes where it stopped.",
+    )
     p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
-    p.add_argument("--out", required=True, metavar="DIR", help="results folder (spof_ranking.csv, exposure.csv, stress.xlsx, summary.json; the sweep journal lets an interrupted run resume)")
-    p.add_argument("--workers", type=int, metavar="N",
-                   help="local worker processes (default: all cores; 0 = in this process)")
-    p.add_argument("--scheduler", metavar="ADDR",
-                   help="address of a running Dask scheduler (e.g. tcp://10.0.0.5:8786) to run the sweep there")
+    p.add_argument(
+        "--out",
+        required=True,
+        metavar="DIR",
+        help="results folder (spof_ranking.csv, exposure.csv, stress.xlsx, summary.json; the sweep journal lets an interrupted run resume)",
+    )
+    p.add_argument(
+        "--workers", type=int, metavar="N", help="local worker processes (default: all cores; 0 = in this process)"
+    )
+    p.add_argument(
+        "--scheduler",
+        metavar="ADDR",
+        help="address of a running Dask scheduler (e.g. tcp://10.0.0.5:8786) to run the sweep there",
+    )
     p.add_argument("--redesign", action="store_true", help="also re-optimise DC decisions for each loss (slower)")
     p.add_argument("--only", metavar="TYPES", help="comma-separated element types to sweep: supplier,plant,dc,lane")
     p.add_argument("--fresh", action="store_true", help="ignore the journal of an earlier, interrupted sweep")
-    p.add_argument("--hard-rules", action="store_true",
-                   help="never bend service windows, share limits or the CO2 cap during a disruption "
-                        "(default: bending is allowed at each rule's base shadow price, and reported)")
+    p.add_argument(
+        "--hard-rules",
+        action="store_true",
+        help="never bend service windows, share limits or the CO2 cap during a disruption "
+        "(default: bending is allowed at each rule's base shadow price, and reported)",
+    )
     p.set_defaults(func=cmd_stress)
 
 
 def cmd_stress(args: argparse.Namespace) -> int:
-    from netopt.resilience import stress_command
-
     only = [x.strip() for x in args.only.split(",") if x.strip()] if args.only else None
-    return stress_command(args.case, args.out, workers=args.workers, scheduler=args.scheduler,
-                          redesign=args.redesign, only=only, fresh=args.fresh,
-                          rules="hard" if args.hard_rules else "priced", quiet=args.quiet)
+    return stress_command(
+        args.case,
+        args.out,
+        workers=args.workers,
+        scheduler=args.scheduler,
+        redesign=args.redesign,
+        only=only,
+        fresh=args.fresh,
+        rules="hard" if args.hard_rules else "priced",
+        quiet=args.quiet,
+    )
 
 
 # --------------------------------------------------------------------------- frontier
 
+
 def add_frontier(sub) -> None:
     p = sub.add_parser(
-        "frontier", parents=[COMMON],
+        "frontier",
+        parents=[COMMON],
         help="cost–CO2 trade-off curve: the cheapest network at each CO2 level",
         description="Solve the cost-optimal and the CO2-minimal network, then the cheapest network at N-2 CO2e caps "
-                    "evenly between them (epsilon constraint). Each point lists total cost, CO2e, DCs open and the "
-                    "mode mix, and the cost per tonne abated. A scenario can ask for the same with "
-                    "frontier_points = N in scenarios.toml (then `netopt run` writes it).")
+        "evenly between them (epsilon constraint). Each point lists total cost, CO2e, DCs open and the "
+        "mode mix, and the cost per tonne abated. A scenario can ask for the same with "
+        "frontier_points = N in scenarios.toml (then `netopt run` writes it).",
+    )
     p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
     p.add_argument("--out", required=True, metavar="DIR", help="results folder (frontier.csv, frontier.xlsx)")
     p.add_argument("--points", type=int, default=5, metavar="N", help="points on the curve, ends included (default 5)")
@@ -367,10 +447,6 @@ def add_frontier(sub) -> None:
 
 def cmd_frontier(args: argparse.Namespace) -> int:
     from rich.table import Table
-
-    from netopt.frontier import frontier
-    from netopt.io import load_case
-    from netopt.output import atomic_folder, write_workbook
 
     if args.points < 2:
         print("error: --points must be at least 2 (the two ends of the curve)", file=sys.stderr)
@@ -388,8 +464,14 @@ def cmd_frontier(args: argparse.Namespace) -> int:
         for c in ("point", "co2_t", "total_cost", "cost_per_t_abated", "dcs_open", "mode_mix"):
             t.add_column(c.replace("_", " "), justify="left" if c == "mode_mix" else "right")
         for r in table.itertuples(index=False):
-            t.add_row(str(r.point), f"{r.co2_t:,.0f}", _money(r.total_cost), _money(getattr(r, "cost_per_t_abated", None)),
-                      str(r.dcs_open), str(r.mode_mix))
+            t.add_row(
+                str(r.point),
+                f"{r.co2_t:,.0f}",
+                _money(r.total_cost),
+                _money(getattr(r, "cost_per_t_abated", None)),
+                str(r.dcs_open),
+                str(r.mode_mix),
+            )
         _console().print(t)
         say(args, f"results written to {args.out}")
     return EXIT_OK if table["status"].isin(["optimal", "time_limit"]).all() else EXIT_SOLVER

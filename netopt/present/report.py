@@ -1,7 +1,7 @@
 """The analyst's report: one self-contained HTML file with a network map, charts and tables.
 
 :func:`write_report` takes a :class:`~netopt.scenarios.ScenarioRun` (base and scenarios)
-or a single :class:`~netopt.api.Result` and writes ``report.html``: every chart is inline
+or a single :class:`~netopt.engine.solve.Result` and writes ``report.html``: every chart is inline
 SVG drawn with matplotlib, the page is a Jinja2 template with its CSS inlined, and nothing
 is fetched from the network when the file is opened.  Money is in the case currency per
 year, volumes in units/yr or tonnes/yr, times in days.
@@ -20,7 +20,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from netopt.output import DISCLAIMER, MONEY_HINTS, SHARE_HINTS
+from netopt.present.labels import DISCLAIMER, MONEY_HINTS, SHARE_HINTS
 
 # ----------------------------------------------------------------------------- design
 
@@ -45,53 +45,135 @@ SITE_STYLE = {
 }
 
 MODE_HINTS = [  # (name fragment, colour): common mode names get familiar colours
-    ("ltl", "#e1a82c"), ("parcel", "#e1a82c"), ("courier", "#e1a82c"),
-    ("ocean", "#1f5ea6"), ("sea", "#1f5ea6"), ("ship", "#1f5ea6"),
-    ("rail", "#7c3f98"), ("train", "#7c3f98"),
-    ("air", "#c0392b"), ("barge", "#2a9d8f"), ("inland", "#2a9d8f"), ("river", "#2a9d8f"),
-    ("road", "#d8772a"), ("truck", "#d8772a"),
+    ("ltl", "#e1a82c"),
+    ("parcel", "#e1a82c"),
+    ("courier", "#e1a82c"),
+    ("ocean", "#1f5ea6"),
+    ("sea", "#1f5ea6"),
+    ("ship", "#1f5ea6"),
+    ("rail", "#7c3f98"),
+    ("train", "#7c3f98"),
+    ("air", "#c0392b"),
+    ("barge", "#2a9d8f"),
+    ("inland", "#2a9d8f"),
+    ("river", "#2a9d8f"),
+    ("road", "#d8772a"),
+    ("truck", "#d8772a"),
 ]
 FALLBACK = ["#3a7d44", "#9c4f76", "#5a6f8f", "#b38b2d", "#4a9bb0", "#8a5a3c", "#6c7a2a", "#a04545"]
 
 COST_COLOURS = {
-    "supply": "#8a6a3d", "production": "#433d7a", "dc_fixed": "#0e6f68", "dc_closing": "#6aa39d",
-    "dc_handling": "#9cc7bf", "transport": "#d8772a", "pipeline_inventory": "#5f86ab",
-    "safety_stock": "#a7c1da", "carbon": "#5b8a3a", "unmet_penalty": "#b3261e",
+    "supply": "#8a6a3d",
+    "production": "#433d7a",
+    "dc_fixed": "#0e6f68",
+    "dc_closing": "#6aa39d",
+    "dc_handling": "#9cc7bf",
+    "transport": "#d8772a",
+    "pipeline_inventory": "#5f86ab",
+    "safety_stock": "#a7c1da",
+    "carbon": "#5b8a3a",
+    "unmet_penalty": "#b3261e",
 }
 
 KNOWN_EXTRA = {  # extra table name → section title and one line on what it shows
     "frontier": ("Cost–CO2e frontier", "Least landed cost at each level of CO2e (or each carbon price)."),
     "safety_stock": ("Safety stock", "Safety stock held at each DC and product (units) and its yearly cost."),
-    "spof": ("Single points of failure", "Each element taken out on its own, ranked by the yearly impact of "
-             "its loss (recovery cost plus lost demand value)."),
-    "spof_ranking": ("Single points of failure", "Each element taken out on its own, ranked by the yearly "
-                     "impact of its loss (recovery cost plus lost demand value)."),
-    "exposure": ("Time to survive and time to recover", "Per node: how long the network lasts with it down "
-                 "(time to survive) against how long it takes to recover."),
-    "pipeline": ("Pipeline stock", "Stock in transit per lane, mode and product (Little's law: units/yr × "
-                 "transit days ÷ 365)."),
-    "inventory_kpis": ("Inventory indicators", "Safety and pipeline stock per DC and for the network, in days "
-                       "of throughput and turns per year."),
-    "mode_economics": ("Mode economics", "Every admissible mode of the busiest lanes: yearly cost and CO2e if the "
-                       "lane's whole volume went by that mode, and the cost of switching to it."),
+    "spof": (
+        "Single points of failure",
+        "Each element taken out on its own, ranked by the yearly impact of "
+        "its loss (recovery cost plus lost demand value).",
+    ),
+    "spof_ranking": (
+        "Single points of failure",
+        "Each element taken out on its own, ranked by the yearly "
+        "impact of its loss (recovery cost plus lost demand value).",
+    ),
+    "exposure": (
+        "Time to survive and time to recover",
+        "Per node: how long the network lasts with it down (time to survive) against how long it takes to recover.",
+    ),
+    "pipeline": (
+        "Pipeline stock",
+        "Stock in transit per lane, mode and product (Little's law: units/yr × transit days ÷ 365).",
+    ),
+    "inventory_kpis": (
+        "Inventory indicators",
+        "Safety and pipeline stock per DC and for the network, in days of throughput and turns per year.",
+    ),
+    "mode_economics": (
+        "Mode economics",
+        "Every admissible mode of the busiest lanes: yearly cost and CO2e if the "
+        "lane's whole volume went by that mode, and the cost of switching to it.",
+    ),
 }
 KNOWN_COLUMNS = {  # extra table name → the columns worth showing on the page (all are in the workbook)
-    "safety_stock": ["dc", "product", "throughput", "customers_served", "lead_days", "ss_units_model",
-                     "ss_units_exact", "pwl_rel_error", "cost_model"],
-    "spof": ["rank", "element", "type", "base_units", "recovery_cost", "lost_units", "lost_value", "impact",
-             "customers_affected", "took_over"],
+    "safety_stock": [
+        "dc",
+        "product",
+        "throughput",
+        "customers_served",
+        "lead_days",
+        "ss_units_model",
+        "ss_units_exact",
+        "pwl_rel_error",
+        "cost_model",
+    ],
+    "spof": [
+        "rank",
+        "element",
+        "type",
+        "base_units",
+        "recovery_cost",
+        "lost_units",
+        "lost_value",
+        "impact",
+        "customers_affected",
+        "took_over",
+    ],
     "exposure": ["rank", "node", "type", "ttr_days", "tts_days", "lost_units", "lost_value", "rei", "tts_below_ttr"],
-    "pipeline": ["origin", "destination", "mode", "product", "quantity", "transit_days", "in_transit_units",
-                 "in_transit_value"],
-    "inventory_kpis": ["level", "dc", "throughput_units", "safety_stock_units", "safety_stock_value",
-                       "pipeline_value", "inventory_value", "days_on_hand", "days_incl_transit", "turns"],
-    "mode_economics": ["origin", "destination", "product", "mode", "chosen", "share", "transit_days", "total_cost",
-                       "co2_kg", "switch_cost", "cost_per_t_co2_saved"],
+    "pipeline": [
+        "origin",
+        "destination",
+        "mode",
+        "product",
+        "quantity",
+        "transit_days",
+        "in_transit_units",
+        "in_transit_value",
+    ],
+    "inventory_kpis": [
+        "level",
+        "dc",
+        "throughput_units",
+        "safety_stock_units",
+        "safety_stock_value",
+        "pipeline_value",
+        "inventory_value",
+        "days_on_hand",
+        "days_incl_transit",
+        "turns",
+    ],
+    "mode_economics": [
+        "origin",
+        "destination",
+        "product",
+        "mode",
+        "chosen",
+        "share",
+        "transit_days",
+        "total_cost",
+        "co2_kg",
+        "switch_cost",
+        "cost_per_t_co2_saved",
+    ],
 }
 KNOWN_ORDER = {  # extra table name → (sort columns, ascending, rows shown): the largest first
     "pipeline": (["in_transit_value"], [False], 25),
-    "mode_economics": (["quantity", "origin", "destination", "product", "total_cost"], [False, True, True, True, True],
-                       30),
+    "mode_economics": (
+        ["quantity", "origin", "destination", "product", "total_cost"],
+        [False, True, True, True, True],
+        30,
+    ),
 }
 KNOWN_COLUMNS["spof_ranking"] = KNOWN_COLUMNS["spof"]
 STANDARD_TABLES = {"flows", "production", "dcs", "supplier_shares", "mode_mix", "service", "unmet", "cost", "kpis"}
@@ -101,12 +183,24 @@ ASSETS = Path(__file__).resolve().parent / "report_assets"
 
 # ----------------------------------------------------------------------------- matplotlib helpers
 
+
 def _rc():
     return {
-        "font.family": "DejaVu Sans", "font.size": 9, "axes.edgecolor": GRID, "axes.labelcolor": INK,
-        "xtick.color": MUTED, "ytick.color": MUTED, "text.color": INK, "axes.titleweight": "bold",
-        "axes.titlesize": 10, "axes.titlelocation": "left", "svg.fonttype": "none", "svg.hashsalt": "netopt",
-        "axes.spines.top": False, "axes.spines.right": False, "legend.frameon": False,
+        "font.family": "DejaVu Sans",
+        "font.size": 9,
+        "axes.edgecolor": GRID,
+        "axes.labelcolor": INK,
+        "xtick.color": MUTED,
+        "ytick.color": MUTED,
+        "text.color": INK,
+        "axes.titleweight": "bold",
+        "axes.titlesize": 10,
+        "axes.titlelocation": "left",
+        "svg.fonttype": "none",
+        "svg.hashsalt": "netopt",
+        "axes.spines.top": False,
+        "axes.spines.right": False,
+        "legend.frameon": False,
     }
 
 
@@ -118,13 +212,13 @@ def _svg(fig) -> str:
     buf = io.StringIO()
     fig.savefig(buf, format="svg", facecolor="none", edgecolor="none", metadata={"Date": None})
     text = buf.getvalue()
-    text = text[text.index("<svg"):]
+    text = text[text.index("<svg") :]
     pre = f"f{next(_svg_counter)}-"
     text = re.sub(r'\bid="', f'id="{pre}', text)
     text = re.sub(r"url\(#", f"url(#{pre}", text)
     text = re.sub(r'xlink:href="#', f'xlink:href="#{pre}', text)
     width = re.search(r'<svg[^>]*?\swidth="([\d.]+)pt"', text)
-    text = re.sub(r'(<svg[^>]*?)\swidth="[^"]*"\s+height="[^"]*"', r'\1', text, count=1)
+    text = re.sub(r'(<svg[^>]*?)\swidth="[^"]*"\s+height="[^"]*"', r"\1", text, count=1)
     style = f' style="max-width:{float(width.group(1)) * 4 / 3:.0f}px"' if width else ""
     return text.replace("<svg ", f'<svg role="img"{style} ', 1)
 
@@ -140,9 +234,9 @@ def _chart(w: float, h: float, left: float = 0.8, right: float = 0.2, top: float
 
 def _label_inches(labels, size: float = 8.0) -> float:
     """Room for the widest of ``labels`` at ``size`` points (DejaVu Sans character widths, roughly)."""
+
     def em(ch: str) -> float:
-        return 0.72 if ch.isupper() or ch in "_MW@%" else 0.64 if ch.isdigit() else 0.36 if ch in " .,:;|il'" \
-            else 0.58
+        return 0.72 if ch.isupper() or ch in "_MW@%" else 0.64 if ch.isdigit() else 0.36 if ch in " .,:;|il'" else 0.58
 
     longest = max((sum(em(c) for c in str(x)) for x in labels), default=0.0)
     return 0.15 + longest * size / 72.0
@@ -159,8 +253,9 @@ def _hbars(ax, y, width, left=0.0, colour=INK, height=0.66, edge="white", lw=0.5
     if not keep.any():
         return
     y, width, left = y[keep], width[keep], left[keep]
-    colours = np.broadcast_to(np.asarray(colour, dtype=object), keep.shape)[keep] if not isinstance(colour, str) \
-        else colour
+    colours = (
+        np.broadcast_to(np.asarray(colour, dtype=object), keep.shape)[keep] if not isinstance(colour, str) else colour
+    )
     h = height / 2
     verts = [[(x, yy - h), (x + w, yy - h), (x + w, yy + h), (x, yy + h)] for yy, w, x in zip(y, width, left)]
     ax.add_collection(PolyCollection(verts, facecolors=colours, edgecolors=edge, linewidths=lw), autolim=True)
@@ -230,6 +325,7 @@ def mode_colours(modes) -> dict[str, str]:
 
 # ----------------------------------------------------------------------------- map geometry
 
+
 def project(lat, lon, lat0: float, lon0: float):
     """Equirectangular projection centred on (lat0, lon0): x = Δlon·cos(lat0), y = lat (degrees).
 
@@ -247,8 +343,9 @@ def site_table(result) -> pd.DataFrame:
     lanes = getattr(result, "lanes", None)
     if lanes is not None and len(lanes) and "origin_lat" in lanes.columns:
         for end in ("origin", "destination"):
-            parts.append(lanes[[end, f"{end}_kind", f"{end}_lat", f"{end}_lon"]].set_axis(
-                ["site", "kind", "lat", "lon"], axis=1))
+            parts.append(
+                lanes[[end, f"{end}_kind", f"{end}_lat", f"{end}_lon"]].set_axis(["site", "kind", "lat", "lon"], axis=1)
+            )
     d = result.tables["dcs"]
     parts.append(pd.DataFrame({"site": d["dc"], "kind": "dc", "lat": d["lat"], "lon": d["lon"]}))
     s = pd.concat(parts, ignore_index=True).dropna(subset=["lat", "lon"]).drop_duplicates("site")
@@ -257,8 +354,10 @@ def site_table(result) -> pd.DataFrame:
     used = set(flows["origin"])
     style = np.where(s["kind"].eq("supplier"), np.where(s["site"].isin(used), "supplier", "supplier_idle"), s["kind"])
     dec = dict(zip(d["dc"], d["decision"]))
-    style = [{"keep": "dc_keep", "open": "dc_open", "close": "dc_close"}.get(dec.get(site), "dc_idle")
-             if k == "dc" else st for site, k, st in zip(s["site"], s["kind"], style)]
+    style = [
+        {"keep": "dc_keep", "open": "dc_open", "close": "dc_close"}.get(dec.get(site), "dc_idle") if k == "dc" else st
+        for site, k, st in zip(s["site"], s["kind"], style)
+    ]
     s["style"] = style
     demand = result.tables["service"].set_index("customer")["demand"] if len(result.tables["service"]) else {}
     s["size"] = s["site"].map(demand).fillna(0.0).astype(float)
@@ -339,8 +438,11 @@ def _pin_to_edge(s: pd.DataFrame, extent) -> None:
             _spread(pts, ids, axis=1, gap=gap_y, lo=iy0, hi=iy1)
         else:
             ye = iy0 if edge == "bottom" else iy1
-            ids = [i for i, (px, py) in pts.items() if abs(py - ye) < 1e-9 and not (
-                abs(px - ix0) < 1e-9 or abs(px - ix1) < 1e-9)]
+            ids = [
+                i
+                for i, (px, py) in pts.items()
+                if abs(py - ye) < 1e-9 and not (abs(px - ix0) < 1e-9 or abs(px - ix1) < 1e-9)
+            ]
             _spread(pts, ids, axis=0, gap=gap_x, lo=ix0, hi=ix1)
     for i, (px, py) in pts.items():
         s.at[i, "px"], s.at[i, "py"] = px, py
@@ -406,7 +508,8 @@ def _flow_lines(flows: pd.DataFrame) -> pd.DataFrame:
     if flows.empty:
         return pd.DataFrame(columns=["origin", "destination", "mode", "units", "tonnes"])
     return flows.groupby(["origin", "destination", "mode"], as_index=False).agg(
-        units=("quantity", "sum"), tonnes=("tonnes", "sum"))
+        units=("quantity", "sum"), tonnes=("tonnes", "sum")
+    )
 
 
 _BEZ = np.linspace(0.0, 1.0, 17)
@@ -418,7 +521,7 @@ def _curve(p, q, bend=0.10) -> np.ndarray:
     dx, dy = xb - xa, yb - ya
     cx, cy = (xa + xb) / 2 - bend * dy, (ya + yb) / 2 + bend * dx
     t = _BEZ[:, None]
-    return (1 - t) ** 2 * np.array([xa, ya]) + 2 * (1 - t) * t * np.array([cx, cy]) + t ** 2 * np.array([xb, yb])
+    return (1 - t) ** 2 * np.array([xa, ya]) + 2 * (1 - t) * t * np.array([cx, cy]) + t**2 * np.array([xb, yb])
 
 
 def network_map_svg(result, colours: dict[str, str]) -> tuple[str, str]:
@@ -462,10 +565,17 @@ def network_map_svg(result, colours: dict[str, str]) -> tuple[str, str]:
             sp.set_color("#b9c2bd")
         ordered = lines.sort_values("tonnes", ascending=False)
         if len(ordered):
-            ax.add_collection(LineCollection(
-                [_curve(pos[o], pos[d]) for o, d in zip(ordered["origin"], ordered["destination"])],
-                colors=[colours.get(m, MUTED) for m in ordered["mode"]], linewidths=width(ordered["tonnes"]),
-                alpha=0.85, capstyle="round", joinstyle="round", zorder=2))
+            ax.add_collection(
+                LineCollection(
+                    [_curve(pos[o], pos[d]) for o, d in zip(ordered["origin"], ordered["destination"])],
+                    colors=[colours.get(m, MUTED) for m in ordered["mode"]],
+                    linewidths=width(ordered["tonnes"]),
+                    alpha=0.85,
+                    capstyle="round",
+                    joinstyle="round",
+                    zorder=2,
+                )
+            )
         # Sites: customers first, DCs on top.
         order = ["customer", "supplier_idle", "supplier", "plant", "dc_idle", "dc_close", "dc_keep", "dc_open"]
         cmax = float(s.loc[s["style"] == "customer", "size"].max()) if (s["style"] == "customer").any() else 1.0
@@ -475,13 +585,30 @@ def network_map_svg(result, colours: dict[str, str]) -> tuple[str, str]:
                 continue
             marker, face, edge, size, _ = SITE_STYLE[st]
             sizes = (12 + 260 * g["size"] / (cmax or 1.0)) if st == "customer" else size
-            ax.scatter(g["px"], g["py"], s=sizes, marker=marker, c=face if face != "none" else "none",
-                       edgecolors=edge, linewidths=1.3 if face == "none" else 0.8,
-                       alpha=0.75 if st == "customer" else 1.0, zorder=5 + z)
+            ax.scatter(
+                g["px"],
+                g["py"],
+                s=sizes,
+                marker=marker,
+                c=face if face != "none" else "none",
+                edgecolors=edge,
+                linewidths=1.3 if face == "none" else 0.8,
+                alpha=0.75 if st == "customer" else 1.0,
+                zorder=5 + z,
+            )
         halo = {"boxstyle": "round,pad=0.12", "fc": "white", "ec": "none", "alpha": 0.75}
         for r in s[s["style"].isin(["plant", "dc_keep", "dc_open", "dc_close"]) & ~s["far"]].itertuples():
-            _ann(ax, _t(r.site), (r.px, r.py), xytext=(7, 5), textcoords="offset points", fontsize=7.5,
-                 color=INK, bbox=halo, zorder=20)
+            _ann(
+                ax,
+                _t(r.site),
+                (r.px, r.py),
+                xytext=(7, 5),
+                textcoords="offset points",
+                fontsize=7.5,
+                color=INK,
+                bbox=halo,
+                zorder=20,
+            )
         # Far sites: pinned to the edge, an arrow outwards and their coordinates.
         mx, my = (x0 + x1) / 2, (y0 + y1) / 2
         near = s[~s["far"]]
@@ -490,18 +617,33 @@ def network_map_svg(result, colours: dict[str, str]) -> tuple[str, str]:
             vx, vy = r.x - r.px, r.y - r.py
             n = math.hypot(vx, vy) or 1.0
             step = 0.03 * (x1 - x0)
-            _ann(ax, "", xy=(r.px + step * vx / n, r.py + step * vy / n), xytext=(r.px, r.py),
-                 arrowprops={"arrowstyle": "-|>", "color": MUTED, "lw": 1.0}, zorder=18)
+            _ann(
+                ax,
+                "",
+                xy=(r.px + step * vx / n, r.py + step * vy / n),
+                xytext=(r.px, r.py),
+                arrowprops={"arrowstyle": "-|>", "color": MUTED, "lw": 1.0},
+                zorder=18,
+            )
             right = r.px > mx
             bx0, bx1 = (r.px - lw_, r.px) if right else (r.px, r.px + lw_)
             inx = near["px"].between(bx0, bx1)
             crowd_above = int((inx & near["py"].between(r.py, r.py + lh_)).sum())
             crowd_below = int((inx & near["py"].between(r.py - lh_, r.py)).sum())
             top = crowd_below < crowd_above if crowd_below != crowd_above else r.py > my
-            _ann(ax, _t(f"{r.site}\n{_deg(round(r.lat, 1), 'N', 'S')} {_deg(round(r.lon, 1), 'E', 'W')}, off map"),
-                 (r.px, r.py), xytext=(-9 if right else 9, -10 if top else 6), textcoords="offset points",
-                 ha="right" if right else "left", va="top" if top else "bottom", fontsize=7, color=MUTED,
-                 bbox=halo, zorder=20)
+            _ann(
+                ax,
+                _t(f"{r.site}\n{_deg(round(r.lat, 1), 'N', 'S')} {_deg(round(r.lon, 1), 'E', 'W')}, off map"),
+                (r.px, r.py),
+                xytext=(-9 if right else 9, -10 if top else 6),
+                textcoords="offset points",
+                ha="right" if right else "left",
+                va="top" if top else "bottom",
+                fontsize=7,
+                color=MUTED,
+                bbox=halo,
+                zorder=20,
+            )
         ax.set_xlim(x0, x1)
         ax.set_ylim(y0, y1)
         ax.set_aspect("equal")
@@ -523,29 +665,62 @@ def network_map_svg(result, colours: dict[str, str]) -> tuple[str, str]:
         h_sites = []
         for st in [st for st in order if (s["style"] == st).any()]:
             marker, face, edge, size, label = SITE_STYLE[st]
-            h_sites.append(Line2D([], [], marker=marker, ls="", markersize=8 if st != "customer" else 7,
-                                  markerfacecolor=face, markeredgecolor=edge, label=label,
-                                  markeredgewidth=1.2 if face == "none" else 0.8))
+            h_sites.append(
+                Line2D(
+                    [],
+                    [],
+                    marker=marker,
+                    ls="",
+                    markersize=8 if st != "customer" else 7,
+                    markerfacecolor=face,
+                    markeredgecolor=edge,
+                    label=label,
+                    markeredgewidth=1.2 if face == "none" else 0.8,
+                )
+            )
         section("Sites", h_sites)
-        section("Flows by mode", [Line2D([], [], color=colours.get(m, MUTED), lw=3, label=_t(m))
-                                  for m in sorted(set(lines["mode"]))])
-        section("Flow volume", [Line2D([], [], color=INK, lw=float(width(v)), label=f"{_short(v)} t/yr")
-                                for v in _nice_samples(vmax)])
-        leg = lax.legend(handles, labels, loc="upper left", bbox_to_anchor=(0.0, 1.0), fontsize=8,
-                         handlelength=2.4, borderaxespad=0.0, labelspacing=0.55)
+        section(
+            "Flows by mode",
+            [Line2D([], [], color=colours.get(m, MUTED), lw=3, label=_t(m)) for m in sorted(set(lines["mode"]))],
+        )
+        section(
+            "Flow volume",
+            [Line2D([], [], color=INK, lw=float(width(v)), label=f"{_short(v)} t/yr") for v in _nice_samples(vmax)],
+        )
+        leg = lax.legend(
+            handles,
+            labels,
+            loc="upper left",
+            bbox_to_anchor=(0.0, 1.0),
+            fontsize=8,
+            handlelength=2.4,
+            borderaxespad=0.0,
+            labelspacing=0.55,
+        )
         for i, t in enumerate(leg.get_texts()):
             if i in heads:
                 t.set_fontweight("bold")
                 t.set_position((-28, 0))
         if far:
-            _overview(fig, s, lay, lines, colours, (x0, x1, y0, y1),
-                      box=((0.45 + map_w + 0.2) / fig_w, 0.35 / fig_h, 1 - (0.45 + map_w + 0.3) / fig_w))
-        caption = (f"Projection: equirectangular, true scale at {_deg(round(lay['lat0'], 1), 'N', 'S')}. "
-                   "Line width in proportion to tonnes/yr, summed over products; lines bend to the left of "
-                   "their direction of travel.")
+            _overview(
+                fig,
+                s,
+                lay,
+                lines,
+                colours,
+                (x0, x1, y0, y1),
+                box=((0.45 + map_w + 0.2) / fig_w, 0.35 / fig_h, 1 - (0.45 + map_w + 0.3) / fig_w),
+            )
+        caption = (
+            f"Projection: equirectangular, true scale at {_deg(round(lay['lat0'], 1), 'N', 'S')}. "
+            "Line width in proportion to tonnes/yr, summed over products; lines bend to the left of "
+            "their direction of travel."
+        )
         if far:
-            caption += (" Sites far outside the region are pinned to the map edge in their true direction, with "
-                        "their coordinates; the overview shows every site at its true position.")
+            caption += (
+                " Sites far outside the region are pinned to the map edge in their true direction, with "
+                "their coordinates; the overview shows every site at its true position."
+            )
         return _svg(fig), caption
 
 
@@ -574,13 +749,27 @@ def _overview(fig, s: pd.DataFrame, lay: dict, lines: pd.DataFrame, colours: dic
     _draw_graticule(ins, (X0, X1, Y0, Y1), lay["lat0"], lay["lon0"], step=30.0, labels=False)
     true = dict(zip(s["site"], zip(s["x"], s["y"])))
     if len(lines):
-        ins.add_collection(LineCollection([[true[o], true[d]] for o, d in zip(lines["origin"], lines["destination"])],
-                                          colors=[colours.get(m, MUTED) for m in lines["mode"]], linewidths=0.6,
-                                          alpha=0.6, zorder=2))
+        ins.add_collection(
+            LineCollection(
+                [[true[o], true[d]] for o, d in zip(lines["origin"], lines["destination"])],
+                colors=[colours.get(m, MUTED) for m in lines["mode"]],
+                linewidths=0.6,
+                alpha=0.6,
+                zorder=2,
+            )
+        )
     for st, g in s.groupby("style"):
         marker, face, edge, size, _ = SITE_STYLE[st]
-        ins.scatter(g["x"], g["y"], s=9, marker=marker, c=face if face != "none" else "none",
-                    edgecolors=edge if face == "none" else "none", linewidths=0.6, zorder=3)
+        ins.scatter(
+            g["x"],
+            g["y"],
+            s=9,
+            marker=marker,
+            c=face if face != "none" else "none",
+            edgecolors=edge if face == "none" else "none",
+            linewidths=0.6,
+            zorder=3,
+        )
     ins.add_patch(Rectangle((x0, y0), x1 - x0, y1 - y0, fill=False, ec=INK, lw=0.9, zorder=4))
     ins.set_xlim(X0, X1)
     ins.set_ylim(Y0, Y1)
@@ -592,6 +781,7 @@ def _overview(fig, s: pd.DataFrame, lay: dict, lines: pd.DataFrame, colours: dic
 
 
 # ----------------------------------------------------------------------------- charts
+
 
 def cost_bars_svg(labels: list[str], costs: list[dict[str, float]], currency: str, tol: float = 0.5) -> str:
     """Stacked horizontal bars of the cost components per scenario (currency/yr).
@@ -608,8 +798,13 @@ def cost_bars_svg(labels: list[str], costs: list[dict[str, float]], currency: st
     base_total = sum(costs[0].values()) if costs else 0.0
     with matplotlib.rc_context(_rc()):
         rows = math.ceil(len(comps) / 5)
-        fig, ax = _chart(11.0, 0.75 + 0.22 * rows + 0.34 * len(labels), left=_label_inches(labels, 8),
-                         top=0.12 + 0.24 * rows, bottom=0.5)
+        fig, ax = _chart(
+            11.0,
+            0.75 + 0.22 * rows + 0.34 * len(labels),
+            left=_label_inches(labels, 8),
+            top=0.12 + 0.24 * rows,
+            bottom=0.5,
+        )
         y = np.arange(len(labels))[::-1]
         left_pos = np.zeros(len(labels))
         left_neg = np.zeros(len(labels))
@@ -625,8 +820,15 @@ def cost_bars_svg(labels: list[str], costs: list[dict[str, float]], currency: st
         for yi, tot, lp in zip(y, totals, left_pos):
             d = tot - base_total
             txt = _short(tot) + ("" if abs(d) < 0.5 or yi == y[0] else f"  ({'+' if d > 0 else '−'}{_short(abs(d))})")
-            _txt(ax, lp + 0.01 * xmax, yi, txt, va="center", fontsize=7.5,
-                 color=BAD if d > tol and yi != y[0] else GOOD if d < -tol else INK)
+            _txt(
+                ax,
+                lp + 0.01 * xmax,
+                yi,
+                txt,
+                va="center",
+                fontsize=7.5,
+                color=BAD if d > tol and yi != y[0] else GOOD if d < -tol else INK,
+            )
         ax.set_yticks(y, [_t(s) for s in labels], fontsize=8)
         ax.set_ylim(-0.6, len(labels) - 0.4)
         ax.set_xlim(min(left_neg.min() * 1.05, 0), xmax * 1.16)
@@ -634,8 +836,13 @@ def cost_bars_svg(labels: list[str], costs: list[dict[str, float]], currency: st
         ax.set_xlabel(f"landed cost, {currency}/yr".strip(", "))
         ax.grid(axis="x", color=GRID, lw=0.6)
         ax.set_axisbelow(True)
-        ax.legend(handles=[Patch(color=col[k], label=k.replace("_", " ")) for k in comps], ncols=min(5, len(comps)),
-                  loc="lower left", bbox_to_anchor=(0.0, 1.0), fontsize=7.5)
+        ax.legend(
+            handles=[Patch(color=col[k], label=k.replace("_", " ")) for k in comps],
+            ncols=min(5, len(comps)),
+            loc="lower left",
+            bbox_to_anchor=(0.0, 1.0),
+            fontsize=7.5,
+        )
         return _svg(fig)
 
 
@@ -681,12 +888,23 @@ def transit_histogram_svg(result) -> str:
     bins = np.arange(0.0, hi + step + 1e-9, step)
     win = last["within_window"].to_numpy(bool)
     sv = result.tables["service"]
-    windows = sv.groupby("max_days")["service_class"].agg(lambda c: ", ".join(sorted(set(map(str, c))))) \
-        if len(sv) and "max_days" in sv else pd.Series(dtype=object)
+    windows = (
+        sv.groupby("max_days")["service_class"].agg(lambda c: ", ".join(sorted(set(map(str, c)))))
+        if len(sv) and "max_days" in sv
+        else pd.Series(dtype=object)
+    )
     with matplotlib.rc_context(_rc()):
         fig, ax = _chart(6.6, 3.4, left=0.8, bottom=0.5, top=0.35)
-        ax.hist([days[win], days[~win]], bins=bins, weights=[q[win], q[~win]], stacked=True,
-                color=[ACCENT, WARN], label=["within window", "outside window"], edgecolor="white", linewidth=0.4)
+        ax.hist(
+            [days[win], days[~win]],
+            bins=bins,
+            weights=[q[win], q[~win]],
+            stacked=True,
+            color=[ACCENT, WARN],
+            label=["within window", "outside window"],
+            edgecolor="white",
+            linewidth=0.4,
+        )
         ymax = ax.get_ylim()[1]
         for d, cls in windows.items():
             if np.isfinite(d):
@@ -714,16 +932,30 @@ def dc_utilisation_svg(result) -> str:
         for yi, r in zip(y, d.itertuples(index=False)):
             u = float(r.utilisation) if r.utilisation is not None and np.isfinite(r.utilisation) else np.nan
             if not r.open:
-                _txt(ax, 0.01, yi, "closed" if r.decision == "close" else "not opened", va="center", fontsize=7.5,
-                        color=BAD if r.decision == "close" else MUTED, style="italic")
+                _txt(
+                    ax,
+                    0.01,
+                    yi,
+                    "closed" if r.decision == "close" else "not opened",
+                    va="center",
+                    fontsize=7.5,
+                    color=BAD if r.decision == "close" else MUTED,
+                    style="italic",
+                )
                 continue
             if np.isnan(u):
                 _txt(ax, 0.01, yi, f"{_short(r.throughput)} units/yr, no capacity limit", va="center", fontsize=7.5)
                 continue
             colour = GOOD if u < 0.85 else WARN if u <= 1.0 + 1e-9 else BAD
             _hbars(ax, yi, u, colour=colour, height=0.62, lw=0)
-            _txt(ax, u + 0.015, yi, f"{u:.0%}  ({_short(r.throughput)} / {_short(r.capacity)})", va="center",
-                    fontsize=7.5)
+            _txt(
+                ax,
+                u + 0.015,
+                yi,
+                f"{u:.0%}  ({_short(r.throughput)} / {_short(r.capacity)})",
+                va="center",
+                fontsize=7.5,
+            )
         ax.axvline(1.0, color=INK, lw=0.9, ls=(0, (4, 2)))
         ax.set_yticks(y, [_t(x) for x in d["dc"]], fontsize=8)
         ax.set_ylim(-0.6, len(d) - 0.4)
@@ -783,13 +1015,23 @@ def mode_mix_svg(result, colours: dict[str, str]) -> str:
     mm = result.tables["mode_mix"]
     if mm.empty:
         return ""
-    rows = [("units", "units"), ("tonnes", "tonnes"), ("tonne_km", "tonne-km"), ("freight_cost", "freight cost"),
-            ("co2_kg", "CO2e")]
+    rows = [
+        ("units", "units"),
+        ("tonnes", "tonnes"),
+        ("tonne_km", "tonne-km"),
+        ("freight_cost", "freight cost"),
+        ("co2_kg", "CO2e"),
+    ]
     rows = [(c, n) for c, n in rows if c in mm.columns]
     with matplotlib.rc_context(_rc()):
         lrows = math.ceil(len(mm) / 6)
-        fig, ax = _chart(5.4, 0.55 + 0.24 * lrows + 0.42 * len(rows), left=_label_inches(["freight cost"], 8),
-                         top=0.1 + 0.24 * lrows, bottom=0.35)
+        fig, ax = _chart(
+            5.4,
+            0.55 + 0.24 * lrows + 0.42 * len(rows),
+            left=_label_inches(["freight cost"], 8),
+            top=0.1 + 0.24 * lrows,
+            bottom=0.35,
+        )
         y = np.arange(len(rows))[::-1]
         for yi, (c, _) in zip(y, rows):
             v = mm[c].to_numpy(float)
@@ -805,8 +1047,13 @@ def mode_mix_svg(result, colours: dict[str, str]) -> str:
         ax.set_ylim(-0.6, len(rows) - 0.4)
         ax.set_xlim(0, 1)
         ax.xaxis.set_major_formatter(matplotlib.ticker.PercentFormatter(1.0, decimals=0))
-        ax.legend(handles=[Patch(color=colours.get(m, MUTED), label=_t(m)) for m in mm["mode"]],
-                  ncols=min(6, len(mm)), loc="lower left", bbox_to_anchor=(0.0, 1.0), fontsize=7.5)
+        ax.legend(
+            handles=[Patch(color=colours.get(m, MUTED), label=_t(m)) for m in mm["mode"]],
+            ncols=min(6, len(mm)),
+            loc="lower left",
+            bbox_to_anchor=(0.0, 1.0),
+            fontsize=7.5,
+        )
         return _svg(fig)
 
 
@@ -814,8 +1061,7 @@ def _find_col(df: pd.DataFrame, exact: tuple[str, ...], fragment: str) -> str | 
     for c in exact:
         if c in df.columns:
             return c
-    return next((c for c in df.columns if fragment in str(c).lower()
-                 and pd.api.types.is_numeric_dtype(df[c])), None)
+    return next((c for c in df.columns if fragment in str(c).lower() and pd.api.types.is_numeric_dtype(df[c])), None)
 
 
 def frontier_svg(df: pd.DataFrame, currency: str) -> str:
@@ -833,12 +1079,25 @@ def frontier_svg(df: pd.DataFrame, currency: str) -> str:
     with matplotlib.rc_context(_rc()):
         fig, ax = _chart(8.0, 3.4, left=0.9, bottom=0.55, top=0.15)
         ax.plot(d[co2], d[cost], color=ACCENT, lw=1.6, marker="o", ms=5, mfc="white", mew=1.4)
-        lab = next((c for c in d.columns if "price" in str(c).lower() or "label" in str(c).lower()
-                    or "point" in str(c).lower()), None)
+        lab = next(
+            (
+                c
+                for c in d.columns
+                if "price" in str(c).lower() or "label" in str(c).lower() or "point" in str(c).lower()
+            ),
+            None,
+        )
         if lab is not None:
             for x, y, v in zip(d[co2], d[cost], d[lab]):
-                _ann(ax, _t(f"{v:g}" if isinstance(v, (int, float, np.number)) else v), (x, y),
-                            xytext=(5, 4), textcoords="offset points", fontsize=7, color=MUTED)
+                _ann(
+                    ax,
+                    _t(f"{v:g}" if isinstance(v, (int, float, np.number)) else v),
+                    (x, y),
+                    xytext=(5, 4),
+                    textcoords="offset points",
+                    fontsize=7,
+                    color=MUTED,
+                )
         ax.set_xlabel(_t(co2.replace("_", " ")))
         ax.set_ylabel(_t(f"{cost.replace('_', ' ')}, {currency}/yr"))
         _ticks(ax.yaxis)
@@ -849,6 +1108,7 @@ def frontier_svg(df: pd.DataFrame, currency: str) -> str:
 
 
 # ----------------------------------------------------------------------------- tables
+
 
 def _kind(col: str) -> str:
     c = str(col).lower()
@@ -887,8 +1147,12 @@ def fmt(v, kind: str = "number") -> str:
     return str(v)
 
 
-def table(df: pd.DataFrame, columns: list[tuple[str, str, str]] | None = None, tid: str = "",
-          max_rows: int | None = MAX_TABLE_ROWS) -> dict:
+def table(
+    df: pd.DataFrame,
+    columns: list[tuple[str, str, str]] | None = None,
+    tid: str = "",
+    max_rows: int | None = MAX_TABLE_ROWS,
+) -> dict:
     """A table for the template: header labels and rows of (text, css class)."""
     if columns is None:
         columns = [(c, str(c).replace("_", " "), _kind(c)) for c in df.columns]
@@ -901,9 +1165,16 @@ def table(df: pd.DataFrame, columns: list[tuple[str, str, str]] | None = None, t
             num = isinstance(v, (int, float, np.number)) and not isinstance(v, (bool, np.bool_))
             cells.append((fmt(v, k), "num" if num else ""))
         rows.append(cells)
-    return {"id": tid, "headers": [(n, "num" if pd.api.types.is_numeric_dtype(df[c])
-                                    and not pd.api.types.is_bool_dtype(df[c]) else "") for c, n, _ in columns],
-            "rows": rows, "total_rows": len(df), "shown": len(shown)}
+    return {
+        "id": tid,
+        "headers": [
+            (n, "num" if pd.api.types.is_numeric_dtype(df[c]) and not pd.api.types.is_bool_dtype(df[c]) else "")
+            for c, n, _ in columns
+        ],
+        "rows": rows,
+        "total_rows": len(df),
+        "shown": len(shown),
+    }
 
 
 def service_class_table(service: pd.DataFrame) -> dict | None:
@@ -913,13 +1184,25 @@ def service_class_table(service: pd.DataFrame) -> dict | None:
         return None
     sv = service.assign(service_class=service["service_class"].fillna("").astype(str).replace("", "(none)"))
     g = sv.groupby(["service_class", "max_days", "target_share"], as_index=False, dropna=False).agg(
-        customers=("demand", "size"), demand=("demand", "sum"), delivered=("delivered", "sum"),
-        within=("within_window", "sum"), met=("target_met", "sum"))
+        customers=("demand", "size"),
+        demand=("demand", "sum"),
+        delivered=("delivered", "sum"),
+        within=("within_window", "sum"),
+        met=("target_met", "sum"),
+    )
     g["achieved"] = np.where(g["delivered"] > 0, g["within"] / g["delivered"].where(g["delivered"] > 0), np.nan)
-    return table(g, [("service_class", "class", "text"), ("max_days", "window days", "days"),
-                     ("target_share", "target", "share"), ("achieved", "achieved", "share"),
-                     ("customers", "customers", "number"), ("met", "meeting target", "number")],
-                 tid="service-classes")
+    return table(
+        g,
+        [
+            ("service_class", "class", "text"),
+            ("max_days", "window days", "days"),
+            ("target_share", "target", "share"),
+            ("achieved", "achieved", "share"),
+            ("customers", "customers", "number"),
+            ("met", "meeting target", "number"),
+        ],
+        tid="service-classes",
+    )
 
 
 def kpi_table(kpis: pd.DataFrame, currency: str) -> dict:
@@ -934,19 +1217,35 @@ def kpi_table(kpis: pd.DataFrame, currency: str) -> dict:
             kind = "decimal"
         else:
             kind = "number"
-        rows.append([(str(name).replace("_", " "), ""), (fmt(float(v), kind), "num"),
-                     (u.replace("currency", currency or "currency"), "")])
-    return {"id": "kpi-table", "headers": [("indicator", ""), ("value", "num"), ("unit", "")], "rows": rows,
-            "total_rows": len(rows), "shown": len(rows)}
+        rows.append(
+            [
+                (str(name).replace("_", " "), ""),
+                (fmt(float(v), kind), "num"),
+                (u.replace("currency", currency or "currency"), ""),
+            ]
+        )
+    return {
+        "id": "kpi-table",
+        "headers": [("indicator", ""), ("value", "num"), ("unit", "")],
+        "rows": rows,
+        "total_rows": len(rows),
+        "shown": len(rows),
+    }
 
 
 COMPARISON_COLUMNS = [  # column, label, format, sense (+1: higher is worse, -1: higher is better, 0: none)
-    ("scenario", "scenario", "text", 0), ("status", "status", "text", 0),
-    ("total_cost", "total cost", "money", 1), ("delta_cost", "Δ vs base", "delta", 1),
-    ("delta_pct", "Δ %", "delta_share", 1), ("dcs_open", "DCs", "number", 0),
-    ("share_within_window", "in window", "share", -1), ("avg_transit_days", "avg days", "days", 1),
-    ("max_supplier_share", "max share", "share", 0), ("lost_units", "lost units/yr", "money", 1),
-    ("lost_value", "lost value", "money", 1), ("co2e_tonnes", "CO2e t/yr", "money", 1),
+    ("scenario", "scenario", "text", 0),
+    ("status", "status", "text", 0),
+    ("total_cost", "total cost", "money", 1),
+    ("delta_cost", "Δ vs base", "delta", 1),
+    ("delta_pct", "Δ %", "delta_share", 1),
+    ("dcs_open", "DCs", "number", 0),
+    ("share_within_window", "in window", "share", -1),
+    ("avg_transit_days", "avg days", "days", 1),
+    ("max_supplier_share", "max share", "share", 0),
+    ("lost_units", "lost units/yr", "money", 1),
+    ("lost_value", "lost value", "money", 1),
+    ("co2e_tonnes", "CO2e t/yr", "money", 1),
     ("verified", "checked", "text", 0),
 ]
 MONEY_COLUMNS = ("total_cost", "delta_cost", "delta_pct")
@@ -1010,11 +1309,17 @@ def comparison_table(comp: pd.DataFrame) -> dict:
                     cls += " worse" if d * sense > 0 else " better"
             cells.append((text, cls.strip()))
         rows.append(cells)
-    return {"id": "comparison-table", "headers": [(n, "" if k == "text" else "num") for _, n, k, _ in cols],
-            "rows": rows, "total_rows": len(comp), "shown": len(comp)}
+    return {
+        "id": "comparison-table",
+        "headers": [(n, "" if k == "text" else "num") for _, n, k, _ in cols],
+        "rows": rows,
+        "total_rows": len(comp),
+        "shown": len(comp),
+    }
 
 
 # ----------------------------------------------------------------------------- page
+
 
 def _currency(result) -> str:
     net = getattr(result, "network", None)
@@ -1030,21 +1335,29 @@ def _status_class(status: str) -> str:
 
 def _kpi_tiles(result, currency: str) -> list[dict]:
     k = dict(zip(result.tables["kpis"]["kpi"], result.tables["kpis"]["value"]))
-    tiles = [("total_landed_cost", "landed cost", lambda v: f"{_short(v)}", f"{currency}/yr"),
-             ("cost_per_unit_delivered", "cost per unit", lambda v: f"{v:,.2f}", f"{currency}/unit"),
-             ("share_within_service_window", "within service window", lambda v: f"{v:.1%}", "of units"),
-             ("avg_transit_days_to_customer", "average transit", lambda v: f"{v:.2f}", "days"),
-             ("dcs_open", "DCs open", lambda v: f"{v:.0f}", ""),
-             ("co2e_tonnes", "CO2e", lambda v: f"{v:,.0f}", "t/yr"),
-             ("lost_demand", "lost demand", lambda v: f"{v:,.0f}", "units/yr")]
+    tiles = [
+        ("total_landed_cost", "landed cost", lambda v: f"{_short(v)}", f"{currency}/yr"),
+        ("cost_per_unit_delivered", "cost per unit", lambda v: f"{v:,.2f}", f"{currency}/unit"),
+        ("share_within_service_window", "within service window", lambda v: f"{v:.1%}", "of units"),
+        ("avg_transit_days_to_customer", "average transit", lambda v: f"{v:.2f}", "days"),
+        ("dcs_open", "DCs open", lambda v: f"{v:.0f}", ""),
+        ("co2e_tonnes", "CO2e", lambda v: f"{v:,.0f}", "t/yr"),
+        ("lost_demand", "lost demand", lambda v: f"{v:,.0f}", "units/yr"),
+    ]
     out = []
     for key, label, f, unit in tiles:
         v = k.get(key)
         if v is None:
             continue
         v = float(v)
-        out.append({"label": label, "value": f(v) if np.isfinite(v) else "–", "unit": unit,
-                    "cls": "bad" if key == "lost_demand" and v > 0.5 else ""})
+        out.append(
+            {
+                "label": label,
+                "value": f(v) if np.isfinite(v) else "–",
+                "unit": unit,
+                "cls": "bad" if key == "lost_demand" and v > 0.5 else "",
+            }
+        )
     return out
 
 
@@ -1076,8 +1389,15 @@ def _extra_sections(tables: dict[str, pd.DataFrame], currency: str) -> list[dict
                 note = (note + " " if note else "") + f"The {max_rows} largest rows by {by[0].replace('_', ' ')}."
         if trimmed:
             note = (note + " " if note else "") + "A selection of the columns; every column is in results.xlsx."
-        out.append({"id": "extra-" + re.sub(r"[^a-z0-9]+", "-", name.lower()).strip("-"), "title": title,
-                    "note": note, "chart": chart, "table": table(shown, tid=f"table-{name}", max_rows=max_rows)})
+        out.append(
+            {
+                "id": "extra-" + re.sub(r"[^a-z0-9]+", "-", name.lower()).strip("-"),
+                "title": title,
+                "note": note,
+                "chart": chart,
+                "table": table(shown, tid=f"table-{name}", max_rows=max_rows),
+            }
+        )
     return out
 
 
@@ -1109,8 +1429,13 @@ def ranking_svg(df: pd.DataFrame, currency: str, top: int = 15) -> str:
                 left += v
             from matplotlib.patches import Patch
 
-            ax.legend(handles=[Patch(color=colours[c], label=c.replace("_", " ")) for c in parts], ncols=len(parts),
-                      loc="lower left", bbox_to_anchor=(0.0, 1.0), fontsize=7.5)
+            ax.legend(
+                handles=[Patch(color=colours[c], label=c.replace("_", " ")) for c in parts],
+                ncols=len(parts),
+                loc="lower left",
+                bbox_to_anchor=(0.0, 1.0),
+                fontsize=7.5,
+            )
             total = left
         else:
             total = pd.to_numeric(d[key], errors="coerce").fillna(0.0).to_numpy(float)
@@ -1139,14 +1464,19 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
     currency = _currency(base)
     created = created or datetime.now().astimezone()
     ctx = {
-        "case": base.case_name, "created": created.strftime("%Y-%m-%d %H:%M %Z").strip(), "currency": currency,
-        "status": base.status, "status_cls": _status_class(base.status),
+        "case": base.case_name,
+        "created": created.strftime("%Y-%m-%d %H:%M %Z").strip(),
+        "currency": currency,
+        "status": base.status,
+        "status_cls": _status_class(base.status),
         "gap": f"{base.gap:.3%}" if base.gap is not None and np.isfinite(base.gap) else "–",
         "verification": _verification(base) if base.has_solution else {"text": "no plan to check", "cls": "bad"},
-        "disclaimer": DISCLAIMER, "has_solution": base.has_solution,
+        "disclaimer": DISCLAIMER,
+        "has_solution": base.has_solution,
         "message": "" if (base.message or "").strip().lower() in ("", base.status.lower(), "optimal") else base.message,
         "css": (ASSETS / "report.css").read_text(encoding="utf-8"),
-        "n_scenarios": 0, "sections": [],
+        "n_scenarios": 0,
+        "sections": [],
     }
     if run is not None:
         comp = run.comparison
@@ -1164,10 +1494,14 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
                         colours.setdefault(m, mode_colours(list(colours) + [m])[m])
             ctx["comparison"] = comparison_table(run.comparison)
             ctx["comparison_tol"] = _money_tolerance(run.comparison, run.comparison.iloc[0])
-            ctx["cost_bars"] = cost_bars_svg(labels, [run.results[lab].cost for lab in labels], currency,
-                                             tol=ctx["comparison_tol"])
-            desc = run.comparison[["scenario", "description", "resolve", "method"]].copy() \
-                if {"description", "method"} <= set(run.comparison.columns) else None
+            ctx["cost_bars"] = cost_bars_svg(
+                labels, [run.results[lab].cost for lab in labels], currency, tol=ctx["comparison_tol"]
+            )
+            desc = (
+                run.comparison[["scenario", "description", "resolve", "method"]].copy()
+                if {"description", "method"} <= set(run.comparison.columns)
+                else None
+            )
             ctx["scenario_notes"] = table(desc, tid="scenario-notes", max_rows=None) if desc is not None else None
         ctx["kpis"] = _kpi_tiles(base, currency)
         ctx["map"], ctx["map_caption"] = network_map_svg(base, colours)
@@ -1175,38 +1509,61 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
         cost = t["cost"].copy()
         total = float(cost["amount"].sum())
         cost["share"] = cost["amount"] / total if total else np.nan
-        cost = pd.concat([cost, pd.DataFrame([{"component": "total", "amount": total, "share": 1.0}])],
-                         ignore_index=True)
+        cost = pd.concat(
+            [cost, pd.DataFrame([{"component": "total", "amount": total, "share": 1.0}])], ignore_index=True
+        )
         cost["component"] = cost["component"].str.replace("_", " ")
-        ctx["cost_table"] = table(cost, [("component", "component", "text"), ("amount", f"{currency}/yr", "money"),
-                                         ("share", "share", "share")], tid="cost-table")
+        ctx["cost_table"] = table(
+            cost,
+            [("component", "component", "text"), ("amount", f"{currency}/yr", "money"), ("share", "share", "share")],
+            tid="cost-table",
+        )
         ctx["transit"] = transit_histogram_svg(base)
         last = t["flows"][t["flows"]["destination_kind"] == "customer"]
         delivered = float(last["quantity"].sum())
-        ctx["within_share"] = (float(last.loc[last["within_window"], "quantity"].sum()) / delivered
-                               if delivered > 0 else float("nan"))
+        ctx["within_share"] = (
+            float(last.loc[last["within_window"], "quantity"].sum()) / delivered if delivered > 0 else float("nan")
+        )
         sv = t["service"]
         missed = sv[~sv["target_met"].astype(bool)] if "target_met" in sv else sv.iloc[0:0]
         ctx["service_classes"] = service_class_table(sv)
-        ctx["service_missed"] = table(missed, [("customer", "customer", "text"), ("service_class", "class", "text"),
-                                               ("target_share", "target", "share"),
-                                               ("share_within_window", "achieved", "share"),
-                                               ("demand", "demand units/yr", "number"),
-                                               ("unmet", "lost units/yr", "number")], tid="service-missed")
+        ctx["service_missed"] = table(
+            missed,
+            [
+                ("customer", "customer", "text"),
+                ("service_class", "class", "text"),
+                ("target_share", "target", "share"),
+                ("share_within_window", "achieved", "share"),
+                ("demand", "demand units/yr", "number"),
+                ("unmet", "lost units/yr", "number"),
+            ],
+            tid="service-missed",
+        )
         ctx["dc_chart"] = dc_utilisation_svg(base)
         dcols = [("dc", "DC", "text"), ("decision", "decision", "text")]
         if t["dcs"]["size"].astype(str).str.len().gt(0).any():
             dcols.append(("size", "size", "text"))
-        dcols += [("capacity", "capacity", "number"), ("throughput", "throughput", "number"),
-                  ("utilisation", "utilisation", "share"), ("fixed_cost", "fixed cost", "money")]
+        dcols += [
+            ("capacity", "capacity", "number"),
+            ("throughput", "throughput", "number"),
+            ("utilisation", "utilisation", "share"),
+            ("fixed_cost", "fixed cost", "money"),
+        ]
         ctx["dc_table"] = table(t["dcs"], dcols, tid="dc-table")
         ctx["shares_chart"] = supplier_shares_svg(base)
         ctx["mode_chart"] = mode_mix_svg(base, colours)
-        ctx["mode_table"] = table(t["mode_mix"], [("mode", "mode", "text"), ("units", "units/yr", "number"),
-                                                  ("tonnes", "tonnes/yr", "number"),
-                                                  ("tonne_km", "tonne-km/yr", "number"),
-                                                  ("freight_cost", f"freight {currency}/yr", "money"),
-                                                  ("co2_kg", "CO2e kg/yr", "number")], tid="mode-table")
+        ctx["mode_table"] = table(
+            t["mode_mix"],
+            [
+                ("mode", "mode", "text"),
+                ("units", "units/yr", "number"),
+                ("tonnes", "tonnes/yr", "number"),
+                ("tonne_km", "tonne-km/yr", "number"),
+                ("freight_cost", f"freight {currency}/yr", "money"),
+                ("co2_kg", "CO2e kg/yr", "number"),
+            ],
+            tid="mode-table",
+        )
         ctx["kpi_table"] = kpi_table(t["kpis"], currency)
         if len(t["unmet"]):
             ctx["unmet_table"] = table(t["unmet"], tid="unmet-table")
@@ -1215,9 +1572,13 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
         ctx["extras"] = _extra_sections(optional, currency)
     elif base.diagnosis is not None:
         ctx["diagnosis"] = table(base.diagnosis, tid="diagnosis")
-    env = jinja2.Environment(loader=jinja2.FileSystemLoader(ASSETS),
-                             autoescape=jinja2.select_autoescape(["html", "j2"], default=True),
-                             undefined=jinja2.StrictUndefined, trim_blocks=True, lstrip_blocks=True)
+    env = jinja2.Environment(
+        loader=jinja2.FileSystemLoader(ASSETS),
+        autoescape=jinja2.select_autoescape(["html", "j2"], default=True),
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
     env.filters["safe_svg"] = _safe_svg
     return env.get_template("report.html.j2").render(**ctx)
 
@@ -1246,4 +1607,4 @@ def write_report(run_or_result, path: str | Path, extra: dict[str, pd.DataFrame]
     return path
 
 
-__all__ = ["write_report", "render_report", "map_layout", "project", "site_table", "fmt"]
+__all__ = ["fmt", "map_layout", "project", "render_report", "site_table", "write_report"]

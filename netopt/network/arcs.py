@@ -13,7 +13,8 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case
+from netopt.data.case import Case
+from netopt.network.lanes import case_lanes
 
 
 @dataclass
@@ -76,21 +77,26 @@ def expand_arcs(case: Case, lanes: pd.DataFrame) -> pd.DataFrame:
     bom = t["bill_of_materials"]
 
     # What each site can ship and receive, as (site, product) pairs.
-    ships = pd.concat([
-        t["suppliers"][["supplier", "product"]].set_axis(["site", "product"], axis=1),
-        t["plants"][["plant", "product"]].set_axis(["site", "product"], axis=1),
-    ])
+    ships = pd.concat(
+        [
+            t["suppliers"][["supplier", "product"]].set_axis(["site", "product"], axis=1),
+            t["plants"][["plant", "product"]].set_axis(["site", "product"], axis=1),
+        ]
+    )
     sold = set(demand["product"])
     # A DC may stock every finished product that has demand.
     dc_products = sorted(finished & sold)
-    ships = pd.concat([ships, pd.DataFrame([(d, p) for d in t["dcs"]["dc"] for p in dc_products],
-                                           columns=["site", "product"])])
+    ships = pd.concat(
+        [ships, pd.DataFrame([(d, p) for d in t["dcs"]["dc"] for p in dc_products], columns=["site", "product"])]
+    )
     plant_needs = t["plants"][["plant", "product"]].merge(bom, on="product")[["plant", "material"]]
-    receives = pd.concat([
-        plant_needs.set_axis(["site", "product"], axis=1),
-        pd.DataFrame([(d, p) for d in t["dcs"]["dc"] for p in dc_products], columns=["site", "product"]),
-        demand[["customer", "product"]].set_axis(["site", "product"], axis=1),
-    ]).drop_duplicates()
+    receives = pd.concat(
+        [
+            plant_needs.set_axis(["site", "product"], axis=1),
+            pd.DataFrame([(d, p) for d in t["dcs"]["dc"] for p in dc_products], columns=["site", "product"]),
+            demand[["customer", "product"]].set_axis(["site", "product"], axis=1),
+        ]
+    ).drop_duplicates()
 
     generic = lanes[lanes["product"] == ""].drop(columns="product")
     specific = lanes[lanes["product"] != ""]
@@ -98,8 +104,11 @@ def expand_arcs(case: Case, lanes: pd.DataFrame) -> pd.DataFrame:
     arcs = pd.concat([gen.assign(_specific=False), specific.assign(_specific=True)], ignore_index=True)
     arcs = arcs.merge(receives.rename(columns={"site": "destination"}), on=["destination", "product"])
     # Specific rows win over the generic row of the same lane, mode and product.
-    arcs = arcs.sort_values("_specific", ascending=False).drop_duplicates(
-        ["origin", "destination", "mode", "product"], keep="first").drop(columns="_specific")
+    arcs = (
+        arcs.sort_values("_specific", ascending=False)
+        .drop_duplicates(["origin", "destination", "mode", "product"], keep="first")
+        .drop(columns="_specific")
+    )
     return arcs.sort_values(["leg", "origin", "destination", "product", "mode"]).reset_index(drop=True)
 
 
@@ -127,14 +136,19 @@ def prune_dominated(arcs: pd.DataFrame, whole_lane: bool = False) -> tuple[pd.Da
     pairs = a[cols].merge(a[cols], on=keys, suffixes=("", "_b"))
     pairs = pairs[pairs["_i"] != pairs["_i_b"]]
     eps = 1e-12
-    no_worse = ((pairs["unit_cost_b"] <= pairs["unit_cost"] + eps)
-                & (pairs["transit_days_b"] <= pairs["transit_days"] + eps)
-                & (pairs["co2_kg_per_unit_b"] <= pairs["co2_kg_per_unit"] + eps)
-                & np.isinf(pairs["capacity_b"]) & np.isinf(pairs["lane_capacity_b"]))
-    strictly = ((pairs["unit_cost_b"] < pairs["unit_cost"] - eps)
-                | (pairs["transit_days_b"] < pairs["transit_days"] - eps)
-                | (pairs["co2_kg_per_unit_b"] < pairs["co2_kg_per_unit"] - eps)
-                | (pairs["mode_b"] < pairs["mode"]))
+    no_worse = (
+        (pairs["unit_cost_b"] <= pairs["unit_cost"] + eps)
+        & (pairs["transit_days_b"] <= pairs["transit_days"] + eps)
+        & (pairs["co2_kg_per_unit_b"] <= pairs["co2_kg_per_unit"] + eps)
+        & np.isinf(pairs["capacity_b"])
+        & np.isinf(pairs["lane_capacity_b"])
+    )
+    strictly = (
+        (pairs["unit_cost_b"] < pairs["unit_cost"] - eps)
+        | (pairs["transit_days_b"] < pairs["transit_days"] - eps)
+        | (pairs["co2_kg_per_unit_b"] < pairs["co2_kg_per_unit"] - eps)
+        | (pairs["mode_b"] < pairs["mode"])
+    )
     dom = pairs[no_worse & strictly]
     if whole_lane and len(dom):
         lane_mode = ["origin", "destination", "mode"]
@@ -149,12 +163,10 @@ def prune_dominated(arcs: pd.DataFrame, whole_lane: bool = False) -> tuple[pd.Da
 
 def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | None = None) -> Network:
     """Prepare every index set and per-element number the model needs (vectorised)."""
-    from netopt.lanes import build_lanes
-
     t = case.tables
     s = case.settings
     if lanes is None:
-        lanes = build_lanes(case)
+        lanes = case_lanes(case)
     if prune is None:
         prune = bool(s["lanes"]["prune_dominated"])
 
@@ -188,15 +200,21 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
     is_dc_in = arcs["destination_kind"].eq("dc").to_numpy()
     arcs["handling_per_unit"] = 0.0
     arcs.loc[is_dc_in, "handling_per_unit"] = arcs.loc[is_dc_in, "destination"].map(handling).to_numpy(float)
-    arcs["unit_cost"] = (arcs["freight_per_unit"] + arcs["pipeline_per_unit"] + arcs["carbon_per_unit"]
-                         + arcs["supply_per_unit"] + arcs["handling_per_unit"])
+    arcs["unit_cost"] = (
+        arcs["freight_per_unit"]
+        + arcs["pipeline_per_unit"]
+        + arcs["carbon_per_unit"]
+        + arcs["supply_per_unit"]
+        + arcs["handling_per_unit"]
+    )
     # Capacity of a product-specific row binds that product; a generic row's binds the lane and mode.
     arcs["lane_capacity"] = arcs["capacity"]
     arcs["capacity"] = np.inf
     lane_keys = lanes[["origin", "destination", "mode", "product"]]
     spec = lane_keys[lane_keys["product"] != ""].assign(_spec=True)
-    hit = arcs[["origin", "destination", "mode", "product"]].merge(spec, how="left",
-                                                                   on=["origin", "destination", "mode", "product"])
+    hit = arcs[["origin", "destination", "mode", "product"]].merge(
+        spec, how="left", on=["origin", "destination", "mode", "product"]
+    )
     is_spec = hit["_spec"].fillna(False).astype(bool).to_numpy()
     arcs.loc[is_spec, "capacity"] = arcs.loc[is_spec, "lane_capacity"]
     arcs.loc[is_spec, "lane_capacity"] = np.inf
@@ -226,21 +244,34 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
 
     dcs = t["dcs"].reset_index(drop=True)
     sizes = t["dc_sizes"]
-    base_opt = dcs.loc[~dcs["dc"].isin(sizes["dc"]) if len(sizes) else slice(None),
-                       ["dc", "capacity", "fixed_cost"]].assign(size="")
+    base_opt = dcs.loc[
+        ~dcs["dc"].isin(sizes["dc"]) if len(sizes) else slice(None), ["dc", "capacity", "fixed_cost"]
+    ].assign(size="")
     options = pd.concat([base_opt, sizes[["dc", "size", "capacity", "fixed_cost"]]], ignore_index=True)
     options = options.merge(dcs[["dc", "status", "closing_cost", "force"]], on="dc")
     order = {d: i for i, d in enumerate(dcs["dc"])}
     options = options.sort_values(["dc", "size"], key=lambda c: c.map(order) if c.name == "dc" else c)
     options = options.reset_index(drop=True)
 
-    dem = t["demand"][t["demand"]["quantity"] > 0][["customer", "product", "quantity", "demand_cv"]].reset_index(drop=True)
+    dem = t["demand"][t["demand"]["quantity"] > 0][["customer", "product", "quantity", "demand_cv"]].reset_index(
+        drop=True
+    )
     product_cv = pd.to_numeric(dem["product"].map(pinfo["demand_cv"]), errors="coerce")
     dem["demand_cv"] = pd.to_numeric(dem["demand_cv"], errors="coerce").fillna(product_cv).fillna(0.0).astype(float)
     penalty = float(s["policy"]["unmet_penalty_per_unit"])
     dem["penalty"] = penalty if penalty > 0 else 2.0 * dem["product"].map(pinfo["unit_value"]).astype(float)
 
-    return Network(arcs=arcs, make=make, options=options, demand=dem, customers=customers,
-                   bom=t["bill_of_materials"][["product", "material", "quantity_per_unit"]].reset_index(drop=True),
-                   dcs=dcs, products=products.reset_index(drop=True),
-                   suppliers=t["suppliers"].reset_index(drop=True), settings=s, pruned=pruned, arcs_all=arcs_all)
+    return Network(
+        arcs=arcs,
+        make=make,
+        options=options,
+        demand=dem,
+        customers=customers,
+        bom=t["bill_of_materials"][["product", "material", "quantity_per_unit"]].reset_index(drop=True),
+        dcs=dcs,
+        products=products.reset_index(drop=True),
+        suppliers=t["suppliers"].reset_index(drop=True),
+        settings=s,
+        pruned=pruned,
+        arcs_all=arcs_all,
+    )

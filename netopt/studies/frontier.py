@@ -34,7 +34,15 @@ import highspy
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case
+from netopt.data.case import Case
+from netopt.engine.highs import compile_model
+from netopt.engine.inventory_report import safety_stock_extra_cost
+from netopt.engine.tables import build_tables
+from netopt.engine.verify import verify
+from netopt.model import COST_COMPONENTS, build_model
+from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
+from netopt.network.arcs import build_network
+from netopt.network.lanes import case_lanes
 
 INF = highspy.kHighsInf
 CAP_TOL_REL = 1e-9  # slack on each cap (relative), so the previous network stays feasible
@@ -55,18 +63,10 @@ def _with_cap(case: Case, cap: float) -> Case:
     return Case(case.name, case.tables, settings, case.path, case.scenarios, case.warnings)
 
 
-def sweep(case: Case, points: int = 5, *, time_limit: float | None = None, mip_gap: float | None = None,
-          progress=None) -> FrontierRun:
+def sweep(
+    case: Case, points: int = 5, *, time_limit: float | None = None, mip_gap: float | None = None, progress=None
+) -> FrontierRun:
     """Solve the epsilon-constraint sweep (see module docstring); ``points`` ≥ 2 networks."""
-    from netopt.inventory_report import safety_stock_extra_cost
-    from netopt.lanes import build_lanes
-    from netopt.model import COST_COMPONENTS, build_model
-    from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
-    from netopt.network import build_network
-    from netopt.results import build_tables
-    from netopt.solver import compile_model
-    from netopt.verify import verify
-
     points = int(points)
     if points < 2:
         raise ValueError("a frontier needs at least 2 points (the cost-optimal and the CO2-minimal network)")
@@ -76,7 +76,7 @@ def sweep(case: Case, points: int = 5, *, time_limit: float | None = None, mip_g
     mip_gap = float(sset["mip_gap"] if mip_gap is None else mip_gap)
     case_cap = float(case.settings["policy"]["co2_cap_tonnes"])
 
-    lanes = build_lanes(case)
+    lanes = case_lanes(case)
     # Build with a cap row (its bound is set per solve below).
     net = build_network(_with_cap(case, 1e15), lanes)
     b = build_model(net)
@@ -166,8 +166,9 @@ def sweep(case: Case, points: int = 5, *, time_limit: float | None = None, mip_g
             continue
         values = {name: np.where(cols >= 0, x[np.maximum(cols, 0)], 0.0) for name, cols in hm.col_of.items()}
         cost = b.component_values(values)
-        cost = {c: float(cost.get(c, 0.0)) for c in COST_COMPONENTS} | {c: v for c, v in cost.items()
-                                                                          if c not in COST_COMPONENTS}
+        cost = {c: float(cost.get(c, 0.0)) for c in COST_COMPONENTS} | {
+            c: v for c, v in cost.items() if c not in COST_COMPONENTS
+        }
         tables = build_tables(net, values, cost)
         check_case = _with_cap(case, cap * (1 + CAP_TOL_REL) + CAP_TOL_ABS) if cap == cap else case
         ver = verify(check_case, lanes, tables, float(info.objective), extra_cost=safety_stock_extra_cost(tables))
@@ -177,15 +178,23 @@ def sweep(case: Case, points: int = 5, *, time_limit: float | None = None, mip_g
             base_cost, base_co2 = total, co2
         d = tables["dcs"]
         mm = tables["mode_mix"]
-        row_.update({
-            "co2_t": co2, "total_cost": total, "delta_cost": total - base_cost, "delta_co2_t": co2 - base_co2,
-            "dcs_open": int(d["open"].sum()), "dcs_open_names": " ".join(d.loc[d["open"], "dc"]),
-            "safety_stock_cost": cost.get("safety_stock", 0.0),
-            "lost_units": float(tables["unmet"]["lost_units"].sum()) if len(tables["unmet"]) else 0.0,
-        })
+        row_.update(
+            {
+                "co2_t": co2,
+                "total_cost": total,
+                "delta_cost": total - base_cost,
+                "delta_co2_t": co2 - base_co2,
+                "dcs_open": int(d["open"].sum()),
+                "dcs_open_names": " ".join(d.loc[d["open"], "dc"]),
+                "safety_stock_cost": cost.get("safety_stock", 0.0),
+                "lost_units": float(tables["unmet"]["lost_units"].sum()) if len(tables["unmet"]) else 0.0,
+            }
+        )
         for mode, share in zip(mm["mode"], mm["share_of_tonne_km"]):
             row_[f"tkm_share_{mode}"] = float(share)
-        row_["mode_mix"] = " / ".join(f"{mo} {s:.0%}" for mo, s in zip(mm["mode"], mm["share_of_tonne_km"]) if s >= 0.005)
+        row_["mode_mix"] = " / ".join(
+            f"{mo} {s:.0%}" for mo, s in zip(mm["mode"], mm["share_of_tonne_km"]) if s >= 0.005
+        )
         row_["verified"] = bool(ver.passed)
         rows.append(row_)
         point_tables.append(tables)
@@ -196,8 +205,19 @@ def sweep(case: Case, points: int = 5, *, time_limit: float | None = None, mip_g
         table["cost_per_t_abated"] = np.where(d_co2 > 1e-9, d_cost / d_co2.where(d_co2 > 1e-9), np.nan)
         share_cols = sorted(c for c in table.columns if c.startswith("tkm_share_"))
         table[share_cols] = table[share_cols].fillna(0.0)
-        first = ["point", "co2_cap_t", "co2_t", "total_cost", "delta_cost", "delta_co2_t", "cost_per_t_abated",
-                 "dcs_open", "dcs_open_names", "safety_stock_cost", "lost_units"]
+        first = [
+            "point",
+            "co2_cap_t",
+            "co2_t",
+            "total_cost",
+            "delta_cost",
+            "delta_co2_t",
+            "cost_per_t_abated",
+            "dcs_open",
+            "dcs_open_names",
+            "safety_stock_cost",
+            "lost_units",
+        ]
         rest = [c for c in table.columns if c not in first and c not in share_cols]
         table = table[first + share_cols + rest]
     return FrontierRun(table, point_tables)

@@ -26,10 +26,30 @@ from netopt.model.safety_stock import curves, pwl_units, segment_table, ss_units
 DAYS = 365.0
 EPS = 1e-7
 
-SS_COLUMNS = ["dc", "product", "throughput", "customers_served", "z", "lead_days", "lead_sd_days", "lead_origin",
-              "lead_mode", "inbound_days_actual", "ss_units_model", "ss_units_curve", "pwl_rel_error",
-              "max_rel_error", "below_first_breakpoint", "ss_units_exact", "ss_units_actual_lead_time",
-              "unit_holding", "cost_model", "cost_pwl", "cost_exact", "in_objective"]
+SS_COLUMNS = [
+    "dc",
+    "product",
+    "throughput",
+    "customers_served",
+    "z",
+    "lead_days",
+    "lead_sd_days",
+    "lead_origin",
+    "lead_mode",
+    "inbound_days_actual",
+    "ss_units_model",
+    "ss_units_curve",
+    "pwl_rel_error",
+    "max_rel_error",
+    "below_first_breakpoint",
+    "ss_units_exact",
+    "ss_units_actual_lead_time",
+    "unit_holding",
+    "cost_model",
+    "cost_pwl",
+    "cost_exact",
+    "in_objective",
+]
 
 
 def _values_by_curve(net, cv: pd.DataFrame, values: dict | None) -> np.ndarray:
@@ -59,12 +79,13 @@ def safety_stock_table(net, flows: pd.DataFrame, values: dict | None = None) -> 
     out = flows[(flows["origin_kind"] == "dc") & (flows["destination_kind"] == "customer")]
     if out.empty or cv.empty:
         return pd.DataFrame(columns=SS_COLUMNS)
-    cvs = (net.demand.set_index(["customer", "product"])["demand_cv"])
+    cvs = net.demand.set_index(["customer", "product"])["demand_cv"]
     per_c = out.groupby(["origin", "product", "destination"], as_index=False)["quantity"].sum()
     per_c["cv"] = cvs.reindex(pd.MultiIndex.from_frame(per_c[["destination", "product"]])).fillna(0.0).to_numpy(float)
     per_c["var"] = (per_c["cv"] * per_c["quantity"]) ** 2
-    g = per_c.groupby(["origin", "product"]).agg(throughput=("quantity", "sum"), var=("var", "sum"),
-                                                 customers_served=("destination", "nunique"))
+    g = per_c.groupby(["origin", "product"]).agg(
+        throughput=("quantity", "sum"), var=("var", "sum"), customers_served=("destination", "nunique")
+    )
     inb = flows[flows["destination_kind"] == "dc"]
     w_days = (inb["quantity"] * inb["transit_days"]).groupby([inb["destination"], inb["product"]]).sum()
     q_in = inb.groupby(["destination", "product"])["quantity"].sum()
@@ -82,16 +103,32 @@ def safety_stock_table(net, flows: pd.DataFrame, values: dict | None = None) -> 
         curve = float(ss_units(t, c.alpha, c.lead_days, c.lead_sd_days, c.z))
         exact = float(ss_units_exact(var, t, c.lead_days, c.lead_sd_days, c.z))
         exact_actual = float(ss_units_exact(var, t, days_in, c.lead_sd_days, c.z)) if np.isfinite(days_in) else np.nan
-        rows.append({
-            "dc": c.dc, "product": c.product, "throughput": t, "customers_served": int(g.loc[key, "customers_served"]),
-            "z": c.z, "lead_days": c.lead_days, "lead_sd_days": c.lead_sd_days, "lead_origin": c.lead_origin,
-            "lead_mode": c.lead_mode, "inbound_days_actual": days_in, "ss_units_model": pwl, "ss_units_curve": curve,
-            "pwl_rel_error": (curve - pwl) / curve if curve > 0 else 0.0, "max_rel_error": c.max_rel_error,
-            "below_first_breakpoint": bool(t < c.t_min - EPS), "ss_units_exact": exact,
-            "ss_units_actual_lead_time": exact_actual, "unit_holding": c.unit_holding,
-            "cost_model": float(model_cost[i]), "cost_pwl": pwl * c.unit_holding if in_obj else 0.0,
-            "cost_exact": exact * c.unit_holding, "in_objective": in_obj,
-        })
+        rows.append(
+            {
+                "dc": c.dc,
+                "product": c.product,
+                "throughput": t,
+                "customers_served": int(g.loc[key, "customers_served"]),
+                "z": c.z,
+                "lead_days": c.lead_days,
+                "lead_sd_days": c.lead_sd_days,
+                "lead_origin": c.lead_origin,
+                "lead_mode": c.lead_mode,
+                "inbound_days_actual": days_in,
+                "ss_units_model": pwl,
+                "ss_units_curve": curve,
+                "pwl_rel_error": (curve - pwl) / curve if curve > 0 else 0.0,
+                "max_rel_error": c.max_rel_error,
+                "below_first_breakpoint": bool(t < c.t_min - EPS),
+                "ss_units_exact": exact,
+                "ss_units_actual_lead_time": exact_actual,
+                "unit_holding": c.unit_holding,
+                "cost_model": float(model_cost[i]),
+                "cost_pwl": pwl * c.unit_holding if in_obj else 0.0,
+                "cost_exact": exact * c.unit_holding,
+                "in_objective": in_obj,
+            }
+        )
     return pd.DataFrame(rows, columns=SS_COLUMNS)
 
 
@@ -132,7 +169,9 @@ def inventory_kpis(net, flows: pd.DataFrame, ss: pd.DataFrame, pipeline: pd.Data
     thr = out.groupby("origin")["quantity"].sum()
     thr_v = (out["quantity"] * out["product"].map(value)).groupby(out["origin"]).sum()
     ss_u = ss.groupby("dc")["ss_units_exact"].sum() if len(ss) else pd.Series(dtype=float)
-    ss_v = (ss["ss_units_exact"] * ss["product"].map(value)).groupby(ss["dc"]).sum() if len(ss) else pd.Series(dtype=float)
+    ss_v = (
+        (ss["ss_units_exact"] * ss["product"].map(value)).groupby(ss["dc"]).sum() if len(ss) else pd.Series(dtype=float)
+    )
     pin = pipeline[pipeline["destination"].isin(net.dcs["dc"])].groupby("destination")["in_transit_value"].sum()
     pout = pipeline[pipeline["origin"].isin(net.dcs["dc"])].groupby("origin")["in_transit_value"].sum()
     dcs = sorted(set(thr.index) | set(ss_u.index))
@@ -141,15 +180,37 @@ def inventory_kpis(net, flows: pd.DataFrame, ss: pd.DataFrame, pipeline: pd.Data
         tv = float(thr_v.get(d, 0.0))
         sv = float(ss_v.get(d, 0.0))
         transit = float(pin.get(d, 0.0)) + float(pout.get(d, 0.0))
-        rows.append(_kpi_row("dc", d, float(thr.get(d, 0.0)), tv, float(ss_u.get(d, 0.0)), sv,
-                             float(pin.get(d, 0.0)), float(pout.get(d, 0.0)), sv + transit))
+        rows.append(
+            _kpi_row(
+                "dc",
+                d,
+                float(thr.get(d, 0.0)),
+                tv,
+                float(ss_u.get(d, 0.0)),
+                sv,
+                float(pin.get(d, 0.0)),
+                float(pout.get(d, 0.0)),
+                sv + transit,
+            )
+        )
     last = flows[flows["destination_kind"] == "customer"]
     sold_v = float((last["quantity"] * last["product"].map(value)).sum())
     total_ss_v = float(ss_v.sum()) if len(ss_v) else 0.0
     pipe_v = float(pipeline["in_transit_value"].sum())
-    rows.append(_kpi_row("network", "network", float(last["quantity"].sum()), sold_v,
-                         float(ss_u.sum()) if len(ss_u) else 0.0, total_ss_v, np.nan, np.nan, total_ss_v + pipe_v,
-                         pipeline_value=pipe_v))
+    rows.append(
+        _kpi_row(
+            "network",
+            "network",
+            float(last["quantity"].sum()),
+            sold_v,
+            float(ss_u.sum()) if len(ss_u) else 0.0,
+            total_ss_v,
+            np.nan,
+            np.nan,
+            total_ss_v + pipe_v,
+            pipeline_value=pipe_v,
+        )
+    )
     return pd.DataFrame(rows)
 
 
@@ -158,11 +219,18 @@ def _kpi_row(level, dc, units, value, ss_units_, ss_value, in_value, out_value, 
     days_on_hand = ss_value / daily if daily == daily else np.nan
     days_all = inv_value / daily if daily == daily else np.nan
     return {
-        "level": level, "dc": dc, "throughput_units": units, "throughput_value": value,
-        "safety_stock_units": ss_units_, "safety_stock_value": ss_value,
-        "inbound_in_transit_value": in_value, "outbound_in_transit_value": out_value,
+        "level": level,
+        "dc": dc,
+        "throughput_units": units,
+        "throughput_value": value,
+        "safety_stock_units": ss_units_,
+        "safety_stock_value": ss_value,
+        "inbound_in_transit_value": in_value,
+        "outbound_in_transit_value": out_value,
         "pipeline_value": (in_value + out_value) if pipeline_value is None else pipeline_value,
-        "inventory_value": inv_value, "days_on_hand": days_on_hand, "days_incl_transit": days_all,
+        "inventory_value": inv_value,
+        "days_on_hand": days_on_hand,
+        "days_incl_transit": days_all,
         "turns_on_hand": DAYS / days_on_hand if days_on_hand and days_on_hand == days_on_hand else np.nan,
         "turns": DAYS / days_all if days_all and days_all == days_all else np.nan,
     }

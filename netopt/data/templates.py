@@ -22,13 +22,20 @@ import shutil
 import sys
 from pathlib import Path
 
-from netopt.io import (SETTINGS_FILE, SETTINGS_SHEET, _publish_dir, format_setting, settings_toml,
-                       temp_dir_beside, write_csv)
-from netopt.schema import INF, LEGS, SETTINGS, TABLES, schema_frame, setting_defaults, settings_frame
-from netopt.validate import format_number
+from netopt.data.io import (
+    SETTINGS_FILE,
+    SETTINGS_SHEET,
+    _publish_dir,
+    format_setting,
+    settings_toml,
+    temp_dir_beside,
+    write_csv,
+)
+from netopt.data.schema import INF, LEGS, SETTINGS, TABLES, schema_frame, setting_defaults, settings_frame
+from netopt.data.validate import format_number
 
 WORKBOOK_NAME = "netopt_case_template.xlsx"
-DATA_TEMPLATES = Path(__file__).resolve().parent.parent / "data_templates"
+DATA_TEMPLATES = Path(__file__).resolve().parents[2] / "data_templates"
 """The repository's ``data_templates/`` folder."""
 
 
@@ -74,17 +81,30 @@ def schema_markdown() -> str:
         "|---|---|---|---|",
     ]
     for t in TABLES.values():
-        out.append(f"| [{t.name}](#{t.name}) | {'yes' if t.required else 'no'} | {', '.join(t.key)} | "
-                   f"{_md_cell(t.meaning)} |")
+        out.append(
+            f"| [{t.name}](#{t.name}) | {'yes' if t.required else 'no'} | {', '.join(t.key)} | {_md_cell(t.meaning)} |"
+        )
     for t in TABLES.values():
-        out += ["", f"### {t.name}", "", t.meaning, "",
-                f"File `{t.file_name}` or sheet `{t.name}`; {'required' if t.required else 'optional'}; "
-                f"key: {', '.join(f'`{k}`' for k in t.key)} (unique per row)."]
+        out += [
+            "",
+            f"### {t.name}",
+            "",
+            t.meaning,
+            "",
+            f"File `{t.file_name}` or sheet `{t.name}`; {'required' if t.required else 'optional'}; "
+            f"key: {', '.join(f'`{k}`' for k in t.key)} (unique per row).",
+        ]
         if t.references:
-            refs = "; ".join(f"`{r.column}` must be a `{r.target_column}` of `{r.table}`"
-                             + (" (or blank)" if r.allow_blank else "") for r in t.references)
+            refs = "; ".join(
+                f"`{r.column}` must be a `{r.target_column}` of `{r.table}`" + (" (or blank)" if r.allow_blank else "")
+                for r in t.references
+            )
             out += ["", f"References: {refs}."]
-        out += ["", "| column | type | unit | required | default | allowed | meaning |", "|---|---|---|---|---|---|---|"]
+        out += [
+            "",
+            "| column | type | unit | required | default | allowed | meaning |",
+            "|---|---|---|---|---|---|---|",
+        ]
         for c in t.columns:
             default = "" if c.default is None else ("no limit" if c.default == INF else str(c.default))
             if c.type == "bool" and c.default is not None:
@@ -94,19 +114,33 @@ def schema_markdown() -> str:
             allowed = _range(c)
             if c.choices:
                 allowed = ", ".join(v or "(blank)" for v in c.choices)
-            out.append(f"| `{c.name}` | {c.type} | {_md_cell(c.unit)} | {'yes' if c.required else 'no'} | "
-                       f"{_md_cell(default)} | {_md_cell(allowed)} | {_md_cell(c.meaning)} |")
-    out += ["", "## Settings", "",
-            f"File `{SETTINGS_FILE}` (`[section]` headings, `name = value` lines) or the workbook sheet "
-            f"`{SETTINGS_SHEET}` (lists written as `a|b|c`).  Every setting is optional.", ""]
+            out.append(
+                f"| `{c.name}` | {c.type} | {_md_cell(c.unit)} | {'yes' if c.required else 'no'} | "
+                f"{_md_cell(default)} | {_md_cell(allowed)} | {_md_cell(c.meaning)} |"
+            )
+    out += [
+        "",
+        "## Settings",
+        "",
+        f"File `{SETTINGS_FILE}` (`[section]` headings, `name = value` lines) or the workbook sheet "
+        f"`{SETTINGS_SHEET}` (lists written as `a|b|c`).  Every setting is optional.",
+        "",
+    ]
     section = None
     for s in SETTINGS:
         if s.section != section:
             section = s.section
-            out += ["", f"### [{section}]", "", "| name | type | unit | default | allowed | meaning |",
-                    "|---|---|---|---|---|---|"]
-        out.append(f"| `{s.name}` | {s.type} | {_md_cell(s.unit)} | `{_md_cell(format_setting(s.default, s.type))}` | "
-                   f"{_md_cell(_range(s))} | {_md_cell(s.meaning)} |")
+            out += [
+                "",
+                f"### [{section}]",
+                "",
+                "| name | type | unit | default | allowed | meaning |",
+                "|---|---|---|---|---|---|",
+            ]
+        out.append(
+            f"| `{s.name}` | {s.type} | {_md_cell(s.unit)} | `{_md_cell(format_setting(s.default, s.type))}` | "
+            f"{_md_cell(_range(s))} | {_md_cell(s.meaning)} |"
+        )
     return "\n".join(out) + "\n"
 
 

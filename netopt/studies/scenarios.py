@@ -36,8 +36,18 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from netopt.case import Case, CaseError, Problem
-from netopt.schema import TABLES
+from netopt.data.case import Case, CaseError, Problem
+from netopt.data.schema import TABLES
+from netopt.data.validate import validate_and_coerce
+from netopt.engine.highs import compile_model
+from netopt.engine.solve import Result, _fixed_options, solve
+from netopt.engine.tables import build_tables
+from netopt.engine.verify import verify
+from netopt.model import COST_COMPONENTS, build_model
+from netopt.model.safety_stock import add_held_lines, held_lines, held_lines_cost, prepare_solve
+from netopt.network.arcs import build_network
+from netopt.network.lanes import build_lanes, case_lanes
+from netopt.studies.frontier import scenario_frontier
 
 CHANGE_KINDS = {
     "add_dc": "Add a candidate DC: dc, lat, lon and any dcs column (fixed_cost, capacity, handling_cost, …)",
@@ -49,13 +59,14 @@ CHANGE_KINDS = {
     "setting": "Change any setting: section, then name = value",
     "scale_demand": "Scale demand: factor; optional region, customer, product filters",
     "scale_cost": "Scale a cost: factor and target = mode_rate (mode) | supplier_price (supplier, product) | "
-                  "dc_fixed_cost (dc) | production_cost (plant, product) | handling_cost (dc)",
+    "dc_fixed_cost (dc) | production_cost (plant, product) | handling_cost (dc)",
     "set_capacity": "Change a capacity: site (supplier, plant or DC), optional product, capacity or factor",
 }
 RESOLVE = ("redesign", "hold", "both")
 
 
 # ---------------------------------------------------------------------------------- parsing
+
 
 @dataclass
 class Scenario:
@@ -85,40 +96,68 @@ def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml"
             problems.append(Problem(label, None, None, f"{where}: every scenario needs a name"))
             continue
         if name in seen or name == "base":
-            problems.append(Problem(label, None, None, f"{where}: the name is used twice (or is 'base', which is reserved)"))
+            problems.append(
+                Problem(label, None, None, f"{where}: the name is used twice (or is 'base', which is reserved)")
+            )
         seen.add(name)
         resolve = str(sc.get("resolve", "redesign")).strip() or "redesign"
         if resolve not in RESOLVE:
-            problems.append(Problem(label, None, None, f"{where}: resolve must be one of {', '.join(RESOLVE)}, not '{resolve}'"))
+            problems.append(
+                Problem(label, None, None, f"{where}: resolve must be one of {', '.join(RESOLVE)}, not '{resolve}'")
+            )
         changes = sc.get("change", [])
         if isinstance(changes, dict):
             changes = [changes]
         for i, ch in enumerate(changes, start=1):
             kind = str(ch.get("kind", "")).strip()
             if kind not in CHANGE_KINDS:
-                problems.append(Problem(label, None, None,
-                                        f"{where}, change {i}: unknown kind '{kind}' (one of: {', '.join(CHANGE_KINDS)})"))
+                problems.append(
+                    Problem(
+                        label,
+                        None,
+                        None,
+                        f"{where}, change {i}: unknown kind '{kind}' (one of: {', '.join(CHANGE_KINDS)})",
+                    )
+                )
         unknown = set(sc) - {"name", "description", "based_on", "resolve", "change", "frontier_points"}
         points = sc.get("frontier_points", 0)
         if isinstance(points, bool) or not isinstance(points, int) or (points != 0 and points < 2):
-            problems.append(Problem(label, None, None, f"{where}: frontier_points must be a whole number ≥ 2 "
-                                                       f"(or 0 for none), not {points!r}"))
+            problems.append(
+                Problem(
+                    label,
+                    None,
+                    None,
+                    f"{where}: frontier_points must be a whole number ≥ 2 (or 0 for none), not {points!r}",
+                )
+            )
             points = 0
         for u in sorted(unknown):
             problems.append(Problem(label, None, None, f"{where}: unknown entry '{u}' (ignored)", "warning"))
-        out.append(Scenario(name, [dict(c) for c in changes], str(sc.get("description", "")),
-                            str(sc.get("based_on", "")).strip(), resolve, points))
+        out.append(
+            Scenario(
+                name,
+                [dict(c) for c in changes],
+                str(sc.get("description", "")),
+                str(sc.get("based_on", "")).strip(),
+                resolve,
+                points,
+            )
+        )
     names = {s.name for s in out}
     for s in out:
         if s.based_on and s.based_on not in names:
-            problems.append(Problem(label, None, None, f"scenario '{s.name}': based_on '{s.based_on}' is not a scenario"))
+            problems.append(
+                Problem(label, None, None, f"scenario '{s.name}': based_on '{s.based_on}' is not a scenario")
+            )
     # cycles
     by = {s.name: s for s in out}
     for s in out:
         chain, cur = [], s
         while cur is not None and cur.based_on:
             if cur.name in chain:
-                problems.append(Problem(label, None, None, f"scenario '{s.name}': based_on forms a loop ({' → '.join(chain)})"))
+                problems.append(
+                    Problem(label, None, None, f"scenario '{s.name}': based_on forms a loop ({' → '.join(chain)})")
+                )
                 break
             chain.append(cur.name)
             cur = by.get(cur.based_on)
@@ -129,11 +168,16 @@ def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml"
 
 # ---------------------------------------------------------------------------------- applying
 
+
 def _sites(case: Case) -> dict[str, str]:
     t = case.tables
     out = {}
-    for table, col, kind in (("suppliers", "supplier", "supplier"), ("plants", "plant", "plant"),
-                             ("dcs", "dc", "dc"), ("customers", "customer", "customer")):
+    for table, col, kind in (
+        ("suppliers", "supplier", "supplier"),
+        ("plants", "plant", "plant"),
+        ("dcs", "dc", "dc"),
+        ("customers", "customer", "customer"),
+    ):
         for s in t[table][col].astype(str):
             out[s] = kind
     return out
@@ -155,13 +199,13 @@ def _append_row(df: pd.DataFrame, table: str, values: dict) -> pd.DataFrame:
     t = TABLES[table]
     row = {c.name: values.get(c.name, c.default) for c in t.columns}
     nxt = (int(df.index.max()) + 1) if len(df) else 2
-    return pd.concat([df, pd.DataFrame([row], index=[nxt])]).astype({c: df[c].dtype for c in df.columns if c in row}, errors="ignore")
+    return pd.concat([df, pd.DataFrame([row], index=[nxt])]).astype(
+        {c: df[c].dtype for c in df.columns if c in row}, errors="ignore"
+    )
 
 
 def apply_changes(case: Case, sc: Scenario, changes: list[dict] | None = None) -> Case:
     """A new case with the scenario's changes applied (the base is untouched)."""
-    from netopt.validate import validate_and_coerce
-
     c = case.copy()
     t = c.tables
     s = c.settings
@@ -208,31 +252,46 @@ def apply_changes(case: Case, sc: Scenario, changes: list[dict] | None = None) -
                 err.append(f"unknown mode '{m}'")
             cap = _num(ch.get("capacity"), "capacity", err) if kind == "cap_lane" else None
             if not err:
-                from netopt.lanes import build_lanes
-
                 lanes = build_lanes(c)
-                hit = lanes[(lanes["origin"] == o) & (lanes["destination"] == d) & ((lanes["mode"] == m) if m else True)]
+                hit = lanes[
+                    (lanes["origin"] == o) & (lanes["destination"] == d) & ((lanes["mode"] == m) if m else True)
+                ]
                 if hit.empty:
                     err.append(f"there is no lane {o} → {d}" + (f" by {m}" if m else ""))
                 else:
                     ex = t["lanes"]
                     for mode in sorted(set(hit["mode"])):
-                        mask = (ex["origin"] == o) & (ex["destination"] == d) & (ex["mode"] == mode) & (ex["product"] == p)
+                        mask = (
+                            (ex["origin"] == o) & (ex["destination"] == d) & (ex["mode"] == mode) & (ex["product"] == p)
+                        )
                         if kind == "close_lane":
                             if mask.any():
                                 ex.loc[mask, "available"] = False
                             else:
-                                ex = _append_row(ex, "lanes", {"origin": o, "destination": d, "mode": mode,
-                                                               "product": p, "available": False})
+                                ex = _append_row(
+                                    ex,
+                                    "lanes",
+                                    {"origin": o, "destination": d, "mode": mode, "product": p, "available": False},
+                                )
                         else:
                             if mask.any():
                                 ex.loc[mask, "capacity"] = cap
                             else:
                                 row = hit[(hit["mode"] == mode)].iloc[0]
-                                ex = _append_row(ex, "lanes", {"origin": o, "destination": d, "mode": mode, "product": p,
-                                                               "distance_km": row["distance_km"],
-                                                               "transit_days": row["transit_days"],
-                                                               "cost_per_unit": row["cost_per_unit"], "capacity": cap})
+                                ex = _append_row(
+                                    ex,
+                                    "lanes",
+                                    {
+                                        "origin": o,
+                                        "destination": d,
+                                        "mode": mode,
+                                        "product": p,
+                                        "distance_km": row["distance_km"],
+                                        "transit_days": row["transit_days"],
+                                        "cost_per_unit": row["cost_per_unit"],
+                                        "capacity": cap,
+                                    },
+                                )
                     t["lanes"] = ex
         elif kind == "site_out":
             site = g("site")
@@ -298,7 +357,9 @@ def apply_changes(case: Case, sc: Scenario, changes: list[dict] | None = None) -
                 if g("product"):
                     mask &= sp["product"] == g("product")
                 if not mask.any():
-                    err.append(f"no supplier offer for '{g('supplier')}'" + (f" / '{g('product')}'" if g("product") else ""))
+                    err.append(
+                        f"no supplier offer for '{g('supplier')}'" + (f" / '{g('product')}'" if g("product") else "")
+                    )
                 elif f is not None:
                     sp.loc[mask, "unit_cost"] *= f
             elif target in ("dc_fixed_cost", "handling_cost"):
@@ -323,11 +384,15 @@ def apply_changes(case: Case, sc: Scenario, changes: list[dict] | None = None) -
                 elif f is not None:
                     pl.loc[mask, "unit_cost"] *= f
             else:
-                err.append(f"target must be mode_rate, supplier_price, dc_fixed_cost, production_cost or handling_cost, not '{target}'")
+                err.append(
+                    f"target must be mode_rate, supplier_price, dc_fixed_cost, production_cost or handling_cost, not '{target}'"
+                )
         elif kind == "set_capacity":
             site = g("site")
             k = sites.get(site)
-            table, col = {"supplier": ("suppliers", "supplier"), "plant": ("plants", "plant"), "dc": ("dcs", "dc")}.get(k, (None, None))
+            table, col = {"supplier": ("suppliers", "supplier"), "plant": ("plants", "plant"), "dc": ("dcs", "dc")}.get(
+                k, (None, None)
+            )
             if table is None:
                 err.append(f"'{site}' is not a supplier, plant or DC")
             else:
@@ -383,6 +448,7 @@ def all_changes(scenarios: list[Scenario], name: str) -> list[dict]:
 
 # ---------------------------------------------------------------------------------- warm hold
 
+
 class HeldNetwork:
     """The base network with its DC decisions held, kept in HiGHS for warm LP re-solves.
 
@@ -395,14 +461,6 @@ class HeldNetwork:
 
     def __init__(self, case: Case, base=None, *, held: dict | None = None, lanes: pd.DataFrame | None = None):
         """Hold ``base``'s DC decisions (a Result), or ``held`` (dc → size/True/False) with ``lanes``."""
-        from netopt.api import _fixed_options
-        from netopt.lanes import build_lanes
-        from netopt.model import build_model
-        from netopt.network import build_network
-        from netopt.solver import compile_model
-
-        from netopt.model.safety_stock import add_held_lines, held_lines
-
         self.case = case
         settings = copy.deepcopy(case.settings)
         settings["policy"]["allow_unmet_demand"] = True
@@ -412,7 +470,7 @@ class HeldNetwork:
             lanes = base.lanes if lanes is None else lanes
         if held is None:
             raise ValueError("HeldNetwork needs a base result or the held DC decisions")
-        self.lanes = build_lanes(case) if lanes is None else lanes
+        self.lanes = case_lanes(case) if lanes is None else lanes
         # Safety stock is priced on one line per curve at the base throughput (not the curve's
         # binaries), so the held model stays a linear program; see safety_stock.held_lines.
         model_settings = copy.deepcopy(settings)
@@ -430,8 +488,13 @@ class HeldNetwork:
         t0 = time.perf_counter()
         # Openings are fixed, so the strong linking rows are redundant ("plain"), and a generous
         # big M for unlimited DC capacity lets demand be scaled by bound changes alone.
-        self.builder = build_model(self.net, formulation="plain", fixed_open=fixed, big_m_factor=self.BIG_M_FACTOR,
-                                   extra=lambda b: add_held_lines(b, self.ss_lines))
+        self.builder = build_model(
+            self.net,
+            formulation="plain",
+            fixed_open=fixed,
+            big_m_factor=self.BIG_M_FACTOR,
+            extra=lambda b: add_held_lines(b, self.ss_lines),
+        )
         self.hm = compile_model(self.builder)
         self.is_lp = set(self.builder.vars) <= {"flow", "make", "unmet", "open"}
         # With openings fixed and no other binaries the model is an LP: solve it once, cold,
@@ -439,13 +502,15 @@ class HeldNetwork:
         if self.is_lp:
             self.hm.relax_integrality()
         else:
-            from netopt.model.safety_stock import prepare_solve
-
-            prepare_solve(self.hm, time_limit=float(case.settings["solver"]["time_limit_s"]),
-                          mip_gap=float(case.settings["solver"]["mip_gap"]))  # safety-stock binaries only
+            prepare_solve(
+                self.hm,
+                time_limit=float(case.settings["solver"]["time_limit_s"]),
+                mip_gap=float(case.settings["solver"]["mip_gap"]),
+            )  # safety-stock binaries only
         self.build_seconds = time.perf_counter() - t0
-        info = self.hm.solve(time_limit=float(case.settings["solver"]["time_limit_s"]),
-                             mip_gap=float(case.settings["solver"]["mip_gap"]))
+        info = self.hm.solve(
+            time_limit=float(case.settings["solver"]["time_limit_s"]), mip_gap=float(case.settings["solver"]["mip_gap"])
+        )
         self.base_info = info
         lp = self.hm.highs.getLp()
         self.col_lo = np.array(lp.col_lower_, dtype=float)
@@ -540,11 +605,6 @@ class HeldNetwork:
 
     def solve(self, sc_case: Case, changes: list[dict], name: str = ""):
         """Warm re-solve of ``sc_case`` if its changes are bound changes, else None."""
-        from netopt.api import Result
-        from netopt.model import COST_COMPONENTS
-        from netopt.results import build_tables
-        from netopt.verify import verify
-
         plan = self.bound_changes(sc_case, changes)
         if plan is None:
             return None
@@ -566,8 +626,15 @@ class HeldNetwork:
             if len(ri):
                 h.changeRowsBounds(len(ri), ri, self.row_lo[ri], self.row_hi[ri])
         seconds = time.perf_counter() - t0
-        res = Result(case_name=name, status=info.status, objective=info.objective, bound=info.bound, gap=info.gap,
-                     timings={"highs": info.solver_seconds, "total": seconds}, message=info.message + " (warm re-solve)")
+        res = Result(
+            case_name=name,
+            status=info.status,
+            objective=info.objective,
+            bound=info.bound,
+            gap=info.gap,
+            timings={"highs": info.solver_seconds, "total": seconds},
+            message=info.message + " (warm re-solve)",
+        )
         if values is None:
             return res
         net_view = copy.copy(self.net)
@@ -578,9 +645,8 @@ class HeldNetwork:
         cost = self.builder.component_values(values)
         cost = {k: float(cost.get(k, 0.0)) for k in COST_COMPONENTS}
         res.tables = build_tables(net_view, values, cost)
-        from netopt.lanes import build_lanes
 
-        lanes = build_lanes(sc_case)
+        lanes = case_lanes(sc_case)
         held = dict(self.held)
         for ch in changes:
             if ch["kind"] == "site_out" and ch.get("site") in held:
@@ -589,16 +655,21 @@ class HeldNetwork:
                 held[ch["dc"]] = False
         sc_unmet = Case(sc_case.name, sc_case.tables, copy.deepcopy(sc_case.settings), sc_case.path)
         sc_unmet.settings["policy"]["allow_unmet_demand"] = True
-        from netopt.model.safety_stock import held_lines_cost
 
-        res.verification = verify(sc_unmet, lanes, res.tables, info.objective,
-                                  fixed_open={d: bool(v) for d, v in held.items()},
-                                  extra_cost={"safety_stock": held_lines_cost(self.ss_lines, res.tables)})
+        res.verification = verify(
+            sc_unmet,
+            lanes,
+            res.tables,
+            info.objective,
+            fixed_open={d: bool(v) for d, v in held.items()},
+            extra_cost={"safety_stock": held_lines_cost(self.ss_lines, res.tables)},
+        )
         res.lanes = lanes
         return res
 
 
 # ---------------------------------------------------------------------------------- running
+
 
 @dataclass
 class ScenarioRun:
@@ -613,20 +684,26 @@ class ScenarioRun:
 
 def _solve_or_lose(case: Case, **kw):
     """Solve; if infeasible, solve again with lost demand allowed at the penalty."""
-    from netopt.api import solve
-
     r = solve(case, diagnose=False, **kw)
     if r.has_solution or r.status not in ("infeasible", "unbounded"):
         return r, False
     c2 = Case(case.name, case.tables, copy.deepcopy(case.settings), case.path)
     c2.settings["policy"]["allow_unmet_demand"] = True
     r2 = solve(c2, **kw)
-    r2.message = (r2.message + "; infeasible without lost demand, so re-solved with lost demand at the penalty").strip("; ")
+    r2.message = (r2.message + "; infeasible without lost demand, so re-solved with lost demand at the penalty").strip(
+        "; "
+    )
     return r2, True
 
 
-def run_scenarios(case: Case, names: list[str] | None = None, progress=None, warm: bool = True,
-                  base=None, scenarios: list[Scenario] | None = None) -> ScenarioRun:
+def run_scenarios(
+    case: Case,
+    names: list[str] | None = None,
+    progress=None,
+    warm: bool = True,
+    base=None,
+    scenarios: list[Scenario] | None = None,
+) -> ScenarioRun:
     """Solve the base and the chosen scenarios; build the comparison table.
 
     Args:
@@ -635,16 +712,23 @@ def run_scenarios(case: Case, names: list[str] | None = None, progress=None, war
             "frontier_done" for a scenario with ``frontier_points``).
         warm: hold-the-network re-solves warm in a kept HiGHS model where possible.
     """
-    from netopt.api import solve
-
     say = progress or (lambda e, i=None: None)
     scenarios = scenarios if scenarios is not None else parse_scenarios(case.scenarios)
     if names:
         known = {s.name for s in scenarios}
         bad = [n for n in names if n not in known]
         if bad:
-            raise CaseError([Problem("scenarios.toml", None, None,
-                                     f"no scenario named '{n}' (known: {', '.join(sorted(known)) or 'none'})") for n in bad])
+            raise CaseError(
+                [
+                    Problem(
+                        "scenarios.toml",
+                        None,
+                        None,
+                        f"no scenario named '{n}' (known: {', '.join(sorted(known)) or 'none'})",
+                    )
+                    for n in bad
+                ]
+            )
         chosen = [s for s in scenarios if s.name in names]
     else:
         chosen = scenarios
@@ -700,12 +784,11 @@ def run_scenarios(case: Case, names: list[str] | None = None, progress=None, war
                 method = "mip"
             sec = time.perf_counter() - t1
             run.results[label] = r
-            rows.append(comparison_row(label, s.based_on, how, r, base, method, sec, s.description,
-                                       lost_allowed=lost_allowed))
+            rows.append(
+                comparison_row(label, s.based_on, how, r, base, method, sec, s.description, lost_allowed=lost_allowed)
+            )
             say("done", {"name": label, "status": r.status, "seconds": sec})
         if s.frontier_points:
-            from netopt.frontier import scenario_frontier
-
             say("frontier_start", {"name": s.name, "points": s.frontier_points})
             t1 = time.perf_counter()
             run.frontiers[s.name] = scenario_frontier(sc_case, s)
@@ -714,11 +797,26 @@ def run_scenarios(case: Case, names: list[str] | None = None, progress=None, war
     return run
 
 
-def comparison_row(name: str, based_on: str, how: str, r, base, method: str, seconds: float, description: str,
-                   lost_allowed: bool = False) -> dict:
+def comparison_row(
+    name: str,
+    based_on: str,
+    how: str,
+    r,
+    base,
+    method: str,
+    seconds: float,
+    description: str,
+    lost_allowed: bool = False,
+) -> dict:
     """One row of the comparison table (money in currency/yr)."""
-    row = {"scenario": name, "description": description, "based_on": based_on, "resolve": how,
-           "status": r.status, "gap": r.gap}
+    row = {
+        "scenario": name,
+        "description": description,
+        "based_on": based_on,
+        "resolve": how,
+        "status": r.status,
+        "gap": r.gap,
+    }
     if not r.has_solution:
         row.update({"total_cost": np.nan, "verified": False, "method": method, "seconds": seconds})
         return row

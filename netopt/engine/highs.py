@@ -73,8 +73,9 @@ class HighsModel:
     timings: dict = field(default_factory=dict)
 
     # ---------------------------------------------------------------- solve
-    def solve(self, time_limit: float | None = None, mip_gap: float | None = None, threads: int | None = None,
-              progress=None) -> SolveInfo:
+    def solve(
+        self, time_limit: float | None = None, mip_gap: float | None = None, threads: int | None = None, progress=None
+    ) -> SolveInfo:
         h = self.highs
         if time_limit is not None:
             h.setOptionValue("time_limit", float(time_limit))
@@ -116,9 +117,17 @@ class HighsModel:
             nodes = 0
         if name == "optimal" and is_mip and has_sol:
             gap = max(0.0, abs(obj - bound) / max(1.0, abs(obj)))
-        return SolveInfo(status=name, objective=obj, bound=bound, gap=gap, solver_seconds=elapsed, nodes=nodes,
-                         iterations=int(info.simplex_iteration_count), has_solution=has_sol,
-                         message=h.modelStatusToString(ms))
+        return SolveInfo(
+            status=name,
+            objective=obj,
+            bound=bound,
+            gap=gap,
+            solver_seconds=elapsed,
+            nodes=nodes,
+            iterations=int(info.simplex_iteration_count),
+            has_solution=has_sol,
+            message=h.modelStatusToString(ms),
+        )
 
     # ---------------------------------------------------------------- values
     def values(self) -> dict[str, np.ndarray]:
@@ -140,15 +149,20 @@ class HighsModel:
         if not m.any():
             return
         lo = np.where(np.isinf(lower), -INF, lower)[m] if np.ndim(lower) else np.full(m.sum(), float(lower))
-        hi = np.where(np.isinf(upper), INF, upper)[m] if np.ndim(upper) else np.full(m.sum(), INF if np.isinf(upper) else float(upper))
-        self.highs.changeColsBounds(int(m.sum()), cols[m].astype(np.int32), np.asarray(lo, float), np.asarray(hi, float))
+        hi = (
+            np.where(np.isinf(upper), INF, upper)[m]
+            if np.ndim(upper)
+            else np.full(m.sum(), INF if np.isinf(upper) else float(upper))
+        )
+        self.highs.changeColsBounds(
+            int(m.sum()), cols[m].astype(np.int32), np.asarray(lo, float), np.asarray(hi, float)
+        )
 
     def relax_integrality(self) -> None:
         """Make every column continuous (after fixing the binaries, the model is an LP)."""
         n = len(self.integrality)
         if self.integrality.any():
-            self.highs.changeColsIntegrality(n, np.arange(n, dtype=np.int32),
-                                             np.zeros(n, dtype=np.uint8))
+            self.highs.changeColsIntegrality(n, np.arange(n, dtype=np.int32), np.zeros(n, dtype=np.uint8))
             self.integrality = np.zeros(n, dtype=np.uint8)  # now reported as an LP: bound = objective, gap 0
 
     def row(self, constraint) -> int:
@@ -163,8 +177,10 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
     t1 = time.perf_counter()
     cols = info.columns
     pos = {id(v): k for k, v in enumerate(cols)}
-    col_of = {name: np.fromiter((pos.get(id(v), -1) for v in vs), dtype=np.int64, count=len(vs))
-              for name, vs in b.vars.items()}
+    col_of = {
+        name: np.fromiter((pos.get(id(v), -1) for v in vs), dtype=np.int64, count=len(vs))
+        for name, vs in b.vars.items()
+    }
     n = len(cols)
     lb = np.array([(-INF if v.lb is None else v.lb) for v in cols], dtype=float)
     ub = np.array([(INF if v.ub is None else v.ub) for v in cols], dtype=float)
@@ -202,16 +218,31 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
     h.passModel(lp)
     t2 = time.perf_counter()
     row_of = {id(cd): k for k, (cd, _) in enumerate(info.rows)}
-    return HighsModel(builder=b, highs=h, col_of=col_of, row_of=row_of, integrality=integ,
-                      objective_offset=offset, compile_seconds=t1 - t0, pass_seconds=t2 - t1)
+    return HighsModel(
+        builder=b,
+        highs=h,
+        col_of=col_of,
+        row_of=row_of,
+        integrality=integ,
+        objective_offset=offset,
+        compile_seconds=t1 - t0,
+        pass_seconds=t2 - t1,
+    )
 
 
 def _attach_progress(h: highspy.Highs, progress) -> None:
     """Report MIP progress (elapsed s, best cost, bound, gap) through ``progress(dict)``."""
     try:
-        def cb(callback_type, message, data_out, data_in, user_data):  # noqa: ARG001
-            progress({"elapsed": data_out.running_time, "objective": data_out.objective_function_value,
-                      "bound": data_out.mip_dual_bound, "gap": data_out.mip_gap})
+
+        def cb(callback_type, message, data_out, data_in, user_data):
+            progress(
+                {
+                    "elapsed": data_out.running_time,
+                    "objective": data_out.objective_function_value,
+                    "bound": data_out.mip_dual_bound,
+                    "gap": data_out.mip_gap,
+                }
+            )
 
         h.setCallback(cb, None)
         h.startCallback(highspy.cb.HighsCallbackType.kCallbackMipImprovingSolution)

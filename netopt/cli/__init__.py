@@ -1,0 +1,70 @@
+"""Command line: ``netopt <verb> ...``.
+
+Each verb is two functions: ``add_<verb>(subparsers)`` declares its arguments and
+sets ``func=cmd_<verb>``; ``cmd_<verb>(args) -> int`` does the work and returns the
+exit code.  To add a verb, write both and append the ``add_`` function to
+:data:`VERBS`.  :func:`main` turns a :class:`~netopt.case.CaseError` into a report
+on stderr and exit code 2 (never a traceback).
+
+Exit codes: 0 ok, 2 invalid input, 3 infeasible, 4 solver failure.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from collections.abc import Callable
+
+from netopt import __version__
+from netopt.cli.case_verbs import add_check, add_template
+from netopt.cli.common import EXIT_INVALID
+from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
+from netopt.data.case import CaseError
+
+# --------------------------------------------------------------------------- main
+
+VERBS: list[Callable] = [add_template, add_check, add_solve, add_run, add_stress, add_frontier]
+"""Functions that each add one verb's subparser (in the order shown by --help)."""
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every verb of :data:`VERBS`."""
+
+    parser = argparse.ArgumentParser(
+        prog="netopt",
+        description="Supply-chain network and sourcing design: which DCs to open, which suppliers and plants "
+        "serve which customers, and by which transport mode, at the least total landed cost "
+        "(supply, production, DC fixed and handling, freight, inventory, carbon) within capacity, "
+        "sourcing and service rules.",
+        epilog="Exit codes: 0 ok, 2 invalid input, 3 infeasible, 4 solver failure.",
+    )
+    parser.add_argument("--version", action="version", version=f"netopt {__version__}")
+    sub = parser.add_subparsers(dest="verb", metavar="VERB")
+    for add in VERBS:
+        add(sub)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Run one verb and exit with its code (SystemExit)."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if getattr(args, "func", None) is None:
+        parser.print_help(sys.stderr)
+        raise SystemExit(EXIT_INVALID)
+    try:
+        code = args.func(args)
+    except CaseError as e:
+        print(e.report(), file=sys.stderr)
+        code = EXIT_INVALID
+    except (FileNotFoundError, PermissionError, IsADirectoryError, NotADirectoryError) as e:
+        print(f"error: {e.strerror or e}: {e.filename or ''}", file=sys.stderr)
+        code = EXIT_INVALID
+    except KeyboardInterrupt:
+        print("interrupted", file=sys.stderr)
+        code = 130
+    raise SystemExit(code)
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,5 @@
+"""``python -m netopt.cli``: the command line."""
+
+from netopt.cli import main
+
+main()

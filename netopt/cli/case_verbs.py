@@ -1,0 +1,110 @@
+"""Verbs that need no solver: ``netopt template`` and ``netopt check``."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from netopt.cli.common import COMMON, EXIT_INVALID, EXIT_OK, print_warnings, say
+from netopt.data.case import Case
+from netopt.data.io import load_case
+from netopt.data.schema import TABLES
+from netopt.data.templates import write_blank_case
+from netopt.network.lanes import case_lanes
+
+# --------------------------------------------------------------------------- template
+
+
+def add_template(sub) -> None:
+    p = sub.add_parser(
+        "template",
+        parents=[COMMON],
+        help="write a blank case folder to fill in",
+        description="Write a blank case: one CSV file per table (suppliers, plants, DCs, customers, products, "
+        "demand, modes, lanes, ...) with its header row, and settings.toml listing every setting "
+        "at its default with its meaning and unit.  See data_templates/schema.md for every column.",
+    )
+    p.add_argument("dir", metavar="DIR", help="folder to create (must not exist or be empty)")
+    p.set_defaults(func=cmd_template)
+
+
+def cmd_template(args: argparse.Namespace) -> int:
+    try:
+        out = write_blank_case(args.dir)
+    except FileExistsError:
+        print(f"error: {args.dir} exists and is not empty; choose a new folder", file=sys.stderr)
+        return EXIT_INVALID
+    required = [t.file_name for t in TABLES.values() if t.required]
+    say(args, f"blank case written to {out}")
+    say(args, f"  fill in at least: {', '.join(required)}; the other tables are optional")
+    say(args, f"  then run: netopt check {out}")
+    return EXIT_OK
+
+
+# --------------------------------------------------------------------------- check
+
+
+def add_check(sub) -> None:
+    p = sub.add_parser(
+        "check",
+        parents=[COMMON],
+        help="validate a case and summarise the network",
+        description="Load a case (a folder of CSV files with settings.toml, or one .xlsx workbook), check every "
+        "table against the schema and the links between them (products, sites, lanes, modes), check "
+        "that every customer's demand can be reached from a plant or supplier, and print a summary: "
+        "suppliers, plants, existing and candidate DCs, customers, products, total demand and lanes "
+        "by mode.  Every problem is reported at once with its table, row and column; exit code 2 "
+        "when any error is found.",
+    )
+    p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
+    p.set_defaults(func=cmd_check)
+
+
+def _lanes_by_mode(case: Case):
+    """Lane rows per mode."""
+    lanes = case_lanes(case)
+    return lanes.groupby("mode", sort=True).size() if len(lanes) else {}
+
+
+def case_summary(case: Case) -> list[str]:
+    """Lines describing the size of a case's network (counts, units/year)."""
+    t = case.tables
+    n = lambda df, col: int(df[col].nunique()) if len(df) else 0  # noqa: E731
+    dcs = t["dcs"]
+    existing = int((dcs["status"] == "existing").sum())
+    products = t["products"]
+    materials = int((products["kind"] == "material").sum())
+    demand = t["demand"]
+    currency = case.setting("case", "currency")
+    lines = [
+        f"case '{case.name}'" + (f" ({case.path})" if case.path else "") + ": no errors",
+        f"  suppliers   {n(t['suppliers'], 'supplier'):>7,}   ({len(t['suppliers']):,} supplier-product offers)",
+        f"  plants      {n(t['plants'], 'plant'):>7,}",
+        f"  DCs         {len(dcs):>7,}   ({existing:,} existing, {len(dcs) - existing:,} candidate"
+        + (f"; {len(t['dc_sizes']):,} size options" if len(t["dc_sizes"]) else "")
+        + ")",
+        f"  customers   {n(t['customers'], 'customer'):>7,}",
+        f"  products    {len(products):>7,}   ({len(products) - materials:,} finished, {materials:,} materials)",
+        f"  demand      {demand['quantity'].sum():>15,.0f} units/year over {len(demand):,} customer-product rows",
+        f"  modes       {len(t['modes']):>7,}"
+        + (f"   ({', '.join(t['modes']['mode'].astype(str))})" if len(t["modes"]) else ""),
+    ]
+    if len(t["lanes"]):
+        lines.append(f"  explicit lanes {len(t['lanes']):>4,}")
+    by_mode = _lanes_by_mode(case)
+    if by_mode is None:
+        lines.append("  lanes       not built (the lane builder is not available)")
+    else:
+        total = int(sum(by_mode.values)) if len(by_mode) else 0
+        detail = ", ".join(f"{m} {int(k):,}" for m, k in by_mode.items()) if len(by_mode) else "none"
+        lines.append(f"  lanes       {total:>7,}   by mode: {detail}")
+    lines.append(f"  currency    {currency}")
+    return lines
+
+
+def cmd_check(args: argparse.Namespace) -> int:
+    case = load_case(args.case)
+    print_warnings(args, case)
+    for line in case_summary(case):
+        say(args, line)
+    return EXIT_OK

@@ -1,0 +1,740 @@
+"""The one declared schema of a netopt case.
+
+Every table a case may hold, every column of it (type, unit, required or not,
+default, meaning), each table's key and the references between tables live
+here and nowhere else.  Templates, loading, default filling, validation and the
+documentation in ``data_templates/`` are all generated from these declarations.
+
+Types: ``str`` (text), ``float`` (number), ``int`` (whole number), ``bool``
+(true/false, yes/no, 1/0).  A ``float`` column whose default is ``inf`` means
+"no limit" when left blank.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+from netopt.data.emission_factors import schema_note as emission_schema_note
+
+INF = math.inf
+
+
+@dataclass(frozen=True)
+class Column:
+    """One column of a case table."""
+
+    name: str
+    type: str  # "str" | "float" | "int" | "bool"
+    unit: str
+    required: bool
+    default: object
+    meaning: str
+    min: float | None = None  # smallest allowed value (numbers)
+    max: float | None = None  # largest allowed value (numbers)
+    choices: tuple[str, ...] | None = None  # allowed values (text)
+
+
+@dataclass(frozen=True)
+class Reference:
+    """Values of ``column`` in this table must appear in ``table.target_column``."""
+
+    column: str
+    table: str
+    target_column: str
+    allow_blank: bool = False
+
+
+@dataclass(frozen=True)
+class Table:
+    """One case table: a CSV file in a case folder or a sheet of a case workbook."""
+
+    name: str
+    meaning: str
+    columns: tuple[Column, ...]
+    key: tuple[str, ...]
+    required: bool = True
+    references: tuple[Reference, ...] = field(default_factory=tuple)
+
+    @property
+    def file_name(self) -> str:
+        return f"{self.name}.csv"
+
+    def column(self, name: str) -> Column:
+        for c in self.columns:
+            if c.name == name:
+                return c
+        raise KeyError(f"{self.name} has no column {name!r}")
+
+    @property
+    def column_names(self) -> list[str]:
+        return [c.name for c in self.columns]
+
+
+def _c(name, type_, unit, required, default, meaning, **kw) -> Column:
+    return Column(name, type_, unit, required, default, meaning, **kw)
+
+
+LAT = _c("lat", "float", "degrees", True, None, "Latitude, WGS84, north positive", min=-90, max=90)
+LON = _c("lon", "float", "degrees", True, None, "Longitude, WGS84, east positive", min=-180, max=180)
+LEGS = ("supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer", "dc-dc")
+
+TABLES: dict[str, Table] = {}
+
+
+def _table(t: Table) -> Table:
+    TABLES[t.name] = t
+    return t
+
+
+_table(
+    Table(
+        "products",
+        "Finished products sold to customers and materials bought from suppliers.",
+        (
+            _c("product", "str", "", True, None, "Product or material code"),
+            _c(
+                "kind",
+                "str",
+                "",
+                False,
+                "finished",
+                "finished (made or bought, sold to customers) or material (used by plants)",
+                choices=("finished", "material"),
+            ),
+            _c("unit_weight_kg", "float", "kg/unit", True, None, "Shipping weight of one unit", min=0),
+            _c(
+                "unit_value",
+                "float",
+                "currency/unit",
+                True,
+                None,
+                "Value of one unit held in stock or in transit",
+                min=0,
+            ),
+            _c(
+                "holding_rate",
+                "float",
+                "share of value per year",
+                False,
+                None,
+                "Annual inventory carrying rate; blank = the settings' inventory.holding_rate",
+                min=0,
+                max=5,
+            ),
+            _c(
+                "demand_cv",
+                "float",
+                "ratio",
+                False,
+                0.0,
+                "Coefficient of variation of annual demand per customer (for safety stock)",
+                min=0,
+            ),
+        ),
+        key=("product",),
+    )
+)
+
+_table(
+    Table(
+        "suppliers",
+        "A supplier's offer of one product or material (one row per supplier and product).",
+        (
+            _c("supplier", "str", "", True, None, "Supplier site code"),
+            _c("product", "str", "", True, None, "Product or material offered"),
+            LAT,
+            LON,
+            _c("region", "str", "", False, "", "Supplier region, for diversification by region"),
+            _c(
+                "capacity",
+                "float",
+                "units/year",
+                False,
+                INF,
+                "Most units this supplier can deliver per year; blank = no limit",
+                min=0,
+            ),
+            _c("unit_cost", "float", "currency/unit", True, None, "Purchase price per unit, at the supplier", min=0),
+            _c(
+                "lead_time_sd_days",
+                "float",
+                "days",
+                False,
+                0.0,
+                "Standard deviation of this supplier's lead time",
+                min=0,
+            ),
+            _c(
+                "time_to_recover_days",
+                "float",
+                "days",
+                False,
+                None,
+                "Days to restore this supplier after a disruption (rows of one supplier: the longest counts); "
+                "blank = settings' resilience.time_to_recover_days",
+                min=0,
+            ),
+        ),
+        key=("supplier", "product"),
+        references=(Reference("product", "products", "product"),),
+    )
+)
+
+_table(
+    Table(
+        "plants",
+        "A plant's ability to make one finished product (one row per plant and product).",
+        (
+            _c("plant", "str", "", True, None, "Plant site code"),
+            _c("product", "str", "", True, None, "Finished product made here"),
+            LAT,
+            LON,
+            _c(
+                "capacity",
+                "float",
+                "units/year",
+                False,
+                INF,
+                "Most units of this product the plant can make per year",
+                min=0,
+            ),
+            _c(
+                "unit_cost",
+                "float",
+                "currency/unit",
+                False,
+                0.0,
+                "Conversion cost per unit made (materials excluded)",
+                min=0,
+            ),
+            _c(
+                "time_to_recover_days",
+                "float",
+                "days",
+                False,
+                None,
+                "Days to restore this plant after a disruption (rows of one plant: the longest counts); "
+                "blank = settings' resilience.time_to_recover_days",
+                min=0,
+            ),
+        ),
+        key=("plant", "product"),
+        references=(Reference("product", "products", "product"),),
+    )
+)
+
+_table(
+    Table(
+        "bill_of_materials",
+        "Materials used per unit of a finished product (optional).",
+        (
+            _c("product", "str", "", True, None, "Finished product"),
+            _c("material", "str", "", True, None, "Material consumed"),
+            _c(
+                "quantity_per_unit",
+                "float",
+                "units of material per unit of product",
+                True,
+                None,
+                "Material units consumed per product unit made",
+                min=0,
+            ),
+        ),
+        key=("product", "material"),
+        required=False,
+        references=(Reference("product", "products", "product"), Reference("material", "products", "product")),
+    )
+)
+
+_table(
+    Table(
+        "dcs",
+        "Existing and candidate distribution centres.",
+        (
+            _c("dc", "str", "", True, None, "DC site code"),
+            LAT,
+            LON,
+            _c(
+                "status",
+                "str",
+                "",
+                False,
+                "candidate",
+                "existing (may be kept or closed) or candidate (may be opened)",
+                choices=("existing", "candidate"),
+            ),
+            _c("fixed_cost", "float", "currency/year", False, 0.0, "Annual cost of running the DC while open", min=0),
+            _c(
+                "capacity",
+                "float",
+                "units/year",
+                False,
+                INF,
+                "Most units the DC can handle (throughput) per year",
+                min=0,
+            ),
+            _c("handling_cost", "float", "currency/unit", False, 0.0, "Cost per unit passing through the DC", min=0),
+            _c(
+                "closing_cost",
+                "float",
+                "currency",
+                False,
+                0.0,
+                "One-off cost of closing an existing DC (annualised by the user)",
+                min=0,
+            ),
+            _c("region", "str", "", False, "", "Region the DC belongs to"),
+            _c(
+                "force",
+                "str",
+                "",
+                False,
+                "",
+                "open or closed to fix the decision; blank lets the model choose",
+                choices=("", "open", "closed"),
+            ),
+            _c(
+                "time_to_recover_days",
+                "float",
+                "days",
+                False,
+                None,
+                "Days to restore this DC after a disruption; blank = settings' resilience.time_to_recover_days",
+                min=0,
+            ),
+        ),
+        key=("dc",),
+    )
+)
+
+_table(
+    Table(
+        "dc_sizes",
+        "Size options of a DC (optional): at most one size is chosen per site, replacing the dcs row's capacity and fixed cost.",
+        (
+            _c("dc", "str", "", True, None, "DC site code"),
+            _c("size", "str", "", True, None, "Name of the size option"),
+            _c("capacity", "float", "units/year", True, None, "Throughput capacity of this size", min=0),
+            _c("fixed_cost", "float", "currency/year", True, None, "Annual fixed cost of this size", min=0),
+        ),
+        key=("dc", "size"),
+        required=False,
+        references=(Reference("dc", "dcs", "dc"),),
+    )
+)
+
+_table(
+    Table(
+        "customers",
+        "Customer demand zones.",
+        (
+            _c("customer", "str", "", True, None, "Customer zone code"),
+            LAT,
+            LON,
+            _c("region", "str", "", False, "", "Sales region (for demand scaling and reports)"),
+            _c(
+                "service_class",
+                "str",
+                "",
+                False,
+                "standard",
+                "Service class; its window and target are in service_classes",
+            ),
+        ),
+        key=("customer",),
+    )
+)
+
+_table(
+    Table(
+        "demand",
+        "Annual demand by customer and product.",
+        (
+            _c("customer", "str", "", True, None, "Customer zone"),
+            _c("product", "str", "", True, None, "Finished product"),
+            _c("quantity", "float", "units/year", True, None, "Annual demand", min=0),
+            _c(
+                "demand_cv",
+                "float",
+                "ratio",
+                False,
+                None,
+                "Coefficient of variation of this demand; blank = the product's demand_cv",
+                min=0,
+            ),
+        ),
+        key=("customer", "product"),
+        references=(Reference("customer", "customers", "customer"), Reference("product", "products", "product")),
+    )
+)
+
+_table(
+    Table(
+        "service_classes",
+        "Service windows and targets per class (optional; without it the settings' policy.service_* apply to all).",
+        (
+            _c("service_class", "str", "", True, None, "Service class name"),
+            _c("max_days", "float", "days", True, None, "Delivery window: transit days of the last leg", min=0),
+            _c(
+                "target_share",
+                "float",
+                "share of demand",
+                True,
+                None,
+                "Least share of each customer's demand that must arrive within the window",
+                min=0,
+                max=1,
+            ),
+        ),
+        key=("service_class",),
+        required=False,
+    )
+)
+
+_table(
+    Table(
+        "modes",
+        "Transport modes with their rates, speeds and emission factors.",
+        (
+            _c("mode", "str", "", True, None, "Mode name (e.g. road, rail, ocean, air)"),
+            _c("cost_per_tonne_km", "float", "currency/(t·km)", True, None, "Freight rate per tonne-kilometre", min=0),
+            _c(
+                "fixed_cost_per_unit",
+                "float",
+                "currency/unit",
+                False,
+                0.0,
+                "Per-unit charge independent of distance",
+                min=0,
+            ),
+            _c("speed_km_per_day", "float", "km/day", True, None, "Door-to-door travelling speed", min=1e-9),
+            _c(
+                "handling_days",
+                "float",
+                "days",
+                False,
+                0.0,
+                "Days added per shipment for loading, transfer, customs",
+                min=0,
+            ),
+            _c("circuity", "float", "ratio", False, 1.0, "Route km per great-circle km", min=1),
+            _c(
+                "co2_kg_per_tonne_km",
+                "float",
+                "kg CO2e/(t·km)",
+                False,
+                0.0,
+                "Emission factor per tonne-km of route distance (CO2e = tonnes × km × factor); blank = 0. "
+                + emission_schema_note(),
+                min=0,
+            ),
+            _c("min_km", "float", "km", False, 0.0, "Shortest lane this mode is used on", min=0),
+            _c("max_km", "float", "km", False, INF, "Longest lane this mode is used on", min=0),
+            _c(
+                "generate_lanes",
+                "bool",
+                "",
+                False,
+                True,
+                "true: lanes of this mode are generated from coordinates; false: only explicit lanes",
+            ),
+            _c(
+                "legs",
+                "str",
+                "",
+                False,
+                "",
+                "Legs the mode may serve, separated by |, from: "
+                + ", ".join(LEGS)
+                + "; blank = the settings' lanes.legs",
+            ),
+        ),
+        key=("mode",),
+    )
+)
+
+_table(
+    Table(
+        "lanes",
+        "Explicit lanes (optional): add to or override the lanes generated from coordinates.",
+        (
+            _c("origin", "str", "", True, None, "Origin site (supplier, plant or DC)"),
+            _c("destination", "str", "", True, None, "Destination site (plant, DC or customer)"),
+            _c("mode", "str", "", True, None, "Transport mode"),
+            _c("product", "str", "", False, "", "Product this row applies to; blank = every product"),
+            _c("distance_km", "float", "km", False, None, "Route distance; blank = great-circle × circuity", min=0),
+            _c(
+                "cost_per_unit",
+                "float",
+                "currency/unit",
+                False,
+                None,
+                "Freight cost per unit; blank = from distance, weight and rate",
+                min=0,
+            ),
+            _c(
+                "transit_days",
+                "float",
+                "days",
+                False,
+                None,
+                "Transit time; blank = distance / speed + handling days",
+                min=0,
+            ),
+            _c(
+                "capacity",
+                "float",
+                "units/year",
+                False,
+                INF,
+                "Most units per year on this lane and mode (all products)",
+                min=0,
+            ),
+            _c("available", "bool", "", False, True, "false removes the lane (also a generated one)"),
+        ),
+        key=("origin", "destination", "mode", "product"),
+        required=False,
+        references=(Reference("mode", "modes", "mode"), Reference("product", "products", "product", allow_blank=True)),
+    )
+)
+
+_table(
+    Table(
+        "road_edges",
+        "Road or rail network edges (optional): distances become shortest paths over this graph.",
+        (
+            _c("from_node", "str", "", True, None, "A site code or a junction name"),
+            _c("to_node", "str", "", True, None, "A site code or a junction name"),
+            _c("km", "float", "km", True, None, "Edge length", min=0),
+            _c("mode", "str", "", False, "", "Mode using this edge; blank = every generated mode"),
+        ),
+        key=("from_node", "to_node", "mode"),
+        required=False,
+    )
+)
+
+
+# --------------------------------------------------------------------------- settings
+
+
+@dataclass(frozen=True)
+class Setting:
+    """One entry of the case's settings file (TOML ``[section] name = value``)."""
+
+    section: str
+    name: str
+    type: str  # "float" | "int" | "bool" | "str" | "list"
+    unit: str
+    default: object
+    meaning: str
+    min: float | None = None
+    max: float | None = None
+
+
+SETTINGS: tuple[Setting, ...] = (
+    Setting("case", "name", "str", "", "", "Case name shown in reports"),
+    Setting("case", "currency", "str", "", "EUR", "Currency label for all money columns"),
+    Setting("solver", "time_limit_s", "float", "s", 300.0, "Stop the MIP search after this many seconds", min=0.1),
+    Setting("solver", "mip_gap", "float", "ratio", 1e-4, "Stop when (cost − bound)/cost is below this", min=0, max=1),
+    Setting("solver", "threads", "int", "", 1, "Solver threads (1 keeps runs reproducible)", min=1),
+    Setting(
+        "policy",
+        "max_supplier_share",
+        "float",
+        "share",
+        1.0,
+        "Most any one supplier may provide of a site's supply of a material",
+        min=0,
+        max=1,
+    ),
+    Setting(
+        "policy",
+        "max_region_share",
+        "float",
+        "share",
+        1.0,
+        "Most any one supplier region may provide of a site's supply of a material",
+        min=0,
+        max=1,
+    ),
+    Setting(
+        "policy",
+        "min_active_suppliers",
+        "int",
+        "",
+        1,
+        "Least number of suppliers actually used per site and material (where that many exist)",
+        min=1,
+    ),
+    Setting(
+        "policy",
+        "min_share_when_active",
+        "float",
+        "share",
+        0.1,
+        "With min_active_suppliers ≥ 2: least share a supplier must deliver to count as active",
+        min=0,
+        max=1,
+    ),
+    Setting("policy", "min_open_dcs", "int", "", 0, "Least number of DCs open", min=0),
+    Setting("policy", "max_open_dcs", "int", "", -1, "Most DCs open; -1 = no limit", min=-1),
+    Setting("policy", "single_sourcing", "bool", "", False, "Each customer and product served from one DC only"),
+    Setting("policy", "one_mode_per_lane", "bool", "", False, "Each lane uses at most one mode"),
+    Setting("policy", "allow_unmet_demand", "bool", "", False, "Allow demand to go unserved at the penalty below"),
+    Setting(
+        "policy",
+        "unmet_penalty_per_unit",
+        "float",
+        "currency/unit",
+        0.0,
+        "Cost of one unit of lost demand; 0 = 2 × the product's unit value",
+        min=0,
+    ),
+    Setting(
+        "policy",
+        "service_max_days",
+        "float",
+        "days",
+        0.0,
+        "Delivery window (last-leg transit days) when no service_classes table is given; 0 = no service rule",
+        min=0,
+    ),
+    Setting(
+        "policy",
+        "service_target_share",
+        "float",
+        "share",
+        0.0,
+        "Least share of each customer's demand within the window",
+        min=0,
+        max=1,
+    ),
+    Setting("policy", "carbon_price_per_tonne", "float", "currency/t CO2e", 0.0, "Carbon price added to cost", min=0),
+    Setting("policy", "co2_cap_tonnes", "float", "t CO2e/year", -1.0, "Cap on transport CO2e; -1 = no cap", min=-1),
+    Setting(
+        "inventory",
+        "holding_rate",
+        "float",
+        "share of value per year",
+        0.25,
+        "Annual inventory carrying rate (capital, storage, risk)",
+        min=0,
+        max=5,
+    ),
+    Setting(
+        "inventory",
+        "cycle_service_level",
+        "float",
+        "probability",
+        0.95,
+        "Chance of no stock-out per replenishment cycle, for safety stock",
+        min=0.5,
+        max=0.99999,
+    ),
+    Setting(
+        "inventory",
+        "safety_stock",
+        "bool",
+        "",
+        True,
+        "Include safety stock at DCs in the cost: z·√(L·σd² + d²·σL²) per DC and product, pooled over the "
+        "customers served (square-root law), as a piecewise-linear curve of the DC's throughput. The curve adds "
+        "yes/no variables per DC and product and can slow the search several-fold on large networks: switch it "
+        "off for screening runs",
+    ),
+    Setting(
+        "inventory",
+        "safety_stock_breakpoints",
+        "int",
+        "",
+        12,
+        "Breakpoints of each DC's piecewise-linear safety-stock curve, 0 included, spaced geometrically from the "
+        "smallest customer demand to the DC's largest throughput; more = smaller error (reported), slower solve",
+        min=2,
+    ),
+    Setting(
+        "lanes",
+        "legs",
+        "list",
+        "",
+        ["supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer"],
+        "Legs for which lanes are generated from coordinates: " + ", ".join(LEGS),
+    ),
+    Setting(
+        "lanes",
+        "max_dc_customer_km",
+        "float",
+        "km",
+        -1.0,
+        "Do not generate DC→customer or plant→customer lanes longer than this; -1 = no limit",
+        min=-1,
+    ),
+    Setting(
+        "lanes",
+        "prune_dominated",
+        "bool",
+        "",
+        True,
+        "Drop a mode on a lane when another mode there is cheaper, no slower, no dirtier and uncapacitated",
+    ),
+    Setting(
+        "resilience",
+        "time_to_recover_days",
+        "float",
+        "days",
+        28.0,
+        "Default days to restore a site after a disruption",
+        min=0,
+    ),
+)
+
+
+def setting_defaults() -> dict[str, dict[str, object]]:
+    """Nested dict ``{section: {name: default}}`` of every setting."""
+    out: dict[str, dict[str, object]] = {}
+    for s in SETTINGS:
+        out.setdefault(s.section, {})[s.name] = s.default
+    return out
+
+
+def schema_frame():
+    """The whole table schema as one DataFrame (one row per table column)."""
+    import pandas as pd
+
+    rows = []
+    for t in TABLES.values():
+        for c in t.columns:
+            rows.append(
+                {
+                    "table": t.name,
+                    "column": c.name,
+                    "type": c.type,
+                    "unit": c.unit,
+                    "required": "yes" if c.required else "no",
+                    "default": "" if c.default is None else ("no limit" if c.default == INF else str(c.default)),
+                    "key": "yes" if c.name in t.key else "no",
+                    "meaning": c.meaning
+                    + (f" (one of: {', '.join(v or '(blank)' for v in c.choices)})" if c.choices else ""),
+                }
+            )
+    return pd.DataFrame(rows)
+
+
+def settings_frame():
+    """Every setting as one DataFrame."""
+    import pandas as pd
+
+    return pd.DataFrame(
+        [
+            {
+                "section": s.section,
+                "name": s.name,
+                "type": s.type,
+                "unit": s.unit,
+                "default": str(s.default),
+                "meaning": s.meaning,
+            }
+            for s in SETTINGS
+        ]
+    )
