@@ -1,0 +1,476 @@
+"""The one declared schema of netopt's outputs.
+
+Every result table netopt writes (one solve's tables, the verification, the scenario
+comparison, the cost–CO2 frontier, the stress tables), every column of it (type, unit,
+short label, meaning) and every row of the ``kpis`` table live here and nowhere else.
+Workbook number formats, terminal and report labels and ``docs/outputs.md`` are read
+from these declarations.
+
+Units are the words of :data:`UNITS`; each has a *kind* that says how a value is shown
+(money, share, days, …).  A column name with ``<…>`` is a pattern for columns made
+per component or mode, e.g. ``cost_<component>``.
+"""
+
+from __future__ import annotations
+
+from netopt.data.result_types import UNITS, Kpi, ResultColumn, ResultTable
+from netopt.data.result_types import result_column as _c
+
+RESULT_TABLES: dict[str, ResultTable] = {}
+
+
+def _table(name, meaning, written_by, *columns, aliases=()) -> ResultTable:
+    t = ResultTable(name, meaning, written_by, tuple(columns), tuple(aliases))
+    RESULT_TABLES[name] = t
+    return t
+
+
+# Columns shared by several tables: one declaration each.
+ORIGIN = _c("origin", "str", "text", "from", "Site the flow leaves")
+DESTINATION = _c("destination", "str", "text", "to", "Site the flow reaches")
+LEG = _c("leg", "str", "text", "leg", "Kind of lane, e.g. dc-customer")
+MODE = _c("mode", "str", "text", "mode", "Transport mode")
+PRODUCT = _c("product", "str", "text", "product", "Product or material")
+QUANTITY = _c("quantity", "float", "units/yr", "units/yr", "Units moved or made per year")
+DISTANCE = _c("distance_km", "float", "km", "distance km", "Lane distance")
+TRANSIT = _c("transit_days", "float", "days", "transit days", "Door-to-door transit time")
+DC = _c("dc", "str", "text", "DC", "Distribution centre")
+CUSTOMER = _c("customer", "str", "text", "customer", "Customer")
+REGION = _c("region", "str", "text", "region", "Region of the site")
+UTILISATION = _c("utilisation", "float", "share", "utilisation", "Throughput over capacity (blank: no limit)")
+CO2_KG = _c("co2_kg", "float", "kg CO2e/yr", "CO2e kg/yr", "Transport CO2e")
+FREIGHT_COST = _c("freight_cost", "float", "currency/yr", "freight cost", "Freight cost")
+PIPELINE_COST = _c("pipeline_cost", "float", "currency/yr", "pipeline cost", "Holding cost of stock in transit")
+CARBON_COST = _c("carbon_cost", "float", "currency/yr", "carbon cost", "CO2e times the carbon price")
+TOTAL_COST = _c("total_cost", "float", "currency/yr", "total cost", "Total landed cost", sense=1)
+STATUS = _c("status", "str", "text", "status", "Solver status (optimal, time_limit, infeasible, …)")
+GAP = _c("gap", "float", "share", "gap", "Proven optimality gap of the solve")
+VERIFIED = _c("verified", "bool", "flag", "checked", "The independent check of the plan passed")
+DCS_OPEN = _c("dcs_open", "int", "count", "DCs open", "DCs open in the plan")
+DCS_OPEN_NAMES = _c("dcs_open_names", "str", "text", "open DCs", "Codes of the open DCs, space-separated")
+LOST_UNITS = _c("lost_units", "float", "units/yr", "lost units/yr", "Demand not delivered", sense=1)
+LOST_VALUE = _c("lost_value", "float", "currency/yr", "lost value", "Penalty value of the demand lost", sense=1)
+MODE_MIX = _c("mode_mix", "str", "text", "mode mix", "Share of tonne-km by mode, as text")
+RANK = _c("rank", "int", "count", "rank", "Position in the ranking, 1 = largest impact")
+TYPE = _c("type", "str", "text", "type", "Kind of element: supplier, plant, dc or lane")
+WITHIN = _c("within_window", "bool", "flag", "in window", "Transit within the customer's service window")
+
+_table(
+    "flows",
+    "Units/yr per lane, mode and product, with per-flow costs, CO2e and transit days",
+    "netopt solve / run",
+    ORIGIN,
+    _c("origin_kind", "str", "text", "from kind", "supplier, plant or dc"),
+    DESTINATION,
+    _c("destination_kind", "str", "text", "to kind", "plant, dc or customer"),
+    LEG,
+    MODE,
+    PRODUCT,
+    QUANTITY,
+    DISTANCE,
+    TRANSIT,
+    _c("tonnes", "float", "t/yr", "tonnes/yr", "Weight moved"),
+    _c("tonne_km", "float", "t·km/yr", "tonne-km/yr", "Transport work: tonnes × km"),
+    _c("supply_cost", "float", "currency/yr", "supply cost", "Purchase price of supplier flows"),
+    FREIGHT_COST,
+    _c("handling_cost", "float", "currency/yr", "handling cost", "DC handling of the units"),
+    PIPELINE_COST,
+    CARBON_COST,
+    CO2_KG,
+    WITHIN,
+)
+_table(
+    "production",
+    "Units/yr made per plant and product, against capacity",
+    "netopt solve / run",
+    _c("plant", "str", "text", "plant", "Plant"),
+    PRODUCT,
+    QUANTITY,
+    _c("capacity", "float", "units/yr", "capacity", "Plant capacity for the product (inf: no limit)"),
+    UTILISATION,
+    _c("cost", "float", "currency/yr", "production cost", "Units made × unit cost"),
+)
+_table(
+    "dcs",
+    "Every DC: decision, chosen size, capacity, throughput and utilisation",
+    "netopt solve / run",
+    DC,
+    _c("status", "str", "text", "status", "existing or candidate"),
+    _c("decision", "str", "text", "decision", "keep, close, open or stay closed"),
+    _c("open", "bool", "flag", "open", "Open in the plan"),
+    _c("size", "str", "text", "size", "Chosen size option (blank: the DC's own row)"),
+    REGION,
+    _c("lat", "float", "degrees", "lat", "Latitude"),
+    _c("lon", "float", "degrees", "lon", "Longitude"),
+    _c("capacity", "float", "units/yr", "capacity", "Capacity of the chosen size (0 when closed, inf: no limit)"),
+    _c("throughput", "float", "units/yr", "throughput", "Units received per year"),
+    UTILISATION,
+    _c("fixed_cost", "float", "currency/yr", "fixed cost", "Fixed cost of the chosen size (0 when closed)"),
+)
+_table(
+    "supplier_shares",
+    "Share of each receiving site's supplier inflow of a material taken by each supplier",
+    "netopt solve / run",
+    _c("site", "str", "text", "site", "Receiving plant or DC"),
+    _c("site_kind", "str", "text", "site kind", "plant or dc"),
+    PRODUCT,
+    _c("supplier", "str", "text", "supplier", "Supplier"),
+    REGION,
+    QUANTITY,
+    _c("share", "float", "share", "share", "The supplier's share of the site's inflow of the material"),
+    _c("max_share", "float", "share", "max share", "The policy's cap on one supplier's share"),
+)
+_table(
+    "mode_mix",
+    "Units, tonnes, tonne-km, freight cost and CO2e by mode",
+    "netopt solve / run",
+    MODE,
+    _c("units", "float", "units/yr", "units/yr", "Units moved by the mode"),
+    _c("tonnes", "float", "t/yr", "tonnes/yr", "Weight moved by the mode"),
+    _c("tonne_km", "float", "t·km/yr", "tonne-km/yr", "Transport work of the mode"),
+    FREIGHT_COST,
+    CO2_KG,
+    _c("share_of_tonne_km", "float", "share", "share of tonne-km", "The mode's share of all tonne-km"),
+)
+_table(
+    "service",
+    "Per customer: demand, delivered, lost, share delivered within the service window",
+    "netopt solve / run",
+    CUSTOMER,
+    _c("service_class", "str", "text", "class", "Service class of the customer"),
+    _c("max_days", "float", "days", "window days", "Service window: longest transit counted as on time"),
+    _c("target_share", "float", "share", "target", "Share of units the class must get within the window"),
+    _c("demand", "float", "units/yr", "demand units/yr", "Demand of the customer"),
+    _c("delivered", "float", "units/yr", "delivered units/yr", "Units delivered"),
+    _c("unmet", "float", "units/yr", "lost units/yr", "Demand not delivered"),
+    _c("within_window", "float", "units/yr", "in window units/yr", "Units delivered within the window"),
+    _c("share_within_window", "float", "share", "achieved", "Share of delivered units within the window"),
+    _c("avg_transit_days", "float", "days", "avg transit days", "Unit-weighted transit time of the last leg"),
+    _c("target_met", "bool", "flag", "target met", "The achieved share reaches the target"),
+)
+_table(
+    "unmet",
+    "Demand not served and its penalty value",
+    "netopt solve / run",
+    CUSTOMER,
+    PRODUCT,
+    _c("demand", "float", "units/yr", "demand units/yr", "Demand of the customer for the product"),
+    _c("lost_units", "float", "units/yr", "lost units/yr", "Demand not delivered"),
+    _c("penalty", "float", "currency/unit", "penalty per unit", "Penalty per unit not delivered"),
+    _c("value", "float", "currency/yr", "lost value", "Lost units × penalty"),
+)
+_table(
+    "cost",
+    "Annual landed cost by component; rows sum to the total",
+    "netopt solve / run",
+    _c("component", "str", "text", "component", "Cost component (supply, transport, dc_fixed, …)"),
+    _c("amount", "float", "currency/yr", "amount", "The component's cost"),
+)
+_table(
+    "kpis",
+    "Headline indicators, one row each, with units (the rows are declared in KPIS)",
+    "netopt solve / run",
+    _c("kpi", "str", "text", "indicator", "Indicator name (see the indicators below)"),
+    _c("value", "float", "ratio", "value", "The indicator's value, in the row's unit"),
+    _c("unit", "str", "text", "unit", "The row's unit"),
+)
+_table(
+    "safety_stock",
+    "Per DC and product: throughput, the model's piecewise-linear safety stock and the exact formula for "
+    "the customers served, approximation errors and cost",
+    "netopt solve / run",
+    DC,
+    PRODUCT,
+    _c("throughput", "float", "units/yr", "throughput", "Units the DC delivers to customers"),
+    _c("customers_served", "int", "count", "customers", "Customers the DC serves with the product"),
+    _c("z", "float", "ratio", "z", "Safety factor: standard normal quantile of the cycle service level"),
+    _c("lead_days", "float", "days", "lead days", "Replenishment lead time used by the model"),
+    _c("lead_sd_days", "float", "days", "lead sd days", "Standard deviation of the lead time"),
+    _c("lead_origin", "str", "text", "lead origin", "Source of the lane the lead time is taken from"),
+    _c("lead_mode", "str", "text", "lead mode", "Mode of that lane"),
+    _c("inbound_days_actual", "float", "days", "actual inbound days", "Unit-weighted transit of the actual inflow"),
+    _c("ss_units_model", "float", "units", "safety stock (model)", "Piecewise-linear safety stock the MIP charged"),
+    _c("ss_units_curve", "float", "units", "safety stock (curve)", "The curve the model approximates"),
+    _c("pwl_rel_error", "float", "ratio", "approx. error", "(curve − piecewise-linear) / curve at the throughput"),
+    _c("max_rel_error", "float", "ratio", "max approx. error", "Largest relative error over the curve's range"),
+    _c("below_first_breakpoint", "bool", "flag", "below range", "Throughput below the curve's first breakpoint"),
+    _c("ss_units_exact", "float", "units", "safety stock (exact)", "Exact formula for the customers served"),
+    _c("ss_units_actual_lead_time", "float", "units", "safety stock (actual lead)", "Exact formula, actual inflow"),
+    _c("unit_holding", "float", "currency/unit/yr", "holding per unit", "Holding cost of one unit of stock"),
+    _c("cost_model", "float", "currency/yr", "cost (model)", "Safety-stock cost in the objective"),
+    _c("cost_pwl", "float", "currency/yr", "cost (curve)", "The same curve recomputed from the flows"),
+    _c("cost_exact", "float", "currency/yr", "cost (exact)", "Exact safety stock × holding cost"),
+    _c("in_objective", "bool", "flag", "in objective", "inventory.safety_stock is on"),
+)
+_table(
+    "pipeline",
+    "In-transit stock per lane, mode and product by Little's law: units, value, cost",
+    "netopt solve / run",
+    ORIGIN,
+    DESTINATION,
+    LEG,
+    MODE,
+    PRODUCT,
+    QUANTITY,
+    TRANSIT,
+    _c("in_transit_units", "float", "units", "in transit units", "Units/yr × transit days ÷ 365"),
+    _c("unit_value", "float", "currency/unit", "unit value", "Value of one unit"),
+    _c("holding_rate", "float", "share/yr", "holding rate", "Holding cost as a share of value per year"),
+    _c("in_transit_value", "float", "currency", "in transit value", "Value of the stock in transit"),
+    PIPELINE_COST,
+)
+_table(
+    "inventory_kpis",
+    "Safety and in-transit stock per DC and for the network: value, days of throughput, turns per year "
+    "(cycle stock not modelled)",
+    "netopt solve / run",
+    _c("level", "str", "text", "level", "dc or network"),
+    _c("dc", "str", "text", "DC", "The DC (network: the whole network)"),
+    _c("throughput_units", "float", "units/yr", "throughput", "Units delivered to customers"),
+    _c("throughput_value", "float", "currency/yr", "throughput value", "The same at unit value"),
+    _c("safety_stock_units", "float", "units", "safety stock", "Exact pooled safety stock"),
+    _c("safety_stock_value", "float", "currency", "safety stock value", "Safety stock at unit value"),
+    _c("inbound_in_transit_value", "float", "currency", "inbound in transit", "Stock in transit into the DC"),
+    _c("outbound_in_transit_value", "float", "currency", "outbound in transit", "Stock in transit out of the DC"),
+    _c("pipeline_value", "float", "currency", "pipeline value", "All in-transit stock counted"),
+    _c("inventory_value", "float", "currency", "inventory value", "Safety plus in-transit stock"),
+    _c("days_on_hand", "float", "days", "days on hand", "Safety-stock value / daily throughput value"),
+    _c("days_incl_transit", "float", "days", "days incl. transit", "Inventory value / daily throughput value"),
+    _c("turns_on_hand", "float", "per year", "turns on hand", "365 / days on hand"),
+    _c("turns", "float", "per year", "turns", "365 / days incl. transit"),
+)
+_table(
+    "mode_economics",
+    "Every admissible mode of each used lane and product: cost per unit and per year if all went by it, "
+    "transit days, CO2e, the chosen mode and the cost of switching",
+    "netopt solve / run",
+    ORIGIN,
+    DESTINATION,
+    LEG,
+    PRODUCT,
+    _c("quantity", "float", "units/yr", "units/yr", "Units of the pair (all modes)"),
+    MODE,
+    _c("chosen", "bool", "flag", "chosen", "The plan uses this mode"),
+    _c("flow", "float", "units/yr", "flow units/yr", "Units on this mode in the plan"),
+    _c("share", "float", "share", "share", "This mode's share of the pair's units"),
+    DISTANCE,
+    TRANSIT,
+    _c("within_window", "bool", "flag", "in window", "Within the service window (last legs; blank elsewhere)"),
+    _c("capacity", "float", "units/yr", "capacity", "Lane-and-mode or product limit (inf: none)"),
+    _c("pruned", "bool", "flag", "pruned", "No better than another mode in cost, time and CO2e; dropped"),
+    _c("freight", "float", "currency/unit", "freight per unit", "Freight per unit"),
+    _c("pipeline", "float", "currency/unit", "pipeline per unit", "In-transit holding per unit"),
+    _c("carbon", "float", "currency/unit", "carbon per unit", "CO2e × carbon price per unit"),
+    _c("total", "float", "currency/unit", "total per unit", "Freight + pipeline + carbon per unit"),
+    _c("co2_kg_per_unit", "float", "kg CO2e/unit", "CO2e kg/unit", "CO2e per unit"),
+    _c("freight_cost", "float", "currency/yr", "freight cost", "Freight if the whole pair went by the mode"),
+    _c("pipeline_cost", "float", "currency/yr", "pipeline cost", "Pipeline holding if all went by the mode"),
+    _c("carbon_cost", "float", "currency/yr", "carbon cost", "Carbon cost if all went by the mode"),
+    _c("total_cost", "float", "currency/yr", "total cost", "Mode-dependent cost if all went by the mode"),
+    _c("co2_kg", "float", "kg CO2e/yr", "CO2e kg/yr", "CO2e if all went by the mode"),
+    _c("switch_cost", "float", "currency/yr", "switch cost", "total_cost − the pair's actual cost", signed=True),
+    _c("switch_co2_kg", "float", "kg CO2e/yr", "switch CO2e kg/yr", "CO2e change of the switch", signed=True),
+    _c("cost_per_t_co2_saved", "float", "currency/t CO2e", "cost per t saved", "switch_cost / tonnes saved"),
+    _c("cheapest", "bool", "flag", "cheapest", "The cheapest mode of the pair"),
+    _c("lowest_co2", "bool", "flag", "lowest CO2e", "The mode of the pair with the least CO2e"),
+)
+_table(
+    "verification",
+    "The independent check of a plan: each rule's largest violation",
+    "netopt solve / run",
+    _c("rule", "str", "text", "rule", "The rule checked"),
+    _c("violation", "float", "ratio", "violation", "Largest violation in the rule's own unit"),
+    _c("relative_violation", "float", "ratio", "relative violation", "Violation over the rule's scale"),
+    _c("where", "str", "text", "where", "The row of the largest violation"),
+)
+_table(
+    "diagnosis",
+    "Why no plan exists: the rules an elastic re-solve had to break, and by how much",
+    "netopt solve / run (infeasible cases)",
+    _c("rule", "str", "text", "rule", "The rule that cannot be met"),
+    _c("where", "str", "text", "where", "Its row labels"),
+    _c("amount", "float", "ratio", "amount", "Shortfall or excess in the rule's own unit"),
+    _c("meaning", "str", "text", "meaning", "What the amount is"),
+)
+_table(
+    "comparison",
+    "One row per solve of a run: the base, then each scenario (and each re-solve of it)",
+    "netopt run",
+    _c("scenario", "str", "text", "scenario", "Scenario name, with [hold] or [redesign] for both re-solves"),
+    _c("description", "str", "text", "description", "What the scenario asks"),
+    _c("based_on", "str", "text", "based on", "The scenario it builds on"),
+    _c("resolve", "str", "text", "re-solve", "hold (DC decisions kept) or redesign"),
+    STATUS,
+    GAP,
+    TOTAL_COST,
+    _c("delta_cost", "float", "currency/yr", "Δ vs base", "Total cost − the base's", signed=True, sense=1),
+    _c("delta_pct", "float", "share", "Δ %", "delta_cost / the base's total cost", signed=True, sense=1),
+    _c("cost_<component>", "float", "currency/yr", "<component> cost", "One cost component"),
+    DCS_OPEN,
+    DCS_OPEN_NAMES,
+    _c("share_within_window", "float", "share", "in window", "Share of delivered units in window", sense=-1),
+    _c("avg_transit_days", "float", "days", "avg transit days", "Unit-weighted transit to customers", sense=1),
+    _c("max_supplier_share", "float", "share", "max supplier share", "Largest supplier share of a site"),
+    MODE_MIX,
+    LOST_UNITS,
+    LOST_VALUE,
+    _c("co2e_tonnes", "float", "t CO2e/yr", "CO2e t/yr", "Transport CO2e", sense=1),
+    VERIFIED,
+    _c("method", "str", "text", "method", "How it was solved (warm re-solve, rebuild, …)"),
+    _c("seconds", "float", "seconds", "seconds", "Solve time"),
+)
+_table(
+    "frontier",
+    "The cost–CO2 frontier: row 0 the cost-optimal network, the last the CO2-minimal one",
+    "netopt frontier; netopt run with frontier_points",
+    _c("point", "int", "count", "point", "Point number, 0 = cost-optimal"),
+    _c("co2_cap_t", "float", "t CO2e/yr", "CO2e cap t/yr", "The cap solved for (point 0: the case's, blank if none)"),
+    _c("co2_t", "float", "t CO2e/yr", "CO2e t/yr", "Transport CO2e of the network"),
+    TOTAL_COST,
+    _c("delta_cost", "float", "currency/yr", "Δ cost", "Against the cost-optimal point", signed=True),
+    _c("delta_co2_t", "float", "t CO2e/yr", "Δ CO2e t/yr", "Against the cost-optimal point", signed=True),
+    _c("cost_per_t_abated", "float", "currency/t CO2e", "cost per t abated", "Between this point and the previous"),
+    DCS_OPEN,
+    DCS_OPEN_NAMES,
+    _c("safety_stock_cost", "float", "currency/yr", "safety stock cost", "Safety-stock cost of the network"),
+    LOST_UNITS,
+    _c("tkm_share_<mode>", "float", "share", "<mode> share of tonne-km", "Share of tonne-km by the mode"),
+    STATUS,
+    GAP,
+    MODE_MIX,
+    VERIFIED,
+)
+_table(
+    "spof_ranking",
+    "Single points of failure: each element out on its own, the network re-solved holding the base's DCs",
+    "netopt stress",
+    RANK,
+    _c("element", "str", "text", "element", "The supplier, plant, DC or lane taken out"),
+    TYPE,
+    _c("base_units", "float", "units/yr", "base units/yr", "Units through it in the base"),
+    _c("recovery_cost", "float", "currency/yr", "recovery cost", "Change in landed cost per year of outage"),
+    LOST_UNITS,
+    LOST_VALUE,
+    _c("impact", "float", "currency/yr", "impact", "recovery cost + lost value + rule relief cost"),
+    _c("customers_affected", "int", "count", "customers affected", "Customers short or served differently"),
+    _c("customers_short", "int", "count", "customers short", "Customers short of demand"),
+    _c("took_over", "str", "text", "took over", "Elements of the same kind whose volume rose most"),
+    _c("took_over_units", "str", "text", "took over units/yr", "Their added units/yr"),
+    _c("rules_bent", "str", "text", "rules bent", "Rules exceeded in the disruption, at base shadow prices"),
+    _c("rule_relief_units", "float", "units/yr", "rule relief units", "Units beyond the rules"),
+    _c("rule_relief_cost", "float", "currency/yr", "rule relief cost", "Those units at the rules' shadow prices"),
+    _c("total_cost", "float", "currency/yr", "total cost", "Landed cost of the disrupted network"),
+    _c("delta_objective", "float", "currency/yr", "Δ objective", "Objective change", signed=True),
+    STATUS,
+    _c("id", "str", "text", "id", "Element id (type:code)"),
+    _c("redesign_status", "str", "text", "redesign status", "Status of the redesign re-solve (--redesign)"),
+    _c("redesign_total_cost", "float", "currency/yr", "redesign total cost", "Landed cost when redesigned"),
+    _c("redesign_recovery_cost", "float", "currency/yr", "redesign recovery cost", "Recovery cost when redesigned"),
+    _c("redesign_lost_units", "float", "units/yr", "redesign lost units/yr", "Lost units when redesigned"),
+    _c("redesign_lost_value", "float", "currency/yr", "redesign lost value", "Lost value when redesigned"),
+    _c("redesign_dc_changes", "str", "text", "redesign DC changes", "DCs opened or closed by the redesign"),
+    aliases=("spof",),
+)
+_table(
+    "exposure",
+    "Per supplier, plant and open DC: time to survive against time to recover, and the demand lost",
+    "netopt stress",
+    RANK,
+    _c("node", "str", "text", "node", "Supplier, plant or DC"),
+    _c("type", "str", "text", "type", "supplier, plant or dc"),
+    _c("ttr_days", "float", "days", "TTR days", "Time to recover: how long the node stays down"),
+    _c("tts_days", "float", "days", "TTS days", "Time to survive: how long all demand is still met"),
+    _c("tts_capped", "bool", "flag", "TTS capped", "TTS reached the horizon (the loss never hurts)"),
+    _c("lost_units", "float", "units", "lost units", "Units lost over the TTR"),
+    _c("lost_value", "float", "currency", "lost value", "Value lost over the TTR"),
+    _c("rei", "float", "ratio", "REI", "Risk-exposure index: lost value / the largest lost value"),
+    _c("customers_short", "int", "count", "customers short", "Customers short of demand"),
+    _c("shortage_days", "float", "days", "shortage days", "max(TTR − TTS, 0)"),
+    _c("tts_below_ttr", "bool", "flag", "at risk", "TTS shorter than TTR: needs mitigation"),
+    _c("stock_units", "float", "units", "stock units", "Stock held at or travelling into the node"),
+)
+_table(
+    "stress_run",
+    "Facts of a stress run (key, value as text)",
+    "netopt stress",
+    _c("key", "str", "text", "fact", "Name of the fact"),
+    _c("value", "str", "text", "value", "Its value, as text"),
+    aliases=("run", "info"),
+)
+
+COMPARISON_VIEW = (
+    "scenario",
+    "resolve",
+    "status",
+    "total_cost",
+    "delta_cost",
+    "delta_pct",
+    "dcs_open",
+    "share_within_window",
+    "avg_transit_days",
+    "max_supplier_share",
+    "lost_units",
+    "lost_value",
+    "co2e_tonnes",
+    "verified",
+)
+"""The headline columns of the comparison, in order: Markdown, terminal and report show these."""
+
+KPIS: dict[str, Kpi] = {
+    k.name: k
+    for k in (
+        Kpi("total_landed_cost", "currency/yr", "landed cost", "Sum of the cost components"),
+        Kpi("demand", "units/yr", "demand", "Total demand"),
+        Kpi("delivered", "units/yr", "delivered", "Units delivered to customers"),
+        Kpi("lost_demand", "units/yr", "lost demand", "Demand not delivered"),
+        Kpi("cost_per_unit_delivered", "currency/unit", "cost per unit", "Landed cost / units delivered"),
+        Kpi("avg_transit_days_to_customer", "days", "average transit", "Demand-weighted transit of the last leg"),
+        Kpi("p95_transit_days_to_customer", "days", "95th percentile transit", "95 % of units arrive within"),
+        Kpi("share_within_service_window", "share", "within service window", "Share of delivered units in window"),
+        Kpi("dcs_open", "count", "DCs open", "DCs open in the plan"),
+        Kpi("in_transit_inventory_units", "units", "units in transit", "Average stock in transit"),
+        Kpi("in_transit_inventory_value", "currency", "value in transit", "Average stock in transit at unit value"),
+        Kpi("in_transit_inventory_days", "days", "days in transit", "In-transit value in days of sales"),
+        Kpi("co2e_tonnes", "t CO2e/yr", "CO2e", "Transport CO2e"),
+        Kpi("safety_stock_units", "units", "safety stock", "Exact formula, customers served"),
+        Kpi("safety_stock_cost_model", "currency/yr", "safety stock cost", "Piecewise-linear, in the objective"),
+        Kpi("safety_stock_cost_exact", "currency/yr", "safety stock cost (exact)", "Exact formula"),
+        Kpi("safety_stock_pwl_max_rel_error", "ratio", "safety stock approx. error", "Curve vs. its linear form"),
+        Kpi("network_inventory_value", "currency", "inventory value", "Safety + in-transit stock"),
+        Kpi("network_inventory_days", "days", "inventory days", "Days of sales at unit value"),
+        Kpi("network_inventory_turns", "per year", "inventory turns", "Turns per year"),
+    )
+}
+
+
+def result_table(name: str) -> ResultTable | None:
+    """The declaration of a table written as ``name`` (its name or an alias), or None."""
+    if name in RESULT_TABLES:
+        return RESULT_TABLES[name]
+    return next((t for t in RESULT_TABLES.values() if name in t.aliases), None)
+
+
+def column_of(table: str, column: str) -> ResultColumn | None:
+    """The declaration of ``column`` of the table written as ``table``, or None."""
+    t = result_table(table)
+    return t.find(column) if t is not None else None
+
+
+def label_of(table: str, column: str) -> str:
+    """The short label of a column (the name with spaces for an undeclared one)."""
+    c = column_of(table, column)
+    return c.label_for(column) if c is not None else str(column).replace("_", " ")
+
+
+__all__ = [
+    "COMPARISON_VIEW",
+    "KPIS",
+    "RESULT_TABLES",
+    "UNITS",
+    "Kpi",
+    "ResultColumn",
+    "ResultTable",
+    "column_of",
+    "label_of",
+    "result_table",
+]
