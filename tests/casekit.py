@@ -18,7 +18,7 @@ import copy
 import csv
 from pathlib import Path
 
-from netopt.data.io import scenarios_toml, toml_value
+from netopt.data.writing import scenarios_toml, toml_value
 
 TINY: dict[str, list[dict]] = {
     "products": [

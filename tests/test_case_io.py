@@ -18,8 +18,10 @@ from hypothesis import strategies as st
 from pandas.testing import assert_frame_equal
 
 from netopt import Case, CaseError, load_case
-from netopt.data.io import case_from_tables, settings_toml, write_case_csv, write_case_workbook
-from netopt.data.schema import SETTINGS, TABLES, setting_defaults
+from netopt.data.io import case_from_tables
+from netopt.data.schema import TABLES
+from netopt.data.settings_schema import SETTINGS, setting_defaults
+from netopt.data.writing import settings_toml, write_case_csv, write_case_workbook
 
 
 def errors_of(path):

@@ -8,7 +8,8 @@ import pytest
 from geographiclib.geodesic import Geodesic
 
 from netopt.data.case import Case, CaseError
-from netopt.data.schema import TABLES, setting_defaults
+from netopt.data.schema import TABLES
+from netopt.data.settings_schema import setting_defaults
 from netopt.network.lanes import LANE_COLUMNS, build_lanes, lane_summary
 
 R = 6371.0088  # mean Earth radius, km (IUGG R1 of WGS84, Moritz 1980)

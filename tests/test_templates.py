@@ -11,7 +11,8 @@ import tomllib
 
 from netopt import load_case
 from netopt.cli import main
-from netopt.data.schema import SETTINGS, TABLES, schema_frame, setting_defaults
+from netopt.data.schema import TABLES, schema_frame
+from netopt.data.settings_schema import SETTINGS, setting_defaults
 from netopt.data.templates import WORKBOOK_NAME, schema_markdown, write_data_templates
 
 REPO = Path(__file__).resolve().parent.parent

@@ -22,9 +22,11 @@ from hypothesis import strategies as st
 
 from netopt.cli import main
 from netopt.data.case import CaseError
+from netopt.data.coerce import coerce_settings
 from netopt.data.io import load_case
+from netopt.data.reach import unreachable_demand
 from netopt.data.schema import TABLES
-from netopt.data.validate import coerce_settings, unreachable_demand, validate
+from netopt.data.validate import validate
 
 REPO = Path(__file__).resolve().parent.parent
 

@@ -7,7 +7,8 @@ import copy
 import pandas as pd
 
 from netopt.data.case import Case, CaseError
-from netopt.data.schema import TABLES, setting_defaults
+from netopt.data.schema import TABLES
+from netopt.data.settings_schema import setting_defaults
 from netopt.data.validate import validate_and_coerce
 
 

@@ -22,17 +22,11 @@ import shutil
 import sys
 from pathlib import Path
 
-from netopt.data.io import (
-    SETTINGS_FILE,
-    SETTINGS_SHEET,
-    _publish_dir,
-    format_setting,
-    settings_toml,
-    temp_dir_beside,
-    write_csv,
-)
-from netopt.data.schema import INF, LEGS, SETTINGS, TABLES, schema_frame, setting_defaults, settings_frame
-from netopt.data.validate import format_number
+from netopt.data.io import SETTINGS_FILE, SETTINGS_SHEET
+from netopt.data.schema import INF, LEGS, TABLES, schema_frame
+from netopt.data.settings_schema import SETTINGS, setting_defaults, settings_frame
+from netopt.data.text import format_number
+from netopt.data.writing import _publish_dir, format_setting, settings_toml, temp_dir_beside, write_csv
 
 WORKBOOK_NAME = "netopt_case_template.xlsx"
 DATA_TEMPLATES = Path(__file__).resolve().parents[2] / "data_templates"

@@ -1,0 +1,316 @@
+"""Typing a case's tables and settings by the declared schema.
+
+Values are turned into text and parsed again, so a table read from a CSV file and a
+typed table give the same answer; blanks take the declared default and every bad
+cell becomes a :class:`~netopt.data.case.Problem` naming its table, row and column.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pandas as pd
+
+from netopt.data.case import Problem
+from netopt.data.declarations import Column, Setting
+from netopt.data.schema import INF, LEGS, TABLES
+from netopt.data.settings_schema import SETTINGS
+from netopt.data.text import (
+    as_text,
+    close_match_hint,
+    format_number,
+    number_message,
+    parse_float,
+    range_text,
+    row_number,
+)
+
+_MISSING_WORDS = {"nan", "na", "n/a", "null", "none", "-nan"}  # read as blank in number columns
+_TRUE_WORDS = {"true", "yes", "y", "t", "1", "1.0"}
+_FALSE_WORDS = {"false", "no", "n", "f", "0", "0.0"}
+_SETTING_CHOICES = {("lanes", "legs"): LEGS}
+
+
+def _empty_column(col: Column, n_index: pd.Index) -> pd.Series:
+    return _typed(col, [col.default] * len(n_index), n_index)
+
+
+def _typed(col: Column, values: list, index: pd.Index) -> pd.Series:
+    if col.type == "str":
+        return pd.Series(["" if v is None else v for v in values], index=index, dtype=str)
+    if col.type == "float":
+        return pd.Series([np.nan if v is None else v for v in values], index=index, dtype=float)
+    if col.type == "int":
+        if any(v is None for v in values):
+            return pd.Series(values, index=index, dtype="Int64")
+        return pd.Series(values, index=index, dtype="int64")
+    if col.type == "bool":
+        return pd.Series([bool(v) if v is not None else False for v in values], index=index, dtype=bool)
+    raise ValueError(f"unknown column type {col.type!r}")  # a schema bug, not user input
+
+
+def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series, list[Problem]]:
+    """Parse one column by its declared type; blanks take the declared default.
+
+    Returns the typed column (bad cells become the default or NaN) and the problems:
+    blank in a required column, text where a number or true/false is expected,
+    values outside the declared range, values not among the declared choices.
+    Infinity is accepted only in columns whose default is "no limit" (inf).
+    """
+    problems: list[Problem] = []
+    idx = series.index
+    if (col.type == "float" and pd.api.types.is_float_dtype(series.dtype)) or (
+        col.type in ("float", "int") and pd.api.types.is_integer_dtype(series.dtype)
+    ):
+        values = [None if pd.isna(v) else float(v) for v in series.tolist()]
+        texts = [format_number(v) if v is not None else "" for v in values]
+    else:
+        texts = [as_text(v) for v in series.tolist()]
+        values = None
+
+    out: list = []
+    for i, (row, text) in enumerate(zip(idx, texts)):
+        r = row_number(row)
+        if col.type == "str":
+            if text == "":
+                if col.required:
+                    problems.append(Problem(table, r, col.name, "blank value in a required column"))
+                out.append("" if col.default is None else col.default)
+                continue
+            bad = next((ch for ch in text if ord(ch) < 32 or ord(ch) == 127), None)
+            if bad is not None:
+                problems.append(
+                    Problem(table, r, col.name, f"contains an invisible control character (code {ord(bad)}): {text!r}")
+                )
+                out.append(col.default if col.default is not None else "")
+                continue
+            if col.choices is not None:
+                match = [c for c in col.choices if c.lower() == text.lower()]
+                if not match:
+                    allowed = ", ".join(c if c else "(blank)" for c in col.choices)
+                    problems.append(Problem(table, r, col.name, f"'{text}' is not one of: {allowed}"))
+                    out.append(col.default)
+                    continue
+                text = match[0]
+            out.append(text)
+            continue
+        if col.type == "bool":
+            low = text.lower()
+            if low == "":
+                if col.required or col.default is None:
+                    problems.append(
+                        Problem(table, r, col.name, "blank value in a required column (true or false expected)")
+                    )
+                    out.append(False)
+                else:
+                    out.append(bool(col.default))
+            elif low in _TRUE_WORDS:
+                out.append(True)
+            elif low in _FALSE_WORDS:
+                out.append(False)
+            else:
+                problems.append(Problem(table, r, col.name, f"true or false expected, got '{text}'"))
+                out.append(bool(col.default) if col.default is not None else False)
+            continue
+        # numbers
+        if values is not None:
+            v = values[i]
+            blank = v is None
+        else:
+            blank = text == "" or text.lower() in _MISSING_WORDS
+            v = None if blank else parse_float(text)
+            if not blank and v is None:
+                what = "whole number" if col.type == "int" else "number"
+                problems.append(Problem(table, r, col.name, number_message(text, what)))
+                out.append(None)
+                continue
+        if blank:
+            if col.required:
+                what = "whole number" if col.type == "int" else "number"
+                problems.append(
+                    Problem(table, r, col.name, f"blank or NaN value in a required column ({what} expected)")
+                )
+            out.append(col.default)
+            continue
+        if math.isinf(v) and not (col.default == INF and v > 0):
+            problems.append(Problem(table, r, col.name, f"finite number expected, got '{text}'"))
+            out.append(None)
+            continue
+        if col.type == "int":
+            if not float(v).is_integer():
+                problems.append(Problem(table, r, col.name, f"whole number expected, got '{text}'"))
+                out.append(None)
+                continue
+            v = int(v)
+        if (col.min is not None and v < col.min) or (col.max is not None and v > col.max):
+            problems.append(Problem(table, r, col.name, f"must be {range_text(col)}, got {format_number(v)}"))
+            out.append(None)
+            continue
+        out.append(v)
+    return _typed(col, out, idx), problems
+
+
+def coerce_table(name: str, frame: pd.DataFrame | None) -> tuple[pd.DataFrame, list[Problem]]:
+    """Type one table by the schema and fill defaults.
+
+    Args:
+        name: table name declared in ``netopt.data.schema.TABLES``.
+        frame: the table as read (text or typed), index = user row numbers; None
+            when the table was not given.
+
+    Returns:
+        The typed table with exactly the declared columns (in declared order) and
+        the problems found: missing required columns (error), unknown columns
+        (warning, dropped), cell problems from :func:`coerce_column`.
+    """
+    t = TABLES[name]
+    problems: list[Problem] = []
+    if frame is None:
+        frame = pd.DataFrame(columns=t.column_names)
+    index = frame.index
+    columns = {}
+    for c in frame.columns:
+        cname = as_text(c)
+        if cname not in t.column_names:
+            problems.append(
+                Problem(
+                    name,
+                    None,
+                    cname or "(no header)",
+                    "unknown column (ignored)" + close_match_hint(cname, t.column_names),
+                    "warning",
+                )
+            )
+    for col in t.columns:
+        if col.name not in frame.columns:
+            if col.required:
+                problems.append(Problem(name, None, col.name, "required column is missing"))
+            columns[col.name] = _empty_column(col, index)
+            continue
+        series = frame[col.name]
+        if isinstance(series, pd.DataFrame):  # duplicated header
+            problems.append(Problem(name, None, col.name, "column appears more than once in the header"))
+            series = series.iloc[:, 0]
+        columns[col.name], probs = coerce_column(name, col, series)
+        problems += probs
+    typed = pd.DataFrame(columns, index=index)
+    typed.index.name = "row"
+    return typed, problems
+
+
+# --------------------------------------------------------------------------- settings
+
+
+def _setting_problem(label, rows, s: Setting, message, severity="error") -> Problem:
+    return Problem(label, (rows or {}).get((s.section, s.name)), f"[{s.section}] {s.name}", message, severity)
+
+
+def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
+    """Parse one setting value by its declared type; returns (value, error message or None)."""
+    if s.type == "str":
+        if isinstance(value, (dict, list)):
+            return s.default, f"text expected, got {value!r}"
+        return as_text(value), None
+    if s.type == "list":
+        if isinstance(value, str):
+            items = [p.strip() for p in value.replace(",", "|").split("|") if p.strip()]
+        elif isinstance(value, (list, tuple)):
+            items = [as_text(p) for p in value]
+            if any(isinstance(p, (list, dict)) for p in value):
+                return s.default, f"list of names expected, got {value!r}"
+        else:
+            return s.default, f'list of names expected (e.g. ["a", "b"] or a|b), got {value!r}'
+        allowed = _SETTING_CHOICES.get((s.section, s.name))
+        if allowed is not None:
+            bad = [p for p in items if p not in allowed]
+            if bad:
+                return s.default, f"unknown value(s) {', '.join(repr(b) for b in bad)}; allowed: {', '.join(allowed)}"
+        return items, None
+    if s.type == "bool":
+        if isinstance(value, (bool, np.bool_)):
+            return bool(value), None
+        if isinstance(value, (int, float, str)):
+            low = as_text(value).lower()
+            if low in _TRUE_WORDS:
+                return True, None
+            if low in _FALSE_WORDS:
+                return False, None
+        return s.default, f"true or false expected, got {value!r}"
+    # numbers
+    if isinstance(value, (bool, np.bool_, list, dict)):
+        return s.default, f"{'whole number' if s.type == 'int' else 'number'} expected, got {value!r}"
+    if isinstance(value, str):
+        v = parse_float(value.strip())
+        if v is None:
+            return s.default, number_message(value.strip(), "whole number" if s.type == "int" else "number")
+    elif isinstance(value, (int, float, np.integer, np.floating)):
+        v = float(value)
+    else:
+        return s.default, f"number expected, got {value!r}"
+    if math.isnan(v) or math.isinf(v):
+        return s.default, f"finite number expected, got {value!r}"
+    if s.type == "int":
+        if not v.is_integer():
+            return s.default, f"whole number expected, got {value!r}"
+        v = int(v)
+    if (s.min is not None and v < s.min) or (s.max is not None and v > s.max):
+        return s.default, f"must be {range_text(s)}, got {format_number(v)}"
+    return v, None
+
+
+def coerce_settings(
+    raw: dict | None, label: str = "settings.toml", rows: dict[tuple[str, str], int] | None = None
+) -> tuple[dict, list[Problem]]:
+    """Settings with defaults filled, typed by the schema.
+
+    Args:
+        raw: ``{section: {name: value}}`` as read from TOML or a settings sheet.
+        label: where the settings came from, used as the problem's table
+            (``settings.toml`` or the workbook sheet ``settings``).
+        rows: optional sheet row of each ``(section, name)``.
+
+    Returns:
+        ``({section: {name: value}}, problems)``. Unknown sections and names are
+        warnings; wrong types and out-of-range values are errors naming ``[section] name``.
+    """
+    problems: list[Problem] = []
+    out: dict[str, dict[str, object]] = {}
+    declared = {(s.section, s.name): s for s in SETTINGS}
+    sections = {s.section for s in SETTINGS}
+    for s in SETTINGS:
+        out.setdefault(s.section, {})[s.name] = list(s.default) if isinstance(s.default, list) else s.default
+    for section, entries in (raw or {}).items():
+        if not isinstance(entries, dict):
+            problems.append(Problem(label, None, str(section), "setting outside any [section] (ignored)", "warning"))
+            continue
+        if section not in sections:
+            problems.append(
+                Problem(
+                    label,
+                    None,
+                    f"[{section}]",
+                    "unknown section (ignored)" + close_match_hint(str(section), sections),
+                    "warning",
+                )
+            )
+            continue
+        names = [n for (sec, n) in declared if sec == section]
+        for name, value in entries.items():
+            s = declared.get((section, name))
+            if s is None:
+                problems.append(
+                    Problem(
+                        label,
+                        (rows or {}).get((section, name)),
+                        f"[{section}] {name}",
+                        "unknown setting (ignored)" + close_match_hint(str(name), names),
+                        "warning",
+                    )
+                )
+                continue
+            v, err = coerce_setting(s, value)
+            if err:
+                problems.append(_setting_problem(label, rows, s, err))
+            out[section][name] = v
+    return out, problems

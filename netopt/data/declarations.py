@@ -1,0 +1,74 @@
+"""The building blocks of the case schema: a table column, a reference, a table, a setting.
+
+The declarations themselves are in :mod:`netopt.data.schema` (tables) and
+:mod:`netopt.data.settings_schema` (settings).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+
+@dataclass(frozen=True)
+class Column:
+    """One column of a case table."""
+
+    name: str
+    type: str  # "str" | "float" | "int" | "bool"
+    unit: str
+    required: bool
+    default: object
+    meaning: str
+    min: float | None = None  # smallest allowed value (numbers)
+    max: float | None = None  # largest allowed value (numbers)
+    choices: tuple[str, ...] | None = None  # allowed values (text)
+
+
+@dataclass(frozen=True)
+class Reference:
+    """Values of ``column`` in this table must appear in ``table.target_column``."""
+
+    column: str
+    table: str
+    target_column: str
+    allow_blank: bool = False
+
+
+@dataclass(frozen=True)
+class Table:
+    """One case table: a CSV file in a case folder or a sheet of a case workbook."""
+
+    name: str
+    meaning: str
+    columns: tuple[Column, ...]
+    key: tuple[str, ...]
+    required: bool = True
+    references: tuple[Reference, ...] = field(default_factory=tuple)
+
+    @property
+    def file_name(self) -> str:
+        return f"{self.name}.csv"
+
+    def column(self, name: str) -> Column:
+        for c in self.columns:
+            if c.name == name:
+                return c
+        raise KeyError(f"{self.name} has no column {name!r}")
+
+    @property
+    def column_names(self) -> list[str]:
+        return [c.name for c in self.columns]
+
+
+@dataclass(frozen=True)
+class Setting:
+    """One entry of the case's settings file (TOML ``[section] name = value``)."""
+
+    section: str
+    name: str
+    type: str  # "float" | "int" | "bool" | "str" | "list"
+    unit: str
+    default: object
+    meaning: str
+    min: float | None = None
+    max: float | None = None

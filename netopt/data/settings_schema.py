@@ -1,0 +1,194 @@
+"""The declared settings of a netopt case: ``[section] name = value`` entries of ``settings.toml``.
+
+Each :class:`~netopt.data.declarations.Setting` has a type, unit, default, meaning and range;
+loading, validation, templates and the settings documentation are generated from them.
+"""
+
+from __future__ import annotations
+
+import pandas as pd
+
+from netopt.data.declarations import Setting
+from netopt.data.schema import LEGS
+
+SETTINGS: tuple[Setting, ...] = (
+    Setting("case", "name", "str", "", "", "Case name shown in reports"),
+    Setting("case", "currency", "str", "", "EUR", "Currency label for all money columns"),
+    Setting("solver", "time_limit_s", "float", "s", 300.0, "Stop the MIP search after this many seconds", min=0.1),
+    Setting("solver", "mip_gap", "float", "ratio", 1e-4, "Stop when (cost − bound)/cost is below this", min=0, max=1),
+    Setting("solver", "threads", "int", "", 1, "Solver threads (1 keeps runs reproducible)", min=1),
+    Setting(
+        "policy",
+        "max_supplier_share",
+        "float",
+        "share",
+        1.0,
+        "Most any one supplier may provide of a site's supply of a material",
+        min=0,
+        max=1,
+    ),
+    Setting(
+        "policy",
+        "max_region_share",
+        "float",
+        "share",
+        1.0,
+        "Most any one supplier region may provide of a site's supply of a material",
+        min=0,
+        max=1,
+    ),
+    Setting(
+        "policy",
+        "min_active_suppliers",
+        "int",
+        "",
+        1,
+        "Least number of suppliers actually used per site and material (where that many exist)",
+        min=1,
+    ),
+    Setting(
+        "policy",
+        "min_share_when_active",
+        "float",
+        "share",
+        0.1,
+        "With min_active_suppliers ≥ 2: least share a supplier must deliver to count as active",
+        min=0,
+        max=1,
+    ),
+    Setting("policy", "min_open_dcs", "int", "", 0, "Least number of DCs open", min=0),
+    Setting("policy", "max_open_dcs", "int", "", -1, "Most DCs open; -1 = no limit", min=-1),
+    Setting("policy", "single_sourcing", "bool", "", False, "Each customer and product served from one DC only"),
+    Setting("policy", "one_mode_per_lane", "bool", "", False, "Each lane uses at most one mode"),
+    Setting("policy", "allow_unmet_demand", "bool", "", False, "Allow demand to go unserved at the penalty below"),
+    Setting(
+        "policy",
+        "unmet_penalty_per_unit",
+        "float",
+        "currency/unit",
+        0.0,
+        "Cost of one unit of lost demand; 0 = 2 × the product's unit value",
+        min=0,
+    ),
+    Setting(
+        "policy",
+        "service_max_days",
+        "float",
+        "days",
+        0.0,
+        "Delivery window (last-leg transit days) when no service_classes table is given; 0 = no service rule",
+        min=0,
+    ),
+    Setting(
+        "policy",
+        "service_target_share",
+        "float",
+        "share",
+        0.0,
+        "Least share of each customer's demand within the window",
+        min=0,
+        max=1,
+    ),
+    Setting("policy", "carbon_price_per_tonne", "float", "currency/t CO2e", 0.0, "Carbon price added to cost", min=0),
+    Setting("policy", "co2_cap_tonnes", "float", "t CO2e/year", -1.0, "Cap on transport CO2e; -1 = no cap", min=-1),
+    Setting(
+        "inventory",
+        "holding_rate",
+        "float",
+        "share of value per year",
+        0.25,
+        "Annual inventory carrying rate (capital, storage, risk)",
+        min=0,
+        max=5,
+    ),
+    Setting(
+        "inventory",
+        "cycle_service_level",
+        "float",
+        "probability",
+        0.95,
+        "Chance of no stock-out per replenishment cycle, for safety stock",
+        min=0.5,
+        max=0.99999,
+    ),
+    Setting(
+        "inventory",
+        "safety_stock",
+        "bool",
+        "",
+        True,
+        "Include safety stock at DCs in the cost: z·√(L·σd² + d²·σL²) per DC and product, pooled over the "
+        "customers served (square-root law), as a piecewise-linear curve of the DC's throughput. The curve adds "
+        "yes/no variables per DC and product and can slow the search several-fold on large networks: switch it "
+        "off for screening runs",
+    ),
+    Setting(
+        "inventory",
+        "safety_stock_breakpoints",
+        "int",
+        "",
+        12,
+        "Breakpoints of each DC's piecewise-linear safety-stock curve, 0 included, spaced geometrically from the "
+        "smallest customer demand to the DC's largest throughput; more = smaller error (reported), slower solve",
+        min=2,
+    ),
+    Setting(
+        "lanes",
+        "legs",
+        "list",
+        "",
+        ["supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer"],
+        "Legs for which lanes are generated from coordinates: " + ", ".join(LEGS),
+    ),
+    Setting(
+        "lanes",
+        "max_dc_customer_km",
+        "float",
+        "km",
+        -1.0,
+        "Do not generate DC→customer or plant→customer lanes longer than this; -1 = no limit",
+        min=-1,
+    ),
+    Setting(
+        "lanes",
+        "prune_dominated",
+        "bool",
+        "",
+        True,
+        "Drop a mode on a lane when another mode there is cheaper, no slower, no dirtier and uncapacitated",
+    ),
+    Setting(
+        "resilience",
+        "time_to_recover_days",
+        "float",
+        "days",
+        28.0,
+        "Default days to restore a site after a disruption",
+        min=0,
+    ),
+)
+
+
+def setting_defaults() -> dict[str, dict[str, object]]:
+    """Nested dict ``{section: {name: default}}`` of every setting."""
+    out: dict[str, dict[str, object]] = {}
+    for s in SETTINGS:
+        out.setdefault(s.section, {})[s.name] = s.default
+    return out
+
+
+def settings_frame():
+    """Every setting as one DataFrame."""
+    return pd.DataFrame(
+        [
+            {
+                "section": s.section,
+                "name": s.name,
+                "type": s.type,
+                "unit": s.unit,
+                "default": str(s.default),
+                "meaning": s.meaning,
+            }
+            for s in SETTINGS
+        ]
+    )
