@@ -39,16 +39,12 @@ from generator import synthetic_case
 
 from netopt.api import solve
 from netopt.network.lanes import build_lanes
-from netopt.studies.resilience import (
-    element_changes,
-    held_case,
-    hold_resolve,
-    make_spec,
-    run_sweep,
-    sweep_elements,
-    worker_state,
-)
-from netopt.studies.scenarios import HeldNetwork, Scenario, apply_changes
+from netopt.studies.changes import element_changes
+from netopt.studies.resilience import hold_resolve, run_sweep, sweep_elements
+from netopt.studies.sweep_worker import held_case, make_spec, worker_state
+from netopt.engine.held import HeldNetwork
+from netopt.studies.changes import resolve_held
+from netopt.studies.scenarios import Scenario, apply_changes
 
 
 def sample_elements(case, base, n: int, seed: int) -> pd.DataFrame:
@@ -162,7 +158,7 @@ def main(argv: list[str] | None = None) -> dict:
     # pools (the forkserver is started first so neither pool's time includes it)
     from concurrent.futures import ProcessPoolExecutor
 
-    from netopt.studies.resilience import _pool_context
+    from netopt.studies.sweep_exec import pool_context as _pool_context
 
     t0 = time.perf_counter()
     with ProcessPoolExecutor(1, mp_context=_pool_context()) as ex:

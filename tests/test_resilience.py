@@ -19,16 +19,10 @@ from randcase import lane_loss_case, random_case
 from netopt.api import solve
 from netopt.data.case import CaseError
 from netopt.data.frames import make_case
-from netopt.studies.resilience import (
-    JOURNAL,
-    element_changes,
-    read_journal,
-    run_sweep,
-    stress,
-    stress_command,
-    summary_lines,
-    sweep_elements,
-)
+from netopt.present.stress import stress, stress_command, summary_lines
+from netopt.studies.changes import element_changes
+from netopt.studies.resilience import run_sweep, sweep_elements
+from netopt.studies.sweep_exec import JOURNAL, read_journal
 from netopt.studies.scenarios import Scenario, run_scenarios
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -242,7 +236,7 @@ def test_killed_sweep_resumes_without_redoing_finished_elements(solved, inline_t
         proc.wait()
     with open(journal, "a") as fh:
         fh.write('{"id": "lane:torn')  # a row torn by the kill
-    from netopt.studies.resilience import make_spec
+    from netopt.studies.sweep_worker import make_spec
 
     done, ok = read_journal(journal, make_spec(case, base).key)
     assert ok and k <= len(done) < len(inline_table)

@@ -7,7 +7,9 @@ from randcase import lane_loss_case, random_case
 
 from netopt.api import solve
 from netopt.data.case import CaseError
-from netopt.studies.scenarios import HeldNetwork, Scenario, apply_changes, parse_scenarios, run_scenarios
+from netopt.engine.held import HeldNetwork
+from netopt.studies.changes import resolve_held
+from netopt.studies.scenarios import Scenario, apply_changes, parse_scenarios, run_scenarios
 
 REL = 1e-6
 
@@ -260,7 +262,7 @@ def test_warm_resolves_equal_cold_rebuilds(seed):
     for changes in changes_list:
         s = sc("x", *changes, {"kind": "policy", "allow_unmet_demand": True})
         c = apply_changes(case, s)
-        warm = held.solve(c, changes)
+        warm = resolve_held(held, c, changes)
         assert warm is not None and warm.verification.passed
         cold = solve(c, hold=base.held_openings(), mip_gap=1e-9)
         assert warm.objective == pytest.approx(cold.objective, rel=1e-6)
@@ -284,7 +286,7 @@ def test_held_network_with_safety_stock_is_an_lp_exact_at_the_base():
     dc = d.loc[d["open"], "dc"].iloc[0]
     changes = [{"kind": "site_out", "site": dc}]
     c = apply_changes(case, sc("x", *changes, {"kind": "policy", "allow_unmet_demand": True}))
-    warm = held.solve(c, changes)
+    warm = resolve_held(held, c, changes)
     assert warm is not None and warm.verification.passed
     redesign = cost(c)
     assert redesign.objective <= warm.objective * (1 + REL)
@@ -295,5 +297,5 @@ def test_warm_hold_reports_lp_bound_and_zero_gap(base_case, base):
     held = HeldNetwork(base_case, base)
     assert held.base_info.gap == 0.0 and held.base_info.bound == pytest.approx(held.base_info.objective)
     changes = [{"kind": "scale_demand", "factor": 1.05}]
-    warm = held.solve(apply_changes(base_case, sc("x", *changes)), changes)
+    warm = resolve_held(held, apply_changes(base_case, sc("x", *changes)), changes)
     assert warm.status == "optimal" and warm.gap == 0.0 and warm.bound == pytest.approx(warm.objective)

@@ -155,6 +155,26 @@ def verify(
         .to_numpy(float),
         where=(prod["plant"] + "/" + prod["product"]).to_numpy(),
     )
+    ck.eq(
+        "reported plant capacity = the case's (units)",
+        np.nan_to_num(prod["capacity"].to_numpy(float), posinf=1e30),
+        np.nan_to_num(
+            plants.set_index(["plant", "product"])["capacity"]
+            .reindex(pd.MultiIndex.from_frame(prod[["plant", "product"]]))
+            .to_numpy(float),
+            posinf=1e30,
+        ),
+        where=(prod["plant"] + "/" + prod["product"]).to_numpy(),
+    )
+    if "service" in tables and len(tables["service"]):
+        sv = tables["service"]
+        want = dem.groupby("customer")["quantity"].sum().reindex(sv["customer"]).fillna(0.0).to_numpy(float)
+        ck.eq(
+            "reported customer demand = the case's (units)",
+            sv["demand"].to_numpy(float),
+            want,
+            where=sv["customer"].to_numpy(),
+        )
     bom = t["bill_of_materials"]
     if len(bom):
         need = prod.merge(bom, on="product")

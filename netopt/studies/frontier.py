@@ -12,7 +12,7 @@
    rise as the cap loosens: cost is non-decreasing down the table as the cap tightens.
 
 All solves share one compiled model in one HiGHS instance; only the objective, the cap row's
-bound and start solutions change.  Every point is checked by :func:`netopt.verify.verify`
+bound and start solutions change.  Every point goes through :func:`netopt.engine.extract.extract` (tables, verification)
 against the case with that cap.  Row 0 is the cost-optimal network, row N−1 the CO2-minimal one.
 
 Columns: point, co2_cap_t (t CO2e/yr; the cost-optimal point: the case's cap, NaN if none),
@@ -35,11 +35,9 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.engine.extract import extract
 from netopt.engine.highs import compile_model
-from netopt.engine.inventory_report import safety_stock_extra_cost
-from netopt.engine.tables import build_tables
-from netopt.engine.verify import verify
-from netopt.model import COST_COMPONENTS, build_model
+from netopt.model import build_model
 from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
 from netopt.network.arcs import build_network
 from netopt.network.lanes import case_lanes
@@ -165,13 +163,9 @@ def sweep(
             point_tables.append({})
             continue
         values = {name: np.where(cols >= 0, x[np.maximum(cols, 0)], 0.0) for name, cols in hm.col_of.items()}
-        cost = b.component_values(values)
-        cost = {c: float(cost.get(c, 0.0)) for c in COST_COMPONENTS} | {
-            c: v for c, v in cost.items() if c not in COST_COMPONENTS
-        }
-        tables = build_tables(net, values, cost)
         check_case = _with_cap(case, cap * (1 + CAP_TOL_REL) + CAP_TOL_ABS) if cap == cap else case
-        ver = verify(check_case, lanes, tables, float(info.objective), extra_cost=safety_stock_extra_cost(tables))
+        out = extract(check_case, lanes, net, b, values, float(info.objective))
+        cost, tables, ver = out.cost, out.tables, out.verification
         total = float(sum(cost.values()))
         co2 = float(tables["flows"]["co2_kg"].sum() / 1000.0)
         if base_cost is None:

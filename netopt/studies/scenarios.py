@@ -15,7 +15,7 @@ A case may hold ``scenarios.toml`` with ``[[scenario]]`` entries::
       destination = "PLANT_POZNAN"
       mode = "ocean"         # blank or absent = every mode
 
-Change kinds (see :data:`CHANGE_KINDS`): add_dc, force_dc, close_lane, cap_lane,
+Change kinds (see :data:`netopt.studies.changes.CHANGE_KINDS`, where each kind's two meanings live): add_dc, force_dc, close_lane, cap_lane,
 site_out, policy, setting, scale_demand, scale_cost, set_capacity.
 
 *Hold the network* keeps the base's DC decisions and re-routes only (short-term
@@ -33,35 +33,17 @@ import copy
 import time
 from dataclasses import dataclass, field
 
-import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
-from netopt.data.schema import TABLES
 from netopt.data.validate import validate_and_coerce
-from netopt.engine.highs import compile_model
-from netopt.engine.solve import Result, _fixed_options, solve
-from netopt.engine.tables import build_tables
-from netopt.engine.verify import verify
-from netopt.model import COST_COMPONENTS, build_model
-from netopt.model.safety_stock import add_held_lines, held_lines, held_lines_cost, prepare_solve
-from netopt.network.arcs import build_network
-from netopt.network.lanes import build_lanes, case_lanes
+from netopt.engine.held import HeldNetwork
+from netopt.engine.result import Result
+from netopt.engine.solve import solve
+from netopt.studies.changes import CHANGE_KINDS, CaseEdit, resolve_held, site_kinds
+from netopt.studies.comparison import comparison_row
 from netopt.studies.frontier import scenario_frontier
 
-CHANGE_KINDS = {
-    "add_dc": "Add a candidate DC: dc, lat, lon and any dcs column (fixed_cost, capacity, handling_cost, …)",
-    "force_dc": "Force a DC's decision: dc, to = open | closed | free",
-    "close_lane": "Remove a lane: origin, destination, mode (blank = every mode), product (blank = all)",
-    "cap_lane": "Cap a lane: origin, destination, mode (blank = every mode), capacity (units/yr)",
-    "site_out": "Take a supplier, plant or DC out for the year: site",
-    "policy": "Change policy settings: any [policy] name = value (e.g. max_supplier_share = 0.6)",
-    "setting": "Change any setting: section, then name = value",
-    "scale_demand": "Scale demand: factor; optional region, customer, product filters",
-    "scale_cost": "Scale a cost: factor and target = mode_rate (mode) | supplier_price (supplier, product) | "
-    "dc_fixed_cost (dc) | production_cost (plant, product) | handling_cost (dc)",
-    "set_capacity": "Change a capacity: site (supplier, plant or DC), optional product, capacity or factor",
-}
 RESOLVE = ("redesign", "hold", "both")
 
 
@@ -169,258 +151,48 @@ def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml"
 # ---------------------------------------------------------------------------------- applying
 
 
-def _sites(case: Case) -> dict[str, str]:
-    t = case.tables
-    out = {}
-    for table, col, kind in (
-        ("suppliers", "supplier", "supplier"),
-        ("plants", "plant", "plant"),
-        ("dcs", "dc", "dc"),
-        ("customers", "customer", "customer"),
-    ):
-        for s in t[table][col].astype(str):
-            out[s] = kind
-    return out
-
-
-def _num(value, what: str, err: list[str], minimum: float = 0.0):
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        err.append(f"{what} must be a number, not {value!r}")
-        return None
-    if np.isnan(v) or v < minimum:
-        err.append(f"{what} must be ≥ {minimum:g}, not {value!r}")
-        return None
-    return v
-
-
-def _append_row(df: pd.DataFrame, table: str, values: dict) -> pd.DataFrame:
-    t = TABLES[table]
-    row = {c.name: values.get(c.name, c.default) for c in t.columns}
-    nxt = (int(df.index.max()) + 1) if len(df) else 2
-    return pd.concat([df, pd.DataFrame([row], index=[nxt])]).astype(
-        {c: df[c].dtype for c in df.columns if c in row}, errors="ignore"
-    )
-
-
 def apply_changes(case: Case, sc: Scenario, changes: list[dict] | None = None) -> Case:
-    """A new case with the scenario's changes applied (the base is untouched)."""
+    """A new case with the scenario's changes applied (the base is untouched).
+
+    Each change is applied by its kind's ``edit_case`` (:mod:`netopt.studies.changes`); every
+    problem of every change is reported at once.  The lane table is shared with ``case``
+    unless a change edits what lanes are built from.
+    """
     c = case.copy()
-    t = c.tables
-    s = c.settings
-    sites = _sites(case)
-    modes = set(t["modes"]["mode"].astype(str))
+    ed = CaseEdit(c, site_kinds(case), set(c.tables["modes"]["mode"].astype(str)))
+    c.generated_lanes = case.generated_lanes
     problems: list[Problem] = []
     for i, ch in enumerate(changes if changes is not None else sc.changes, start=1):
-        kind = ch.get("kind")
-        err: list[str] = []
-        g = lambda k, d="": str(ch.get(k, d)).strip()  # noqa: E731
-        if kind == "add_dc":
-            dc = g("dc")
-            if not dc:
-                err.append("dc is required")
-            elif dc in sites:
-                err.append(f"site '{dc}' already exists")
-            else:
-                vals = {k: v for k, v in ch.items() if k != "kind"}
-                vals.setdefault("status", "candidate")
-                bad = set(vals) - set(TABLES["dcs"].column_names)
-                if bad:
-                    err.append(f"unknown dcs column(s): {', '.join(sorted(bad))}")
-                for req in ("lat", "lon"):
-                    if req not in vals:
-                        err.append(f"{req} is required")
-                if not err:
-                    t["dcs"] = _append_row(t["dcs"], "dcs", vals)
-                    sites[dc] = "dc"
-        elif kind == "force_dc":
-            dc, to = g("dc"), g("to")
-            if sites.get(dc) != "dc":
-                err.append(f"'{dc}' is not a DC")
-            if to not in ("open", "closed", "free"):
-                err.append(f"to must be open, closed or free, not '{to}'")
-            if not err:
-                t["dcs"].loc[t["dcs"]["dc"] == dc, "force"] = "" if to == "free" else to
-        elif kind in ("close_lane", "cap_lane"):
-            o, d, m, p = g("origin"), g("destination"), g("mode"), g("product")
-            if o not in sites:
-                err.append(f"unknown origin site '{o}'")
-            if d not in sites:
-                err.append(f"unknown destination site '{d}'")
-            if m and m not in modes:
-                err.append(f"unknown mode '{m}'")
-            cap = _num(ch.get("capacity"), "capacity", err) if kind == "cap_lane" else None
-            if not err:
-                lanes = build_lanes(c)
-                hit = lanes[
-                    (lanes["origin"] == o) & (lanes["destination"] == d) & ((lanes["mode"] == m) if m else True)
-                ]
-                if hit.empty:
-                    err.append(f"there is no lane {o} → {d}" + (f" by {m}" if m else ""))
-                else:
-                    ex = t["lanes"]
-                    for mode in sorted(set(hit["mode"])):
-                        mask = (
-                            (ex["origin"] == o) & (ex["destination"] == d) & (ex["mode"] == mode) & (ex["product"] == p)
-                        )
-                        if kind == "close_lane":
-                            if mask.any():
-                                ex.loc[mask, "available"] = False
-                            else:
-                                ex = _append_row(
-                                    ex,
-                                    "lanes",
-                                    {"origin": o, "destination": d, "mode": mode, "product": p, "available": False},
-                                )
-                        else:
-                            if mask.any():
-                                ex.loc[mask, "capacity"] = cap
-                            else:
-                                row = hit[(hit["mode"] == mode)].iloc[0]
-                                ex = _append_row(
-                                    ex,
-                                    "lanes",
-                                    {
-                                        "origin": o,
-                                        "destination": d,
-                                        "mode": mode,
-                                        "product": p,
-                                        "distance_km": row["distance_km"],
-                                        "transit_days": row["transit_days"],
-                                        "cost_per_unit": row["cost_per_unit"],
-                                        "capacity": cap,
-                                    },
-                                )
-                    t["lanes"] = ex
-        elif kind == "site_out":
-            site = g("site")
-            k = sites.get(site)
-            if k == "supplier":
-                t["suppliers"].loc[t["suppliers"]["supplier"] == site, "capacity"] = 0.0
-            elif k == "plant":
-                t["plants"].loc[t["plants"]["plant"] == site, "capacity"] = 0.0
-            elif k == "dc":
-                t["dcs"].loc[t["dcs"]["dc"] == site, "force"] = "closed"
-            elif k == "customer":
-                err.append(f"'{site}' is a customer: use scale_demand with factor 0 to drop its demand")
-            else:
-                err.append(f"unknown site '{site}'")
-        elif kind in ("policy", "setting"):
-            section = "policy" if kind == "policy" else g("section")
-            if section not in s:
-                err.append(f"unknown settings section '{section}'")
-            else:
-                for k2, v in ch.items():
-                    if k2 in ("kind", "section"):
-                        continue
-                    if k2 not in s[section]:
-                        err.append(f"unknown setting [{section}] {k2}")
-                    else:
-                        s[section][k2] = v
-        elif kind == "scale_demand":
-            f = _num(ch.get("factor"), "factor", err)
-            dem = t["demand"]
-            mask = pd.Series(True, index=dem.index)
-            if g("region"):
-                regions = set(t["customers"]["region"].astype(str))
-                if g("region") not in regions:
-                    err.append(f"unknown region '{g('region')}'")
-                cust = t["customers"].loc[t["customers"]["region"] == g("region"), "customer"]
-                mask &= dem["customer"].isin(cust)
-            if g("customer"):
-                if sites.get(g("customer")) != "customer":
-                    err.append(f"unknown customer '{g('customer')}'")
-                mask &= dem["customer"] == g("customer")
-            if g("product"):
-                if g("product") not in set(t["products"]["product"]):
-                    err.append(f"unknown product '{g('product')}'")
-                mask &= dem["product"] == g("product")
-            if not err:
-                dem.loc[mask, "quantity"] = dem.loc[mask, "quantity"] * f
-        elif kind == "scale_cost":
-            f = _num(ch.get("factor"), "factor", err)
-            target = g("target")
-            if target == "mode_rate":
-                if g("mode") not in modes:
-                    err.append(f"unknown mode '{g('mode')}'")
-                elif f is not None:
-                    mm = t["modes"]["mode"] == g("mode")
-                    t["modes"].loc[mm, "cost_per_tonne_km"] *= f
-                    t["modes"].loc[mm, "fixed_cost_per_unit"] *= f
-                    ex = t["lanes"]
-                    em = (ex["mode"] == g("mode")) & ex["cost_per_unit"].notna()
-                    ex.loc[em, "cost_per_unit"] = ex.loc[em, "cost_per_unit"] * f
-            elif target == "supplier_price":
-                sp = t["suppliers"]
-                mask = sp["supplier"] == g("supplier")
-                if g("product"):
-                    mask &= sp["product"] == g("product")
-                if not mask.any():
-                    err.append(
-                        f"no supplier offer for '{g('supplier')}'" + (f" / '{g('product')}'" if g("product") else "")
-                    )
-                elif f is not None:
-                    sp.loc[mask, "unit_cost"] *= f
-            elif target in ("dc_fixed_cost", "handling_cost"):
-                col = "fixed_cost" if target == "dc_fixed_cost" else "handling_cost"
-                mask = (t["dcs"]["dc"] == g("dc")) if g("dc") else pd.Series(True, index=t["dcs"].index)
-                if g("dc") and sites.get(g("dc")) != "dc":
-                    err.append(f"'{g('dc')}' is not a DC")
-                elif f is not None:
-                    t["dcs"].loc[mask, col] *= f
-                    if target == "dc_fixed_cost" and len(t["dc_sizes"]):
-                        sm = (t["dc_sizes"]["dc"] == g("dc")) if g("dc") else slice(None)
-                        t["dc_sizes"].loc[sm, "fixed_cost"] *= f
-            elif target == "production_cost":
-                pl = t["plants"]
-                mask = pd.Series(True, index=pl.index)
-                if g("plant"):
-                    mask &= pl["plant"] == g("plant")
-                if g("product"):
-                    mask &= pl["product"] == g("product")
-                if not mask.any():
-                    err.append("no plant row matches")
-                elif f is not None:
-                    pl.loc[mask, "unit_cost"] *= f
-            else:
-                err.append(
-                    f"target must be mode_rate, supplier_price, dc_fixed_cost, production_cost or handling_cost, not '{target}'"
-                )
-        elif kind == "set_capacity":
-            site = g("site")
-            k = sites.get(site)
-            table, col = {"supplier": ("suppliers", "supplier"), "plant": ("plants", "plant"), "dc": ("dcs", "dc")}.get(
-                k, (None, None)
+        kind = CHANGE_KINDS.get(str(ch.get("kind", "")))
+        ed.errors = []
+        if kind is None:
+            ed.errors.append(f"unknown kind '{ch.get('kind')}' (one of: {', '.join(CHANGE_KINDS)})")
+        else:
+            kind.edit_case(ed, ch)
+            ed.lanes_changed |= kind.edits_lanes
+        for e in ed.errors:
+            problems.append(
+                Problem("scenarios.toml", None, None, f"scenario '{sc.name}', change {i} ({ch.get('kind')}): {e}")
             )
-            if table is None:
-                err.append(f"'{site}' is not a supplier, plant or DC")
-            else:
-                df = t[table]
-                mask = df[col] == site
-                if g("product") and table != "dcs":
-                    mask &= df["product"] == g("product")
-                if not mask.any():
-                    err.append("no row matches")
-                if "capacity" in ch:
-                    v = _num(ch.get("capacity"), "capacity", err)
-                    if not err:
-                        df.loc[mask, "capacity"] = v
-                elif "factor" in ch:
-                    v = _num(ch.get("factor"), "factor", err)
-                    if not err:
-                        df.loc[mask, "capacity"] = df.loc[mask, "capacity"] * v
-                else:
-                    err.append("give capacity or factor")
-        for e in err:
-            problems.append(Problem("scenarios.toml", None, None, f"scenario '{sc.name}', change {i} ({kind}): {e}"))
     if problems:
         raise CaseError(problems)
-    typed, typed_settings, probs = validate_and_coerce(t, s, reachability=False)
+    typed, typed_settings, probs = validate_and_coerce(c.tables, c.settings, reachability=False)
     errors = [p for p in probs if p.severity == "error"]
     if errors:
         raise CaseError([Problem(p.table, p.row, p.column, f"after scenario '{sc.name}': {p.message}") for p in errors])
-    return Case(c.name, typed, typed_settings, c.path, c.scenarios, c.warnings)
+    lanes = None if ed.lanes_changed else case.generated_lanes
+    return Case(c.name, typed, typed_settings, c.path, c.scenarios, c.warnings, lanes)
+
+
+def held_decisions(base: Result, sc_case: Case) -> dict[str, str | bool]:
+    """The base's DC decisions as a hold of ``sc_case``: DCs the scenario forces closed (or takes
+    out) are closed, DCs the base does not know (added by the scenario) stay closed."""
+    hold = base.held_openings()
+    forced = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
+    for d in sc_case.tables["dcs"]["dc"]:
+        if forced.get(d, "") == "closed" or d not in hold:
+            hold[d] = False
+    return hold
 
 
 def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
@@ -446,228 +218,6 @@ def all_changes(scenarios: list[Scenario], name: str) -> list[dict]:
     return [c for sc in reversed(chain) for c in sc.changes]
 
 
-# ---------------------------------------------------------------------------------- warm hold
-
-
-class HeldNetwork:
-    """The base network with its DC decisions held, kept in HiGHS for warm LP re-solves.
-
-    Lost demand is always allowed here (at the penalty), so a disruption is reported
-    as lost units rather than as an infeasible run.
-    """
-
-    BIG_M_FACTOR = 20.0
-    WARM_KINDS = {"close_lane", "site_out", "scale_demand", "cap_lane", "set_capacity", "force_dc"}
-
-    def __init__(self, case: Case, base=None, *, held: dict | None = None, lanes: pd.DataFrame | None = None):
-        """Hold ``base``'s DC decisions (a Result), or ``held`` (dc → size/True/False) with ``lanes``."""
-        self.case = case
-        settings = copy.deepcopy(case.settings)
-        settings["policy"]["allow_unmet_demand"] = True
-        self.case_unmet = Case(case.name, case.tables, settings, case.path)
-        if base is not None:
-            held = base.held_openings()
-            lanes = base.lanes if lanes is None else lanes
-        if held is None:
-            raise ValueError("HeldNetwork needs a base result or the held DC decisions")
-        self.lanes = case_lanes(case) if lanes is None else lanes
-        # Safety stock is priced on one line per curve at the base throughput (not the curve's
-        # binaries), so the held model stays a linear program; see safety_stock.held_lines.
-        model_settings = copy.deepcopy(settings)
-        ss_on = bool(settings["inventory"]["safety_stock"])
-        model_settings["inventory"]["safety_stock"] = False
-        self.net = build_network(Case(case.name, case.tables, model_settings, case.path), self.lanes)
-        self.ss_lines = pd.DataFrame()
-        if ss_on:
-            if base is None or not base.has_solution:
-                raise ValueError("HeldNetwork with safety stock needs the base result (its throughput per DC)")
-            self.ss_lines = held_lines(self.net, base.tables["flows"])
-        self.held = dict(held)
-        fixed = _fixed_options(self.net, self.held)
-        self.fixed = fixed
-        t0 = time.perf_counter()
-        # Openings are fixed, so the strong linking rows are redundant ("plain"), and a generous
-        # big M for unlimited DC capacity lets demand be scaled by bound changes alone.
-        self.builder = build_model(
-            self.net,
-            formulation="plain",
-            fixed_open=fixed,
-            big_m_factor=self.BIG_M_FACTOR,
-            extra=lambda b: add_held_lines(b, self.ss_lines),
-        )
-        self.hm = compile_model(self.builder)
-        self.is_lp = set(self.builder.vars) <= {"flow", "make", "unmet", "open"}
-        # With openings fixed and no other binaries the model is an LP: solve it once, cold,
-        # so every later re-solve starts from this basis.
-        if self.is_lp:
-            self.hm.relax_integrality()
-        else:
-            prepare_solve(
-                self.hm,
-                time_limit=float(case.settings["solver"]["time_limit_s"]),
-                mip_gap=float(case.settings["solver"]["mip_gap"]),
-            )  # safety-stock binaries only
-        self.build_seconds = time.perf_counter() - t0
-        info = self.hm.solve(
-            time_limit=float(case.settings["solver"]["time_limit_s"]), mip_gap=float(case.settings["solver"]["mip_gap"])
-        )
-        self.base_info = info
-        lp = self.hm.highs.getLp()
-        self.col_lo = np.array(lp.col_lower_, dtype=float)
-        self.col_hi = np.array(lp.col_upper_, dtype=float)
-        self.row_lo = np.array(lp.row_lower_, dtype=float)
-        self.row_hi = np.array(lp.row_upper_, dtype=float)
-        self._rows: dict[str, np.ndarray] = {}
-
-    def rows_of(self, name: str) -> np.ndarray:
-        """HiGHS row of each label row of constraint family ``name`` (−1 when skipped)."""
-        if name not in self._rows:
-            comp = getattr(self.builder.model, name, None)
-            n = len(self.builder.row_labels.get(name, []))
-            r = -np.ones(n, dtype=np.int64)
-            if comp is not None:
-                for k in range(n):
-                    if k in comp:
-                        r[k] = self.hm.row(comp[k])
-            self._rows[name] = r
-        return self._rows[name]
-
-    def bound_changes(self, sc_case: Case, changes: list[dict]):
-        """Column and row bound changes that express ``changes`` on the held model, or None."""
-        if not self.is_lp or any(c.get("kind") not in self.WARM_KINDS for c in changes):
-            return None
-        net = self.net
-        arcs = net.arcs
-        cols: dict[int, tuple[float, float]] = {}
-        rows: dict[int, tuple[float, float]] = {}
-        col = self.hm.col_of
-
-        def set_col(block, idx, lo, hi):
-            for i in np.atleast_1d(idx):
-                c = int(col[block][i])
-                if c >= 0:
-                    cols[c] = (lo, hi)
-
-        for ch in changes:
-            kind = ch["kind"]
-            g = lambda k: str(ch.get(k, "")).strip()  # noqa: E731
-            if kind == "close_lane":
-                m = (arcs["origin"] == g("origin")) & (arcs["destination"] == g("destination"))
-                if g("mode"):
-                    m &= arcs["mode"] == g("mode")
-                if g("product"):
-                    m &= arcs["product"] == g("product")
-                set_col("flow", np.flatnonzero(m.to_numpy()), 0.0, 0.0)
-            elif kind == "site_out":
-                site = g("site")
-                set_col("flow", np.flatnonzero((arcs["origin"] == site).to_numpy()), 0.0, 0.0)
-                set_col("make", np.flatnonzero((net.make["plant"] == site).to_numpy()), 0.0, 0.0)
-                set_col("open", np.flatnonzero((net.options["dc"] == site).to_numpy()), 0.0, 0.0)
-            elif kind == "force_dc":
-                if g("to") == "closed":
-                    set_col("open", np.flatnonzero((net.options["dc"] == g("dc")).to_numpy()), 0.0, 0.0)
-                else:
-                    return None
-            elif kind == "scale_demand":
-                dem_new = sc_case.tables["demand"].set_index(["customer", "product"])["quantity"]
-                if dem_new.sum() > self.builder.dc_big_m / 2:
-                    return None
-                q = dem_new.reindex(pd.MultiIndex.from_frame(net.demand[["customer", "product"]])).to_numpy(float)
-                r = self.rows_of("demand_met")
-                for k in np.flatnonzero(np.abs(q - net.demand["quantity"].to_numpy(float)) > 0):
-                    if r[k] >= 0:
-                        rows[int(r[k])] = (q[k], q[k])
-                    set_col("unmet", k, 0.0, q[k])
-            elif kind == "cap_lane":
-                m = (arcs["origin"] == g("origin")) & (arcs["destination"] == g("destination"))
-                if g("mode"):
-                    m &= arcs["mode"] == g("mode")
-                idx = np.flatnonzero(m.to_numpy())
-                cap = float(ch["capacity"])
-                by_mode = arcs.iloc[idx].groupby("mode").size()
-                if (by_mode <= 1).all():
-                    set_col("flow", idx, 0.0, cap)
-                else:
-                    return None
-            elif kind == "set_capacity":
-                site = g("site")
-                if (net.make["plant"] == site).any():
-                    pm = net.make["plant"] == site
-                    if g("product"):
-                        pm &= net.make["product"] == g("product")
-                    newcap = sc_case.tables["plants"].set_index(["plant", "product"])["capacity"]
-                    for k in np.flatnonzero(pm.to_numpy()):
-                        v = float(newcap.loc[(site, net.make["product"].iloc[k])])
-                        set_col("make", k, 0.0, v)
-                else:
-                    return None
-        return cols, rows
-
-    def solve(self, sc_case: Case, changes: list[dict], name: str = ""):
-        """Warm re-solve of ``sc_case`` if its changes are bound changes, else None."""
-        plan = self.bound_changes(sc_case, changes)
-        if plan is None:
-            return None
-        cols, rows = plan
-        h = self.hm.highs
-        t0 = time.perf_counter()
-        ci = np.array(sorted(cols), dtype=np.int32)
-        ri = np.array(sorted(rows), dtype=np.int32)
-        if len(ci):
-            h.changeColsBounds(len(ci), ci, np.array([cols[c][0] for c in ci]), np.array([cols[c][1] for c in ci]))
-        if len(ri):
-            h.changeRowsBounds(len(ri), ri, np.array([rows[r][0] for r in ri]), np.array([rows[r][1] for r in ri]))
-        try:
-            info = self.hm.solve()
-            values = self.hm.values() if info.has_solution else None
-        finally:
-            if len(ci):
-                h.changeColsBounds(len(ci), ci, self.col_lo[ci], self.col_hi[ci])
-            if len(ri):
-                h.changeRowsBounds(len(ri), ri, self.row_lo[ri], self.row_hi[ri])
-        seconds = time.perf_counter() - t0
-        res = Result(
-            case_name=name,
-            status=info.status,
-            objective=info.objective,
-            bound=info.bound,
-            gap=info.gap,
-            timings={"highs": info.solver_seconds, "total": seconds},
-            message=info.message + " (warm re-solve)",
-        )
-        if values is None:
-            return res
-        net_view = copy.copy(self.net)
-        dem = self.net.demand.copy()
-        q = sc_case.tables["demand"].set_index(["customer", "product"])["quantity"]
-        dem["quantity"] = q.reindex(pd.MultiIndex.from_frame(dem[["customer", "product"]])).fillna(0.0).to_numpy(float)
-        net_view.demand = dem
-        cost = self.builder.component_values(values)
-        cost = {k: float(cost.get(k, 0.0)) for k in COST_COMPONENTS}
-        res.tables = build_tables(net_view, values, cost)
-
-        lanes = case_lanes(sc_case)
-        held = dict(self.held)
-        for ch in changes:
-            if ch["kind"] == "site_out" and ch.get("site") in held:
-                held[ch["site"]] = False
-            if ch["kind"] == "force_dc" and ch.get("to") == "closed":
-                held[ch["dc"]] = False
-        sc_unmet = Case(sc_case.name, sc_case.tables, copy.deepcopy(sc_case.settings), sc_case.path)
-        sc_unmet.settings["policy"]["allow_unmet_demand"] = True
-
-        res.verification = verify(
-            sc_unmet,
-            lanes,
-            res.tables,
-            info.objective,
-            fixed_open={d: bool(v) for d, v in held.items()},
-            extra_cost={"safety_stock": held_lines_cost(self.ss_lines, res.tables)},
-        )
-        res.lanes = lanes
-        return res
-
-
 # ---------------------------------------------------------------------------------- running
 
 
@@ -682,7 +232,7 @@ class ScenarioRun:
     frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)  # scenario → cost–CO2 frontier table
 
 
-def _solve_or_lose(case: Case, **kw):
+def solve_or_lose(case: Case, **kw):
     """Solve; if infeasible, solve again with lost demand allowed at the penalty."""
     r = solve(case, diagnose=False, **kw)
     if r.has_solution or r.status not in ("infeasible", "unbounded"):
@@ -762,25 +312,16 @@ def run_scenarios(
             lost_allowed = False
             if how == "hold":
                 r = None
-                method = "rebuilt"
                 if warm and base.has_solution:
                     if held is None:
                         held = HeldNetwork(case, base)
-                    r = held.solve(sc_case, all_changes(scenarios, s.name), name=label)
+                    r = resolve_held(held, sc_case, all_changes(scenarios, s.name), name=label)
                     method = "warm LP"
                 if r is None:
-                    hold = base.held_openings()
-                    for ch in all_changes(scenarios, s.name):
-                        if ch.get("kind") == "site_out" and ch.get("site") in hold:
-                            hold[ch["site"]] = False
-                        if ch.get("kind") == "force_dc" and ch.get("dc") in hold and ch.get("to") == "closed":
-                            hold[ch["dc"]] = False
-                    for d in set(sc_case.tables["dcs"]["dc"]) - set(hold):
-                        hold[d] = False
-                    r, lost_allowed = _solve_or_lose(sc_case, hold=hold)
+                    r, lost_allowed = solve_or_lose(sc_case, hold=held_decisions(base, sc_case))
                     method = "rebuilt"
             else:
-                r, lost_allowed = _solve_or_lose(sc_case)
+                r, lost_allowed = solve_or_lose(sc_case)
                 method = "mip"
             sec = time.perf_counter() - t1
             run.results[label] = r
@@ -795,54 +336,3 @@ def run_scenarios(
             say("frontier_done", {"name": s.name, "points": s.frontier_points, "seconds": time.perf_counter() - t1})
     run.comparison = pd.DataFrame(rows)
     return run
-
-
-def comparison_row(
-    name: str,
-    based_on: str,
-    how: str,
-    r,
-    base,
-    method: str,
-    seconds: float,
-    description: str,
-    lost_allowed: bool = False,
-) -> dict:
-    """One row of the comparison table (money in currency/yr)."""
-    row = {
-        "scenario": name,
-        "description": description,
-        "based_on": based_on,
-        "resolve": how,
-        "status": r.status,
-        "gap": r.gap,
-    }
-    if not r.has_solution:
-        row.update({"total_cost": np.nan, "verified": False, "method": method, "seconds": seconds})
-        return row
-    cost = r.cost
-    total = float(sum(cost.values()))
-    btotal = float(sum(base.cost.values())) if base.has_solution else np.nan
-    row["total_cost"] = total
-    row["delta_cost"] = total - btotal
-    row["delta_pct"] = (total - btotal) / btotal if btotal else np.nan
-    for k, v in cost.items():
-        row[f"cost_{k}"] = v
-    d = r.tables["dcs"]
-    row["dcs_open"] = int(d["open"].sum())
-    row["dcs_open_names"] = " ".join(d.loc[d["open"], "dc"])
-    k = dict(zip(r.tables["kpis"]["kpi"], r.tables["kpis"]["value"]))
-    row["share_within_window"] = k.get("share_within_service_window")
-    row["avg_transit_days"] = k.get("avg_transit_days_to_customer")
-    ss = r.tables["supplier_shares"]
-    row["max_supplier_share"] = float(ss["share"].max()) if len(ss) else np.nan
-    mm = r.tables["mode_mix"]
-    row["mode_mix"] = " / ".join(f"{m} {s:.0%}" for m, s in zip(mm["mode"], mm["share_of_tonne_km"]) if s >= 0.005)
-    un = r.tables["unmet"]
-    row["lost_units"] = float(un["lost_units"].sum()) if len(un) else 0.0
-    row["lost_value"] = float(un["value"].sum()) if len(un) else 0.0
-    row["co2e_tonnes"] = k.get("co2e_tonnes")
-    row["verified"] = bool(r.verification.passed) if r.verification else False
-    row["method"] = method + (" (lost demand allowed)" if lost_allowed else "")
-    row["seconds"] = seconds
-    return row

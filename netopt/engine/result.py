@@ -1,0 +1,100 @@
+"""A solve's outcome: :class:`Result` (status, objective, tables, verification, timings).
+
+Money in the case currency per year; times in seconds.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from netopt.engine.highs import HighsModel
+from netopt.engine.verify import Verification
+from netopt.network.arcs import Network
+
+
+@dataclass
+class Result:
+    """Outcome of one solve. Money in the case currency per year; times in seconds."""
+
+    case_name: str
+    status: str  # optimal | time_limit | infeasible | error | …
+    objective: float
+    bound: float
+    gap: float
+    tables: dict[str, pd.DataFrame] = field(default_factory=dict)
+    verification: Verification | None = None
+    diagnosis: pd.DataFrame | None = None
+    timings: dict[str, float] = field(default_factory=dict)
+    model_size: dict[str, int] = field(default_factory=dict)
+    message: str = ""
+    network: Network | None = None
+    highs_model: HighsModel | None = None
+    lanes: pd.DataFrame | None = None
+
+    def __getattr__(self, item):
+        tables = self.__dict__.get("tables", {})
+        if item in tables:
+            return tables[item]
+        raise AttributeError(item)
+
+    @property
+    def has_solution(self) -> bool:
+        return bool(self.tables)
+
+    @property
+    def cost(self) -> dict[str, float]:
+        if "cost" not in self.tables:
+            return {}
+        return dict(zip(self.tables["cost"]["component"], self.tables["cost"]["amount"]))
+
+    def held_openings(self) -> dict[str, str | bool]:
+        """DC decisions of this solution, to hold the network in a re-solve: dc → size name, True (open, no size options) or False."""
+        d = self.tables["dcs"]
+        return {dc: ((size or True) if o else False) for dc, o, size in zip(d["dc"], d["open"], d["size"])}
+
+    def summary(self) -> dict:
+        """JSON-ready summary: status, objective, bound, gap, cost breakdown, verification."""
+        v = self.verification
+        out = {
+            "case": self.case_name,
+            "status": self.status,
+            "objective": _num(self.objective),
+            "bound": _num(self.bound),
+            "gap": _num(self.gap),
+            "cost": {k: _num(x) for k, x in self.cost.items()},
+            "verified": bool(v.passed) if v else False,
+            "largest_violation": _num(v.largest_violation) if v else None,
+            "largest_violation_rule": v.largest_violation_rule if v else None,
+            "recomputed_objective": _num(v.recomputed_objective) if v else None,
+            "timings_s": {k: round(x, 4) for k, x in self.timings.items()},
+            "model_size": self.model_size,
+            "message": self.message,
+        }
+        if "kpis" in self.tables:
+            out["kpis"] = {k: _num(x) for k, x in zip(self.tables["kpis"]["kpi"], self.tables["kpis"]["value"])}
+        return out
+
+
+def _num(x):
+    if x is None:
+        return None
+    x = float(x)
+    return None if np.isnan(x) or np.isinf(x) else x
+
+
+def fixed_options(net: Network, held: dict[str, str | bool] | None) -> np.ndarray | None:
+    """0/1 per opening option from ``dc → size/True/False`` (DCs not named: closed)."""
+    if held is None:
+        return None
+    o = net.options
+    val = np.zeros(len(o))
+    for k, (dc, size) in enumerate(zip(o["dc"], o["size"])):
+        h = held.get(dc, False)
+        if h is True:
+            val[k] = 1.0 if (o["dc"] == dc).sum() == 1 or size == o.loc[o["dc"] == dc, "size"].iloc[0] else 0.0
+        elif h:
+            val[k] = 1.0 if size == h else 0.0
+    return val

@@ -1,0 +1,515 @@
+"""The scenario change vocabulary: each change kind once, with both of its meanings.
+
+A change (one ``[[scenario.change]]`` table: ``kind`` plus its fields) means two things:
+
+- ``edit_case``: how it edits a copy of the case's tables and settings, for a solve from
+  scratch (redesign, or a hold rebuilt with the openings fixed);
+- ``held_bounds``: how it edits the bounds of a held network already in HiGHS, for a warm
+  re-solve (None where the change is not a bound change: the hold is then rebuilt).
+
+``netopt run`` (scenarios), ``netopt stress`` (the single-point-of-failure sweep) and the
+frontier all use these objects, so a lane, supplier, plant or DC lost means the same in
+every study.  To add a change kind: write its two functions here and register a
+:class:`ChangeKind` in :data:`CHANGE_KINDS`; the scenario parser, ``netopt check`` and the
+docs read the registry.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from netopt.data.case import Case
+from netopt.data.schema import TABLES
+from netopt.engine.held import BoundPlan, HeldNetwork
+from netopt.engine.result import Result
+from netopt.network.lanes import build_lanes
+
+Change = dict  # one change: {"kind": ..., field: value, ...}
+
+
+@dataclass
+class CaseEdit:
+    """A case copy being edited by a scenario's changes, with the look-ups every kind needs."""
+
+    case: Case
+    sites: dict[str, str]  # site code → supplier | plant | dc | customer
+    modes: set[str]
+    lanes_changed: bool = False  # a change edited what the lane table is built from
+    errors: list[str] = field(default_factory=list)
+
+    @property
+    def tables(self) -> dict[str, pd.DataFrame]:
+        return self.case.tables
+
+    def text(self, ch: Change, key: str) -> str:
+        return str(ch.get(key, "")).strip()
+
+    def number(self, ch: Change, key: str, minimum: float = 0.0) -> float | None:
+        """Field ``key`` as a number ≥ ``minimum``, or None with an error recorded."""
+        value = ch.get(key)
+        try:
+            v = float(value)  # type: ignore[arg-type]
+        except (TypeError, ValueError, OverflowError):
+            self.errors.append(f"{key} must be a number, not {value!r}")
+            return None
+        if np.isnan(v) or v < minimum:
+            self.errors.append(f"{key} must be ≥ {minimum:g}, not {value!r}")
+            return None
+        return v
+
+
+@dataclass(frozen=True)
+class ChangeKind:
+    """One change kind: its fields (for help and checks) and its two meanings."""
+
+    name: str
+    help: str
+    edit_case: Callable[[CaseEdit, Change], None]
+    held_bounds: Callable[[HeldNetwork, Change, Case], BoundPlan | None] | None = None
+    edits_lanes: bool = False  # the lane table must be rebuilt after this change
+
+
+def site_kinds(case: Case) -> dict[str, str]:
+    """Site code → supplier | plant | dc | customer."""
+    t = case.tables
+    out = {}
+    for table, col, kind in (
+        ("suppliers", "supplier", "supplier"),
+        ("plants", "plant", "plant"),
+        ("dcs", "dc", "dc"),
+        ("customers", "customer", "customer"),
+    ):
+        for s in t[table][col].astype(str):
+            out[s] = kind
+    return out
+
+
+def append_row(df: pd.DataFrame, table: str, values: dict) -> pd.DataFrame:
+    """``df`` with one more row of ``table`` (schema defaults for absent columns)."""
+    t = TABLES[table]
+    row = {c.name: values.get(c.name, c.default) for c in t.columns}
+    nxt = (int(df.index.max()) + 1) if len(df) else 2
+    return pd.concat([df, pd.DataFrame([row], index=[nxt])]).astype(
+        {c: df[c].dtype for c in df.columns if c in row}, errors="ignore"
+    )
+
+
+# ---------------------------------------------------------------------------------- sites
+
+
+def _edit_add_dc(ed: CaseEdit, ch: Change) -> None:
+    dc = ed.text(ch, "dc")
+    if not dc:
+        ed.errors.append("dc is required")
+        return
+    if dc in ed.sites:
+        ed.errors.append(f"site '{dc}' already exists")
+        return
+    vals = {k: v for k, v in ch.items() if k != "kind"}
+    vals.setdefault("status", "candidate")
+    bad = set(vals) - set(TABLES["dcs"].column_names)
+    if bad:
+        ed.errors.append(f"unknown dcs column(s): {', '.join(sorted(bad))}")
+    ed.errors.extend(f"{req} is required" for req in ("lat", "lon") if req not in vals)
+    if not ed.errors:
+        ed.tables["dcs"] = append_row(ed.tables["dcs"], "dcs", vals)
+        ed.sites[dc] = "dc"
+
+
+def _edit_force_dc(ed: CaseEdit, ch: Change) -> None:
+    dc, to = ed.text(ch, "dc"), ed.text(ch, "to")
+    if ed.sites.get(dc) != "dc":
+        ed.errors.append(f"'{dc}' is not a DC")
+    if to not in ("open", "closed", "free"):
+        ed.errors.append(f"to must be open, closed or free, not '{to}'")
+    if not ed.errors:
+        d = ed.tables["dcs"]
+        d.loc[d["dc"] == dc, "force"] = "" if to == "free" else to
+
+
+def _held_force_dc(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
+    dc, to = str(ch.get("dc", "")).strip(), str(ch.get("to", "")).strip()
+    plan = BoundPlan()
+    opts = held.option_rows(dc)
+    if to == "closed":
+        plan.set_cols(held.cols("open", opts), 0.0, 0.0)
+        plan.closed_dcs.add(dc)
+        return plan
+    is_open = bool(held.held.get(dc, False))
+    if (to == "open" and is_open) or to == "free":
+        return plan  # the held network already has it so (free: the hold keeps the base's decision)
+    return None  # opening a DC the base kept closed is a new network: rebuild
+
+
+def _edit_site_out(ed: CaseEdit, ch: Change) -> None:
+    site = ed.text(ch, "site")
+    kind = ed.sites.get(site)
+    t = ed.tables
+    if kind == "supplier":
+        t["suppliers"].loc[t["suppliers"]["supplier"] == site, "capacity"] = 0.0
+    elif kind == "plant":
+        t["plants"].loc[t["plants"]["plant"] == site, "capacity"] = 0.0
+    elif kind == "dc":
+        t["dcs"].loc[t["dcs"]["dc"] == site, "force"] = "closed"
+    elif kind == "customer":
+        ed.errors.append(f"'{site}' is a customer: use scale_demand with factor 0 to drop its demand")
+    else:
+        ed.errors.append(f"unknown site '{site}'")
+
+
+def _held_site_out(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan:
+    """Flows leaving the site, its production and its DC opening fixed at 0."""
+    site = str(ch.get("site", "")).strip()
+    plan = BoundPlan()
+    plan.set_cols(held.cols("flow", held.arcs_from(site)), 0.0, 0.0)
+    plan.set_cols(held.cols("make", held.make_rows(site)), 0.0, 0.0)
+    opts = held.option_rows(site)
+    if len(opts):
+        plan.set_cols(held.cols("open", opts), 0.0, 0.0)
+        plan.closed_dcs.add(site)
+    return plan
+
+
+# ---------------------------------------------------------------------------------- lanes
+
+
+def _lane_target(ed: CaseEdit, ch: Change) -> tuple[str, str, str, str, pd.DataFrame | None]:
+    o, d, m, p = (ed.text(ch, k) for k in ("origin", "destination", "mode", "product"))
+    if o not in ed.sites:
+        ed.errors.append(f"unknown origin site '{o}'")
+    if d not in ed.sites:
+        ed.errors.append(f"unknown destination site '{d}'")
+    if m and m not in ed.modes:
+        ed.errors.append(f"unknown mode '{m}'")
+    if ed.errors:
+        return o, d, m, p, None
+    lanes = ed.case.generated_lanes
+    if lanes is None or ed.lanes_changed:
+        from_case = Case(ed.case.name, ed.tables, ed.case.settings, ed.case.path)
+        lanes = build_lanes(from_case)
+    hit = lanes[(lanes["origin"] == o) & (lanes["destination"] == d) & ((lanes["mode"] == m) if m else True)]
+    if hit.empty:
+        ed.errors.append(f"there is no lane {o} → {d}" + (f" by {m}" if m else ""))
+        return o, d, m, p, None
+    return o, d, m, p, hit
+
+
+def _edit_close_lane(ed: CaseEdit, ch: Change) -> None:
+    o, d, _, p, hit = _lane_target(ed, ch)
+    if hit is None:
+        return
+    ex = ed.tables["lanes"]
+    for mode in sorted(set(hit["mode"])):
+        mask = (ex["origin"] == o) & (ex["destination"] == d) & (ex["mode"] == mode) & (ex["product"] == p)
+        if mask.any():
+            ex.loc[mask, "available"] = False
+        else:
+            ex = append_row(
+                ex, "lanes", {"origin": o, "destination": d, "mode": mode, "product": p, "available": False}
+            )
+    ed.tables["lanes"] = ex
+
+
+def _held_close_lane(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan:
+    """Flows on the lane (one mode or all, one product or all) fixed at 0."""
+    g = {k: str(ch.get(k, "")).strip() for k in ("origin", "destination", "mode", "product")}
+    plan = BoundPlan()
+    plan.set_cols(held.cols("flow", held.arcs_on(g["origin"], g["destination"], g["mode"], g["product"])), 0.0, 0.0)
+    return plan
+
+
+def _edit_cap_lane(ed: CaseEdit, ch: Change) -> None:
+    cap = ed.number(ch, "capacity")
+    o, d, _, p, hit = _lane_target(ed, ch)
+    if hit is None or cap is None:
+        return
+    ex = ed.tables["lanes"]
+    for mode in sorted(set(hit["mode"])):
+        mask = (ex["origin"] == o) & (ex["destination"] == d) & (ex["mode"] == mode) & (ex["product"] == p)
+        if mask.any():
+            ex.loc[mask, "capacity"] = cap
+        else:
+            row = hit[hit["mode"] == mode].iloc[0]
+            ex = append_row(
+                ex,
+                "lanes",
+                {
+                    "origin": o,
+                    "destination": d,
+                    "mode": mode,
+                    "product": p,
+                    "distance_km": row["distance_km"],
+                    "transit_days": row["transit_days"],
+                    "cost_per_unit": row["cost_per_unit"],
+                    "capacity": cap,
+                },
+            )
+    ed.tables["lanes"] = ex
+
+
+def _held_cap_lane(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
+    """A lane mode carrying one product: the cap is that arc's upper bound (several products share a row)."""
+    g = {k: str(ch.get(k, "")).strip() for k in ("origin", "destination", "mode")}
+    idx = held.arcs_on(g["origin"], g["destination"], g["mode"])
+    modes = held.net.arcs["mode"].to_numpy()[idx]
+    if len(idx) and (pd.Series(modes).value_counts() > 1).any():
+        return None
+    plan = BoundPlan()
+    plan.set_cols(held.cols("flow", idx), 0.0, float(ch["capacity"]))
+    return plan
+
+
+# ---------------------------------------------------------------------------------- settings
+
+
+def _edit_settings(ed: CaseEdit, ch: Change, section: str) -> None:
+    s = ed.case.settings
+    if section not in s:
+        ed.errors.append(f"unknown settings section '{section}'")
+        return
+    for key, v in ch.items():
+        if key in ("kind", "section"):
+            continue
+        if key not in s[section]:
+            ed.errors.append(f"unknown setting [{section}] {key}")
+        else:
+            s[section][key] = v
+
+
+def _edit_policy(ed: CaseEdit, ch: Change) -> None:
+    _edit_settings(ed, ch, "policy")
+
+
+def _edit_setting(ed: CaseEdit, ch: Change) -> None:
+    _edit_settings(ed, ch, ed.text(ch, "section"))
+    if ed.text(ch, "section") == "lanes":
+        ed.lanes_changed = True
+
+
+# ---------------------------------------------------------------------------------- demand
+
+
+def _edit_scale_demand(ed: CaseEdit, ch: Change) -> None:
+    f = ed.number(ch, "factor")
+    t = ed.tables
+    dem = t["demand"]
+    mask = pd.Series(True, index=dem.index)
+    if ed.text(ch, "region"):
+        if ed.text(ch, "region") not in set(t["customers"]["region"].astype(str)):
+            ed.errors.append(f"unknown region '{ed.text(ch, 'region')}'")
+        cust = t["customers"].loc[t["customers"]["region"] == ed.text(ch, "region"), "customer"]
+        mask &= dem["customer"].isin(cust)
+    if ed.text(ch, "customer"):
+        if ed.sites.get(ed.text(ch, "customer")) != "customer":
+            ed.errors.append(f"unknown customer '{ed.text(ch, 'customer')}'")
+        mask &= dem["customer"] == ed.text(ch, "customer")
+    if ed.text(ch, "product"):
+        if ed.text(ch, "product") not in set(t["products"]["product"]):
+            ed.errors.append(f"unknown product '{ed.text(ch, 'product')}'")
+        mask &= dem["product"] == ed.text(ch, "product")
+    if not ed.errors and f is not None:
+        dem.loc[mask, "quantity"] = dem.loc[mask, "quantity"] * f
+
+
+def _held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
+    """Demand rows set to the scenario's quantities; lost demand bounded by them."""
+    net = held.net
+    q_new = sc_case.tables["demand"].set_index(["customer", "product"])["quantity"]
+    if q_new.sum() > held.builder.dc_big_m / 2:
+        return None  # beyond the big M standing in for unlimited DC capacity
+    q = q_new.reindex(pd.MultiIndex.from_frame(net.demand[["customer", "product"]])).fillna(0.0).to_numpy(float)
+    plan = BoundPlan()
+    rows = held.rows_of("demand_met")
+    for k in np.flatnonzero(np.abs(q - net.demand["quantity"].to_numpy(float)) > 0):
+        if rows[k] >= 0:
+            plan.rows[int(rows[k])] = (q[k], q[k])
+        plan.set_cols(held.cols("unmet", np.array([k])), 0.0, q[k])
+    return plan
+
+
+# ---------------------------------------------------------------------------------- costs and capacities
+
+COST_TARGETS = ("mode_rate", "supplier_price", "dc_fixed_cost", "production_cost", "handling_cost")
+
+
+def _edit_scale_cost(ed: CaseEdit, ch: Change) -> None:
+    f = ed.number(ch, "factor")
+    t = ed.tables
+    target = ed.text(ch, "target")
+    if target == "mode_rate":
+        mode = ed.text(ch, "mode")
+        if mode not in ed.modes:
+            ed.errors.append(f"unknown mode '{mode}'")
+        elif f is not None:
+            mm = t["modes"]["mode"] == mode
+            t["modes"].loc[mm, "cost_per_tonne_km"] *= f
+            t["modes"].loc[mm, "fixed_cost_per_unit"] *= f
+            ex = t["lanes"]
+            em = (ex["mode"] == mode) & ex["cost_per_unit"].notna()
+            ex.loc[em, "cost_per_unit"] = ex.loc[em, "cost_per_unit"] * f
+            ed.lanes_changed = True
+    elif target == "supplier_price":
+        sp = t["suppliers"]
+        mask = sp["supplier"] == ed.text(ch, "supplier")
+        if ed.text(ch, "product"):
+            mask &= sp["product"] == ed.text(ch, "product")
+        if not mask.any():
+            what = f"'{ed.text(ch, 'supplier')}'" + (f" / '{ed.text(ch, 'product')}'" if ed.text(ch, "product") else "")
+            ed.errors.append(f"no supplier offer for {what}")
+        elif f is not None:
+            sp.loc[mask, "unit_cost"] *= f
+    elif target in ("dc_fixed_cost", "handling_cost"):
+        col = "fixed_cost" if target == "dc_fixed_cost" else "handling_cost"
+        dc = ed.text(ch, "dc")
+        mask = (t["dcs"]["dc"] == dc) if dc else pd.Series(True, index=t["dcs"].index)
+        if dc and ed.sites.get(dc) != "dc":
+            ed.errors.append(f"'{dc}' is not a DC")
+        elif f is not None:
+            t["dcs"].loc[mask, col] *= f
+            if target == "dc_fixed_cost" and len(t["dc_sizes"]):
+                sm = (t["dc_sizes"]["dc"] == dc) if dc else slice(None)
+                t["dc_sizes"].loc[sm, "fixed_cost"] *= f
+    elif target == "production_cost":
+        pl = t["plants"]
+        mask = pd.Series(True, index=pl.index)
+        if ed.text(ch, "plant"):
+            mask &= pl["plant"] == ed.text(ch, "plant")
+        if ed.text(ch, "product"):
+            mask &= pl["product"] == ed.text(ch, "product")
+        if not mask.any():
+            ed.errors.append("no plant row matches")
+        elif f is not None:
+            pl.loc[mask, "unit_cost"] *= f
+    else:
+        ed.errors.append(f"target must be {', '.join(COST_TARGETS)}, not '{target}'")
+
+
+def _capacity_rows(ed: CaseEdit, ch: Change) -> tuple[pd.DataFrame | None, pd.Series | None]:
+    site = ed.text(ch, "site")
+    table, col = {"supplier": ("suppliers", "supplier"), "plant": ("plants", "plant"), "dc": ("dcs", "dc")}.get(
+        ed.sites.get(site, ""), ("", "")
+    )
+    if not table:
+        ed.errors.append(f"'{site}' is not a supplier, plant or DC")
+        return None, None
+    df = ed.tables[table]
+    mask = df[col] == site
+    if ed.text(ch, "product") and table != "dcs":
+        mask &= df["product"] == ed.text(ch, "product")
+    if not mask.any():
+        ed.errors.append("no row matches")
+    return df, mask
+
+
+def _edit_set_capacity(ed: CaseEdit, ch: Change) -> None:
+    df, mask = _capacity_rows(ed, ch)
+    if "capacity" in ch:
+        v = ed.number(ch, "capacity")
+        if df is not None and not ed.errors:
+            df.loc[mask, "capacity"] = v
+    elif "factor" in ch:
+        v = ed.number(ch, "factor")
+        if df is not None and not ed.errors:
+            df.loc[mask, "capacity"] = df.loc[mask, "capacity"] * v
+    else:
+        ed.errors.append("give capacity or factor")
+
+
+def _held_set_capacity(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
+    """A plant's capacity is its production bounds; supplier and DC capacities are rows (rebuild)."""
+    site, product = str(ch.get("site", "")).strip(), str(ch.get("product", "")).strip()
+    rows = held.make_rows(site, product)
+    if not len(rows):
+        return None
+    cap = sc_case.tables["plants"].set_index(["plant", "product"])["capacity"]
+    plan = BoundPlan()
+    for k in rows.tolist():
+        plan.set_cols(held.cols("make", np.array([k])), 0.0, float(cap.loc[(site, held.net.make["product"].iloc[k])]))
+    return plan
+
+
+# ---------------------------------------------------------------------------------- the registry
+
+CHANGE_KINDS: dict[str, ChangeKind] = {
+    k.name: k
+    for k in (
+        ChangeKind(
+            "add_dc",
+            "Add a candidate DC: dc, lat, lon and any dcs column (fixed_cost, capacity, handling_cost, …)",
+            _edit_add_dc,
+            edits_lanes=True,
+        ),
+        ChangeKind("force_dc", "Force a DC's decision: dc, to = open | closed | free", _edit_force_dc, _held_force_dc),
+        ChangeKind(
+            "close_lane",
+            "Remove a lane: origin, destination, mode (blank = every mode), product (blank = all)",
+            _edit_close_lane,
+            _held_close_lane,
+            edits_lanes=True,
+        ),
+        ChangeKind(
+            "cap_lane",
+            "Cap a lane: origin, destination, mode (blank = every mode), capacity (units/yr)",
+            _edit_cap_lane,
+            _held_cap_lane,
+            edits_lanes=True,
+        ),
+        ChangeKind("site_out", "Take a supplier, plant or DC out for the year: site", _edit_site_out, _held_site_out),
+        ChangeKind(
+            "policy",
+            "Change policy settings: any [policy] name = value (e.g. max_supplier_share = 0.6)",
+            _edit_policy,
+        ),
+        ChangeKind("setting", "Change any setting: section, then name = value", _edit_setting),
+        ChangeKind(
+            "scale_demand",
+            "Scale demand: factor; optional region, customer, product filters",
+            _edit_scale_demand,
+            _held_scale_demand,
+        ),
+        ChangeKind(
+            "scale_cost",
+            "Scale a cost: factor and target = mode_rate (mode) | supplier_price (supplier, product) | "
+            "dc_fixed_cost (dc) | production_cost (plant, product) | handling_cost (dc)",
+            _edit_scale_cost,
+        ),
+        ChangeKind(
+            "set_capacity",
+            "Change a capacity: site (supplier, plant or DC), optional product, capacity or factor",
+            _edit_set_capacity,
+            _held_set_capacity,
+        ),
+    )
+}
+
+
+def held_plan(held: HeldNetwork, changes: list[Change], sc_case: Case) -> BoundPlan | None:
+    """The bound changes that express ``changes`` on ``held`` (None: some change is not a bound change)."""
+    if not held.is_lp:
+        return None
+    plan = BoundPlan()
+    for ch in changes:
+        kind = CHANGE_KINDS[ch["kind"]]
+        part = kind.held_bounds(held, ch, sc_case) if kind.held_bounds is not None else None
+        if part is None:
+            return None
+        plan.merge(part)
+    return plan
+
+
+def element_changes(el: dict) -> list[Change]:
+    """The changes that take a network element out: a lane → ``close_lane``, a site → ``site_out``."""
+    if el["type"] == "lane":
+        return [{"kind": "close_lane", "origin": el["origin"], "destination": el["destination"], "mode": el["mode"]}]
+    return [{"kind": "site_out", "site": el["origin"]}]
+
+
+def resolve_held(held: HeldNetwork, sc_case: Case, changes: list[Change], name: str = "") -> Result | None:
+    """Warm re-solve of scenario case ``sc_case`` (made by ``changes``) on ``held``; None when a
+    change is not a bound change (the hold must then be rebuilt with the openings fixed)."""
+    plan = held_plan(held, changes, sc_case)
+    return None if plan is None else held.result(sc_case, plan, name=name)

@@ -1,0 +1,195 @@
+"""Where a sweep's tasks run and how finished ones are kept: local pool, Dask cluster, journal.
+
+A task is a pure function ``task(spec, element) -> row`` (a module-level function, so it
+pickles by reference).  It runs in a local process pool (forkserver start: no worker is
+forked from a process holding solver threads), on a Dask distributed cluster, or in this
+process.  Every finished row is appended, flushed and fsynced, to a JSONL journal whose
+first line names the sweep's key, so a restarted sweep skips what is already done.
+"""
+
+from __future__ import annotations
+
+import json
+import multiprocessing as mp
+import os
+import time
+import uuid
+from collections.abc import Callable
+from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
+from pathlib import Path
+
+from rich.console import Console
+from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
+
+JOURNAL = "sweep_journal.jsonl"
+JOURNAL_FORMAT = "netopt stress sweep journal v1"
+
+Task = Callable[[object, dict], dict]
+
+
+def where_running() -> str:
+    """Where this task runs: a Dask worker address or this process id."""
+    try:
+        from distributed import get_worker
+
+        return f"dask {get_worker().address}"
+    except (ImportError, ValueError):
+        return f"pid {os.getpid()}"
+
+
+# pool plumbing: the task function and its spec are installed once per worker process
+_POOL: dict = {}
+
+
+def _pool_init(task: Task, spec: object, prepare: Callable[[object], object] | None) -> None:
+    _POOL["task"], _POOL["spec"] = task, spec
+    if prepare is not None:
+        prepare(spec)  # e.g. build the worker's kept model now, not inside the first task
+
+
+def _pool_task(el: dict) -> dict:
+    return _POOL["task"](_POOL["spec"], el)
+
+
+# ---------------------------------------------------------------------------------- journal
+
+
+def read_journal(path: Path, key: str) -> tuple[dict[str, dict], bool]:
+    """Finished rows by element id and whether the journal belongs to ``key`` (a torn last line is ignored)."""
+    if not path.exists():
+        return {}, True
+    rows: dict[str, dict] = {}
+    with open(path, encoding="utf-8") as fh:
+        lines = fh.read().split("\n")
+    if not lines or not lines[0].strip():
+        return {}, False
+    try:
+        head = json.loads(lines[0])
+    except json.JSONDecodeError:
+        return {}, False
+    if head.get("journal") != JOURNAL_FORMAT or head.get("key") != key:
+        return {}, False
+    for line in lines[1:]:
+        if not line.strip():
+            continue
+        try:
+            r = json.loads(line)
+        except json.JSONDecodeError:
+            continue  # a line torn by a kill mid-write
+        rows[r["id"]] = r
+    return rows, True
+
+
+def open_journal(path: Path, key: str, fresh: bool):
+    """Open the journal for appending (new file with a header line when ``fresh``)."""
+    path.parent.mkdir(parents=True, exist_ok=True)
+    if fresh or not path.exists():
+        with open(path, "w", encoding="utf-8") as fh:
+            fh.write(
+                json.dumps({"journal": JOURNAL_FORMAT, "key": key, "started": time.strftime("%Y-%m-%d %H:%M:%S")})
+                + "\n"
+            )
+            fh.flush()
+            os.fsync(fh.fileno())
+    else:
+        # Cut a torn last line so the next row starts on a line of its own.
+        with open(path, "rb+") as fh:
+            data = fh.read()
+            if data and not data.endswith(b"\n"):
+                fh.truncate(data.rfind(b"\n") + 1)
+    return open(path, "a", encoding="utf-8")
+
+
+def append_row(fh, row: dict) -> None:
+    """Append one finished row to the journal, flushed and fsynced (survives kill -9)."""
+    fh.write(json.dumps(row) + "\n")
+    fh.flush()
+    os.fsync(fh.fileno())
+
+
+# ---------------------------------------------------------------------------------- executors
+
+
+def pool_context():
+    """Start method for pool workers: forkserver where available (no fork of a process holding HiGHS threads)."""
+    methods = mp.get_all_start_methods()
+    ctx = mp.get_context("forkserver" if "forkserver" in methods else "spawn")
+    if ctx.get_start_method() == "forkserver":
+        ctx.set_forkserver_preload(["netopt.studies.resilience", "netopt.engine.held", "netopt.engine.solve"])
+    return ctx
+
+
+def run_local(task: Task, spec, todo: list[dict], workers: int, done_cb, prepare=None) -> None:
+    """Run ``task(spec, el)`` for each element on a local process pool; ``done_cb(el, row)`` as each finishes."""
+    ex = ProcessPoolExecutor(
+        max_workers=workers, mp_context=pool_context(), initializer=_pool_init, initargs=(task, spec, prepare)
+    )
+    futs = {}
+    try:
+        futs = {ex.submit(_pool_task, el): el for el in todo}
+        pending = set(futs)
+        while pending:
+            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            for f in sorted(done, key=lambda f: futs[f]["id"]):
+                done_cb(futs[f], f.result())
+    except BaseException:
+        for f in futs:
+            f.cancel()
+        ex.shutdown(wait=False, cancel_futures=True)
+        raise
+    ex.shutdown(wait=True)
+
+
+def run_dask(task: Task, spec, todo: list[dict], scheduler, done_cb) -> None:
+    """Run ``task(spec, el)`` for each element on a Dask cluster (address or ``distributed.Client``)."""
+    try:
+        from distributed import Client, as_completed
+    except ImportError as e:  # pragma: no cover - the cluster extra is not installed
+        raise RuntimeError(
+            "running on a Dask cluster needs the 'distributed' package (pip install 'netopt[cluster]')"
+        ) from e
+    own = isinstance(scheduler, str)
+    client = Client(scheduler) if own else scheduler
+    futs = []
+    try:
+        token = uuid.uuid4().hex[:12]
+        spec_f = client.scatter(spec, broadcast=True, hash=False)
+        futs = [
+            client.submit(task, spec_f, el, pure=False, key=f"netopt-sweep-{token}-{i}") for i, el in enumerate(todo)
+        ]
+        by_key = {f.key: el for f, el in zip(futs, todo)}
+        for f in as_completed(futs):
+            done_cb(by_key[f.key], f.result())
+    except BaseException:
+        client.cancel(futs)
+        raise
+    finally:
+        if own:
+            client.close()
+
+
+def run_inline(task: Task, spec, todo: list[dict], done_cb) -> None:
+    """Run ``task(spec, el)`` for each element in this process."""
+    for el in todo:
+        done_cb(el, task(spec, el))
+
+
+def progress_bar(total: int, completed: int, label: str):
+    """A progress bar on stderr: done/total, elapsed, ETA."""
+
+    p = Progress(
+        TextColumn("{task.description}"),
+        BarColumn(),
+        MofNCompleteColumn(),
+        TextColumn("elapsed"),
+        TimeElapsedColumn(),
+        TextColumn("ETA"),
+        TimeRemainingColumn(),
+        console=Console(stderr=True),
+        transient=False,
+    )
+    task = p.add_task(label, total=total, completed=completed)
+    return p, task
+
+
+# ---------------------------------------------------------------------------------- the sweep
