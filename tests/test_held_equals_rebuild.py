@@ -114,7 +114,7 @@ def test_held_resolve_reports_the_scenarios_own_capacity(solved):
 
 def test_kinds_without_a_warm_meaning_rebuild(solved):
     """A change that is not a bound change (a new DC, a policy, a cost) is never forced into the held model."""
-    case, base, held = solved
+    case, _base, held = solved
     for kind in ("add_dc", "policy", "setting", "scale_cost"):
         assert CHANGE_KINDS[kind].held_bounds is None
     changes = [{"kind": "scale_cost", "target": "mode_rate", "mode": "road", "factor": 1.5}]
