@@ -150,6 +150,20 @@ def test_shortest_path_mode_filter():
     assert shortest_path_km(e, ["A"], ["B"]).loc["A", "B"] == 4
 
 
+def test_shortest_path_zero_km_edge_and_self_loop():
+    # A-B 0 km (a junction at the site itself) must count as an edge, not as "no edge"; C-C is a
+    # self-loop that only names the node.  By hand: A→C = 0 + 2 = 2; C→C = 0; B→A = 0.
+    # Reference for the same graph: networkx.dijkstra_path_length.
+    rows = [("A", "B", 0.0, ""), ("B", "C", 2.0, ""), ("C", "C", 5.0, "")]
+    sp = shortest_path_km(_edges(rows), ["A", "B", "C"], ["A", "C"])
+    assert sp.loc["A", "C"] == 2 and sp.loc["B", "A"] == 0 and sp.loc["C", "C"] == 0
+    g = nx.Graph()
+    g.add_weighted_edges_from([(a, b, km) for a, b, km, _ in rows if a != b], weight="km")
+    for s in ("A", "B", "C"):
+        for t in ("A", "C"):
+            assert sp.loc[s, t] == nx.dijkstra_path_length(g, s, t, weight="km")
+
+
 def test_shortest_path_matches_networkx_and_scipy_on_random_graph():
     # References: networkx.dijkstra_path_length on a MultiGraph holding every edge, and scipy's
     # independent csgraph.dijkstra on the symmetric matrix of shortest parallel edges.

@@ -4,9 +4,10 @@ from __future__ import annotations
 
 from collections.abc import Iterable
 
-import networkx as nx
 import numpy as np
 import pandas as pd
+from scipy.sparse import csr_matrix
+from scipy.sparse.csgraph import dijkstra
 
 # IUGG mean radius R1 = (2a + b)/3 of the WGS84 ellipsoid (Moritz 1980,
 # Geodetic Reference System 1980): a = 6378.137 km, b = 6356.752314 km.
@@ -55,31 +56,50 @@ def pairwise_km(lat_a, lon_a, lat_b, lon_b, radius_km: float = EARTH_MEAN_RADIUS
     return haversine_km(la, oa, lb, ob, radius_km=radius_km)
 
 
-def edge_graph(edges_df: pd.DataFrame, mode: str | None = None) -> nx.Graph:
-    """Undirected graph (edge attribute ``km``) from ``road_edges`` rows.
+def _mode_rows(edges_df: pd.DataFrame, mode: str | None) -> pd.DataFrame:
+    """The ``road_edges`` rows a mode uses: blank mode or this mode; ``None`` keeps every row."""
+    if mode is None or "mode" not in edges_df.columns:
+        return edges_df
+    m = edges_df["mode"].fillna("").astype(str).str.strip()
+    return edges_df[((m == "") | (m == mode)).to_numpy()]
+
+
+def edge_matrix(edges_df: pd.DataFrame, mode: str | None = None) -> tuple[pd.Index, csr_matrix]:
+    """Symmetric sparse km matrix from ``road_edges`` rows.
 
     Args:
         edges_df: rows with ``from_node``, ``to_node``, ``km`` and optionally ``mode``.
         mode: keep rows whose mode is blank or equals this mode; ``None`` keeps every row.
 
     Returns:
-        A ``networkx.Graph``; of parallel edges between two nodes the shortest is kept.
+        ``(nodes, matrix)``: node names (row/column order) and an ``(n, n)`` CSR matrix of km,
+        entry ``[i, j]`` = ``[j, i]`` = the shortest of the parallel edges between the two nodes.
+        A zero-km edge is stored as an explicit zero (an edge to ``scipy.sparse.csgraph``);
+        a row from a node to itself only adds the node.
     """
-    df = edges_df
-    if mode is not None and "mode" in df.columns:
-        m = df["mode"].fillna("").astype(str).str.strip()
-        df = df[(m == "") | (m == mode)]
-    g = nx.Graph()
-    for u, v, km in zip(df["from_node"].astype(str), df["to_node"].astype(str), df["km"].astype(float)):
-        if u == v:
-            g.add_node(u)
-            continue
-        if g.has_edge(u, v):
-            if km < g[u][v]["km"]:
-                g[u][v]["km"] = km
-        else:
-            g.add_edge(u, v, km=km)
-    return g
+    df = _mode_rows(edges_df, mode)
+    u = df["from_node"].astype(str).to_numpy()
+    v = df["to_node"].astype(str).to_numpy()
+    km = df["km"].astype(float).to_numpy()
+    codes, nodes = pd.factorize(np.concatenate([u, v]))
+    iu, iv = codes[: len(u)], codes[len(u) :]
+    a, b = np.minimum(iu, iv), np.maximum(iu, iv)
+    keep = a != b
+    a, b, km = a[keep], b[keep], km[keep]
+    # shortest parallel edge: sort by (a, b, km) and keep the first of each (a, b)
+    order = np.lexsort((km, b, a))
+    a, b, km = a[order], b[order], km[order]
+    first = np.ones(len(a), dtype=bool)
+    first[1:] = (a[1:] != a[:-1]) | (b[1:] != b[:-1])
+    a, b, km = a[first], b[first], km[first]
+    n = len(nodes)
+    rows, cols, data = np.concatenate([a, b]), np.concatenate([b, a]), np.concatenate([km, km])
+    # CSR built by hand (not through COO) so that zero-km edges stay stored entries
+    order = np.lexsort((cols, rows))
+    rows, cols, data = rows[order], cols[order], data[order]
+    indptr = np.zeros(n + 1, dtype=np.int64)
+    np.cumsum(np.bincount(rows, minlength=n), out=indptr[1:])
+    return pd.Index(nodes), csr_matrix((data, cols, indptr), shape=(n, n))
 
 
 def shortest_path_km(
@@ -87,7 +107,8 @@ def shortest_path_km(
 ) -> pd.DataFrame:
     """Shortest-path km over an undirected edge table, from each source to each target.
 
-    One Dijkstra run per source (networkx).  Parallel edges: the shortest counts.
+    Dijkstra from the sources only (``scipy.sparse.csgraph.dijkstra`` with ``indices``).
+    Parallel edges: the shortest counts.
 
     Args:
         edges_df: ``road_edges``-like table (``from_node``, ``to_node``, ``km``, ``mode``).
@@ -103,13 +124,11 @@ def shortest_path_km(
     src = list(dict.fromkeys(str(s) for s in sources))
     tgt = list(dict.fromkeys(str(t) for t in targets))
     out = np.full((len(src), len(tgt)), np.nan)
-    g = edge_graph(edges_df, mode)
-    col = {t: j for j, t in enumerate(tgt)}
-    for i, s in enumerate(src):
-        if s not in g:
-            continue
-        for node, km in nx.single_source_dijkstra_path_length(g, s, weight="km").items():
-            j = col.get(node)
-            if j is not None:
-                out[i, j] = km
+    nodes, matrix = edge_matrix(edges_df, mode)
+    i_src, i_tgt = nodes.get_indexer(src), nodes.get_indexer(tgt)
+    rows, cols = np.flatnonzero(i_src >= 0), np.flatnonzero(i_tgt >= 0)
+    if len(rows) and len(cols):
+        km = dijkstra(matrix, directed=False, indices=i_src[rows])[:, i_tgt[cols]]
+        km[np.isinf(km)] = np.nan
+        out[np.ix_(rows, cols)] = km
     return pd.DataFrame(out, index=pd.Index(src, name="source"), columns=pd.Index(tgt, name="target"))
