@@ -19,9 +19,16 @@ from geographiclib.geodesic import Geodesic
 
 from netopt.api import Result
 from netopt.data.io import load_case
+from netopt.data.results_schema import COMPARISON_VIEW, label_of
 from netopt.present.files import DISCLAIMER, write_run
+from netopt.present.formats import kpi_label
 from netopt.present.report import map_layout, project, render_report, site_table, write_report
+from netopt.present.report.charts import frontier_figure, frontier_points
+from netopt.studies.frontier import frontier
+from netopt.studies.resilience import run_sweep
 from netopt.studies.scenarios import run_scenarios
+
+DEMO = Path(__file__).resolve().parent.parent / "cases" / "brackenholt"
 
 HYPER = '=HYPERLINK("http://example.invalid/x","click")'  # a customer code a spreadsheet would run
 ODD_DC = "DC-PAR <i>&$x$</i>"  # HTML markup and matplotlib mathtext in a DC code
@@ -72,8 +79,12 @@ def report_case_dir(tmp_path) -> Path:
 
 
 @pytest.fixture(scope="module")
-def run(tmp_path_factory):
-    case = load_case(report_case_dir(tmp_path_factory.mktemp("case")))
+def case(tmp_path_factory):
+    return load_case(report_case_dir(tmp_path_factory.mktemp("case")))
+
+
+@pytest.fixture(scope="module")
+def run(case):
     return run_scenarios(case)
 
 
@@ -220,7 +231,7 @@ def test_cost_table_matches_the_result(run, page):
     rows = {r["component"]: r for r in records(parse(page).tables["cost-table"])}
     cost = run.base.cost
     total = sum(cost.values())
-    currency = [k for k in rows[next(iter(rows))] if k.endswith("/yr")][0]
+    currency = next(k for k in rows[next(iter(rows))] if k.endswith("/yr"))
     for k, v in cost.items():
         shown = rows[k.replace("_", " ")]
         assert num(shown[currency]) == pytest.approx(v, abs=0.5)  # whole currency units
@@ -248,18 +259,28 @@ def test_dc_table_matches_the_result(run, page):
 
 
 def test_comparison_table_matches_the_run(run, page):
-    shown = {r["scenario"]: r for r in records(parse(page).tables["comparison-table"])}
+    table = parse(page).tables["comparison-table"]
+    shown = {r[label_of("comparison", "scenario")]: r for r in records(table)}
     comp = run.comparison
     assert list(shown) == list(comp["scenario"])
+    # The headers are the declared labels of the declared headline columns, in order (status is left out
+    # when every solve is optimal).
+    expected = [c for c in COMPARISON_VIEW if c in comp.columns and not (c == "status" and comp[c].eq("optimal").all())]
+    assert table[0] == [label_of("comparison", c) for c in expected]
+
+    def cell(s, column):
+        return num(s[label_of("comparison", column)])
+
     for r in comp.itertuples(index=False):
         s = shown[r.scenario]
-        assert num(s["total cost"]) == pytest.approx(r.total_cost, abs=0.5)
-        assert num(s["Δ vs base"]) == pytest.approx(r.delta_cost, abs=0.5)
-        assert num(s["Δ %"]) == pytest.approx(r.delta_pct, abs=5e-5)
-        assert num(s["in window"]) == pytest.approx(r.share_within_window, abs=5e-4)
-        assert num(s["lost units/yr"]) == pytest.approx(r.lost_units, abs=0.5)
-        assert num(s["CO2e t/yr"]) == pytest.approx(r.co2e_tonnes, abs=0.5)
-        assert s["checked"] == ("yes" if r.verified else "no")
+        assert cell(s, "total_cost") == pytest.approx(r.total_cost, abs=0.5)
+        assert cell(s, "delta_cost") == pytest.approx(r.delta_cost, abs=0.5)
+        assert cell(s, "delta_pct") == pytest.approx(r.delta_pct, abs=5e-5)
+        assert cell(s, "share_within_window") == pytest.approx(r.share_within_window, abs=5e-4)
+        assert cell(s, "avg_transit_days") == pytest.approx(r.avg_transit_days, abs=5e-3)
+        assert cell(s, "lost_units") == pytest.approx(r.lost_units, abs=0.5)
+        assert cell(s, "co2e_tonnes") == pytest.approx(r.co2e_tonnes, abs=0.5)
+        assert s[label_of("comparison", "verified")] == ("yes" if r.verified else "no")
 
 
 def test_comparison_colours_changes_beyond_the_gap(run, page):
@@ -267,9 +288,11 @@ def test_comparison_colours_changes_beyond_the_gap(run, page):
     comp = run.comparison.set_index("scenario")
     up = "demand_up [redesign]"
     assert comp.loc[up, "delta_cost"] > 1e-3 * comp.loc["base", "total_cost"]
+    head = parse(page).tables["comparison-table"][0]
+    at = head.index(label_of("comparison", "total_cost")) - 1  # cells after the scenario's own cell
     row = re.search(r"<tr><td[^>]*>demand_up \[redesign\]</td>(.*?)</tr>", page, re.S).group(1)
     cells = re.findall(r'<td(?: class="([^"]*)")?>([^<]*)</td>', row)
-    total_cls = cells[0][0]
+    total_cls = cells[at][0]
     assert "worse" in total_cls.split()
     base_row = re.search(r"<tr><td[^>]*>base</td>(.*?)</tr>", page, re.S).group(1)
     assert "worse" not in base_row and "better" not in base_row
@@ -280,13 +303,13 @@ def test_kpis_mode_mix_and_service_match(run, page):
     k = run.base.tables["kpis"]
     shown = {r["indicator"]: r for r in records(p.tables["kpi-table"])}
     for r in k.itertuples(index=False):
-        s = shown[r.kpi.replace("_", " ")]
+        s = shown[kpi_label(r.kpi)]
         tol = 5e-4 if "share" in r.unit else 5e-3 if abs(r.value) < 100 else 0.5
         assert num(s["value"]) == pytest.approx(r.value, abs=tol), r.kpi
     mm = {r["mode"]: r for r in records(p.tables["mode-table"])}
     for r in run.base.tables["mode_mix"].itertuples(index=False):
-        assert num(mm[r.mode]["tonne-km/yr"]) == pytest.approx(r.tonne_km, abs=0.5)
-        assert num(mm[r.mode]["units/yr"]) == pytest.approx(r.units, abs=0.5)
+        assert num(mm[r.mode][label_of("mode_mix", "tonne_km")]) == pytest.approx(r.tonne_km, abs=0.5)
+        assert num(mm[r.mode][label_of("mode_mix", "units")]) == pytest.approx(r.units, abs=0.5)
     # The share within the window, recomputed here from the flows (units to customers on in-window lanes).
     f = run.base.tables["flows"]
     last = f[f["destination_kind"] == "customer"]
@@ -358,34 +381,53 @@ def test_single_result_report(run, tmp_path):
     assert not list(tmp_path.glob(".report.html.tmp-*"))
 
 
-def test_extra_tables_get_titled_sections_and_a_frontier_chart(run, tmp_path):
-    frontier = pd.DataFrame(
-        {
-            "carbon_price": [0.0, 50.0, 100.0],
-            "total_cost": [1.0e6, 1.02e6, 1.05e6],
-            "co2e_tonnes": [900.0, 700.0, 610.0],
-        }
-    )
-    spof = pd.DataFrame(
-        {
-            "element": ["PL-LYON", "ORE-N"],
-            "recovery_cost": [12345.0, 678.0],
-            "lost_units": [1500.0, 0.0],
-            "lost_value": [90000.0, 0.0],
-            "impact": [102345.0, 678.0],
-        }
-    )
-    page = write_report(run, tmp_path / "r.html", extra={"frontier": frontier, "spof": spof}).read_text("utf-8")
+@pytest.fixture(scope="module")
+def demo_frontier():
+    """The demo case's cost–CO2 frontier, three points, solved for real."""
+    return frontier(load_case(DEMO), points=3)
+
+
+@pytest.fixture(scope="module")
+def spof(case, run):
+    """The single-point-of-failure ranking of the report case's base (DCs and plants), swept in this process."""
+    table, _ = run_sweep(case, run.base, workers=0, elements=["dc", "plant"], progress=False)
+    return table
+
+
+def test_frontier_chart_plots_each_networks_co2_against_its_cost(demo_frontier):
+    table = demo_frontier
+    # The demo sets no CO2 cap, so the cost-optimal point's cap is blank; it must be plotted all the same.
+    assert math.isnan(table.loc[table["point"] == 0, "co2_cap_t"].iloc[0])
+    expected = table.sort_values("co2_t")
+    pts = frontier_points(table)
+    assert list(pts["point"]) == list(expected["point"]) and 0 in set(pts["point"])
+    np.testing.assert_array_equal(pts["co2_t"].to_numpy(), expected["co2_t"].to_numpy())
+    np.testing.assert_array_equal(pts["total_cost"].to_numpy(), expected["total_cost"].to_numpy())
+    # The chart draws exactly those points: x = each network's own CO2e (t/yr), y = its total cost.
+    (line,) = frontier_figure(table, "EUR").axes[0].lines
+    np.testing.assert_array_equal(line.get_xdata(), expected["co2_t"].to_numpy())
+    np.testing.assert_array_equal(line.get_ydata(), expected["total_cost"].to_numpy())
+    # The cost-optimal network emits the most and costs the least: it is the right-hand end of the curve.
+    assert line.get_xdata()[-1] == table["co2_t"].max() == table.loc[0, "co2_t"]
+    assert line.get_ydata()[-1] == table["total_cost"].min()
+
+
+def test_extra_tables_get_titled_sections_and_charts(run, demo_frontier, spof, tmp_path):
+    page = write_report(run, tmp_path / "r.html", extra={"frontier": demo_frontier, "spof": spof}).read_text("utf-8")
     p = parse(page)
     assert "Cost–CO2e frontier" in page and "Single points of failure" in page
     front = re.search(r'<section id="extra-frontier".*?</section>', page, re.S).group(0)
-    assert "<svg" in front, "a frontier with cost and CO2 columns is charted"
+    assert "<svg" in front, "the frontier is charted"
+    shown = records(p.tables["table-frontier"])
+    co2 = [num(r[label_of("frontier", "co2_t")]) for r in shown]
+    assert co2 == pytest.approx(list(demo_frontier["co2_t"]), abs=0.5)
     spof_sec = re.search(r'<section id="extra-spof".*?</section>', page, re.S).group(0)
-    assert "<svg" in spof_sec and "PL-LYON" in spof_sec, "a ranking with an impact column is charted"
-    shown = records(p.tables["table-spof"])
-    assert [r["element"] for r in shown] == ["PL-LYON", "ORE-N"]
-    assert num(shown[0]["recovery cost"]) == pytest.approx(12345.0, abs=0.5)
-    assert [num(r["co2e tonnes"]) for r in records(p.tables["table-frontier"])] == [900.0, 700.0, 610.0]
+    ranked = records(p.tables["table-spof"])
+    assert [r[label_of("spof_ranking", "element")] for r in ranked] == list(spof["element"])
+    for r, want in zip(ranked, spof.itertuples(index=False)):
+        assert num(r[label_of("spof_ranking", "recovery_cost")]) == pytest.approx(want.recovery_cost, abs=0.5)
+    if (spof["impact"] > 0).any():
+        assert "<svg" in spof_sec and spof["element"].iloc[0] in spof_sec, "a ranking with an impact is charted"
 
 
 def test_report_of_a_run_without_a_plan():

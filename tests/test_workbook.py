@@ -91,30 +91,34 @@ def test_control_characters_are_dropped_not_fatal(tmp_path):
 
 
 def test_formats_header_freeze_and_widths(tmp_path):
+    # A comparison sheet: each column formatted by its declared unit (netopt.data.results_schema).
     df = pd.DataFrame(
         {
-            "customer": ["C1", "C2"],
+            "scenario": ["C1", "C2"],
             "total_cost": [1234567.25, 89.0],
             "share_within_window": [0.9876, 1.0],
             "avg_transit_days": [1.4137, 2.0],
-            "capacity": [np.inf, np.nan],
-            "open": [True, False],
+            "lost_units": [np.inf, np.nan],
+            "verified": [True, False],
+            "not_declared": [1.5, 2.5],
         }
     )
     path = tmp_path / "f.xlsx"
-    write_workbook({"t": df}, path, currency="EUR")
-    ws = load_workbook(path)["t"]
-    assert ws.freeze_panes == "A2"
-    assert all(ws.cell(row=1, column=j).font.b for j in range(1, 7))
-    # Excel number-format codes (ECMA-376 Part 1, §18.8.31 numFmts; from memory): thousands separators,
-    # a literal currency suffix, percent with one decimal, two decimals with a literal " d".
-    assert ws["B2"].number_format == '#,##0" EUR"' and ws["B2"].value == 1234567.25
-    assert ws["C2"].number_format == "0.0%" and ws["C2"].value == pytest.approx(0.9876)
-    assert ws["D2"].number_format == '0.00" d"'
-    assert ws["E2"].value == "no limit" and ws["E3"].value is None  # infinity and NaN: no #NUM! in Excel
-    assert ws["F2"].value is True
-    assert ws.column_dimensions["B"].width >= len("1,234,567.25 EUR")
-    assert ws.column_dimensions["A"].width >= 9
+    write_workbook({"comparison": df, "again": df}, path, currency="EUR", tables={"again": "comparison"})
+    for sheet in ("comparison", "again"):
+        ws = load_workbook(path)[sheet]
+        assert ws.freeze_panes == "A2"
+        assert all(ws.cell(row=1, column=j).font.b for j in range(1, 8))
+        # Excel number-format codes (ECMA-376 Part 1, §18.8.31 numFmts; from memory): thousands separators,
+        # a literal currency suffix, percent with one decimal, two decimals with a literal " d".
+        assert ws["B2"].number_format == '#,##0" EUR"' and ws["B2"].value == 1234567.25
+        assert ws["C2"].number_format == "0.0%" and ws["C2"].value == pytest.approx(0.9876)
+        assert ws["D2"].number_format == '0.00" d"'
+        assert ws["E2"].value == "no limit" and ws["E3"].value is None  # infinity and NaN: no #NUM! in Excel
+        assert ws["F2"].value is True
+        assert ws["G2"].number_format == "General"  # a column the schema does not declare is left alone
+        assert ws.column_dimensions["B"].width >= len("1,234,567.25 EUR")
+        assert ws.column_dimensions["A"].width >= 9
 
 
 def test_values_not_formulas_and_per_unit_formats_for_indicators(tmp_path):
@@ -155,7 +159,7 @@ def test_sheet_names_are_made_valid_and_unique(tmp_path):
         path,
     )
     names = load_workbook(path).sheetnames
-    assert len(names) == len(set(n.lower() for n in names)) == 3
+    assert len(names) == len({n.lower() for n in names}) == 3
     assert all(len(n) <= 31 and not set(n) & set(":\\/?*[]") for n in names)
 
 

@@ -17,6 +17,7 @@ from netopt.data.io import load_case
 from netopt.engine.solve import solve
 from netopt.present.files import _jsonable, atomic_folder, write_result_files, write_run, write_workbook
 from netopt.present.report import write_report
+from netopt.present.terminal import money_text, print_comparison, print_frontier, print_result
 from netopt.studies.frontier import frontier
 from netopt.studies.resilience import stress_command
 from netopt.studies.scenarios import parse_scenarios, run_scenarios
@@ -47,39 +48,6 @@ SOLVER_OPTIONS.add_argument(
 SOLVER_OPTIONS.add_argument("--no-report", action="store_true", help="skip the HTML report")
 
 
-def _console():
-    import os
-    import shutil
-
-    from rich.console import Console
-
-    width = (
-        None
-        if sys.stdout.isatty()
-        else int(os.environ.get("COLUMNS", 0)) or max(120, shutil.get_terminal_size((120, 24)).columns)
-    )
-    return Console(highlight=False, width=width)
-
-
-TERMINAL_VIEW = [
-    ("scenario", "scenario"),
-    ("total_cost", "total cost"),
-    ("delta_cost", "Δ vs base"),
-    ("dcs_open", "DCs"),
-    ("share_within_window", "in window"),
-    ("lost_units", "lost units"),
-    ("co2e_tonnes", "CO2e t"),
-    ("status", "status"),
-    ("verified", "checked"),
-]
-
-
-def _money(x) -> str:
-    if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
-        return "–"
-    return f"{x:,.0f}"
-
-
 def _progress_printer(args):
     """Progress lines: one per stage, and MIP progress at most every 5 s."""
     if getattr(args, "quiet", False) or getattr(args, "json", False):
@@ -96,7 +64,7 @@ def _progress_printer(args):
             last[0] = now
             gap = info.get("gap")
             print(
-                f"[{now:7.1f}s]   searching: best {_money(info.get('objective'))}, bound {_money(info.get('bound'))}"
+                f"[{now:7.1f}s]   searching: best {money_text(info.get('objective'))}, bound {money_text(info.get('bound'))}"
                 + (f", gap {gap:.3%}" if isinstance(gap, float) and math.isfinite(gap) else ""),
                 flush=True,
             )
@@ -118,129 +86,6 @@ def _progress_printer(args):
             print(f"[{now:7.1f}s] {text()}", flush=True)
 
     return progress
-
-
-def print_result(result, console=None) -> None:
-    """Readable terminal summary of one solve: status, cost breakdown, DCs, KPIs."""
-    from rich.markup import escape
-    from rich.table import Table
-
-    con = console or _console()
-    status = result.status + (
-        "" if result.status == "optimal" else "  (best plan found, not proven optimal)" if result.has_solution else ""
-    )
-    con.print(
-        f"[bold]{escape(result.case_name)}[/bold]: {status}; cost {_money(result.objective)}, "
-        f"bound {_money(result.bound)}, gap {result.gap:.4%}"
-        if result.has_solution and math.isfinite(result.gap)
-        else f"[bold]{escape(result.case_name)}[/bold]: {status}"
-    )
-    if result.diagnosis is not None:
-        t = Table(title="What cannot be met (elastic re-solve)")
-        for c in result.diagnosis.columns:
-            t.add_column(str(c))
-        for row in result.diagnosis.itertuples(index=False):
-            t.add_row(*[f"{v:,.1f}" if isinstance(v, float) else escape(str(v)) for v in row])
-        con.print(t)
-        return
-    if not result.has_solution:
-        return
-    t = Table(title="Annual landed cost")
-    t.add_column("component")
-    t.add_column("amount", justify="right")
-    t.add_column("share", justify="right")
-    total = sum(result.cost.values())
-    for k, v in result.cost.items():
-        if abs(v) > 0.5:
-            t.add_row(k.replace("_", " "), _money(v), f"{v / total:.1%}" if total else "")
-    t.add_row("[bold]total[/bold]", f"[bold]{_money(total)}[/bold]", "100%")
-    con.print(t)
-    d = result.tables["dcs"]
-    t = Table(title="DCs")
-    for c in ("dc", "status", "decision", "throughput", "utilisation"):
-        t.add_column(c, justify="right" if c in ("throughput", "utilisation") else "left")
-    for row in d.itertuples(index=False):
-        u = row.utilisation
-        t.add_row(
-            row.dc,
-            row.status,
-            row.decision,
-            _money(row.throughput),
-            "" if u is None or (isinstance(u, float) and math.isnan(u)) else f"{u:.0%}",
-        )
-    con.print(t)
-    k = result.tables["kpis"]
-    t = Table(title="Key indicators")
-    t.add_column("indicator")
-    t.add_column("value", justify="right")
-    t.add_column("unit")
-    for row in k.itertuples(index=False):
-        v = row.value
-        txt = (
-            "–"
-            if v is None or (isinstance(v, float) and math.isnan(v))
-            else (f"{v:.1%}" if "share" in row.unit else f"{v:,.2f}" if abs(v) < 100 else f"{v:,.0f}")
-        )
-        t.add_row(row.kpi.replace("_", " "), txt, row.unit)
-    con.print(t)
-    v = result.verification
-    if v is not None:
-        con.print(
-            f"Independent check: {'[green]passed[/green]' if v.passed else '[red]FAILED[/red]'} — recomputed cost "
-            f"{_money(v.recomputed_objective)}, largest violation {v.largest_violation:.2e} "
-            f"({v.largest_violation_rule})"
-        )
-
-
-def print_comparison(comparison, console=None) -> None:
-    """The scenario comparison as a terminal table."""
-    from rich.markup import escape
-    from rich.table import Table
-
-    con = console or _console()
-    cols = [(c, n) for c, n in TERMINAL_VIEW if c in comparison.columns]
-    view = comparison[[c for c, _ in cols]].rename(columns=dict(cols))
-    t = Table(title="Scenario comparison (money per year; Δ = recovery cost for disruptions)")
-    rows = []
-    for row in view.itertuples(index=False):
-        cells = []
-        for c, v in zip(view.columns, row):
-            if isinstance(v, bool):
-                cells.append("yes" if v else "[red]NO[/red]")
-            elif isinstance(v, float):
-                if math.isnan(v):
-                    cells.append("–")
-                elif c == "in window":
-                    cells.append(f"{v:.1%}")
-                elif "days" in c:
-                    cells.append(f"{v:.2f}")
-                elif c == "Δ vs base":
-                    cells.append(
-                        ("[red]" if v > 0.5 else "[green]" if v < -0.5 else "")
-                        + f"{v:+,.0f}"
-                        + ("[/red]" if v > 0.5 else "[/green]" if v < -0.5 else "")
-                    )
-                else:
-                    cells.append(f"{v:,.0f}")
-            else:
-                cells.append(escape(str(v)))
-        rows.append(cells)
-    from rich.text import Text
-
-    for j, c in enumerate(view.columns):
-        # Numbers are never cut short: their columns are as wide as their widest cell; names wrap instead.
-        text = c in ("scenario", "status")
-        widest = max((Text.from_markup(r[j]).cell_len for r in rows), default=0)
-        t.add_column(
-            str(c),
-            justify="left" if text else "right",
-            no_wrap=not text,
-            min_width=None if text else widest,
-            overflow="fold",
-        )
-    for cells in rows:
-        t.add_row(*cells)
-    con.print(t)
 
 
 # --------------------------------------------------------------------------- solve
@@ -446,8 +291,6 @@ def add_frontier(sub) -> None:
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:
-    from rich.table import Table
-
     if args.points < 2:
         print("error: --points must be at least 2 (the two ends of the curve)", file=sys.stderr)
         return 2
@@ -460,18 +303,6 @@ def cmd_frontier(args: argparse.Namespace) -> int:
     if args.json:
         print(json.dumps(_json(table.to_dict(orient="records")), indent=2))
     elif not args.quiet:
-        t = Table(title="Cost–CO2 frontier (per year)")
-        for c in ("point", "co2_t", "total_cost", "cost_per_t_abated", "dcs_open", "mode_mix"):
-            t.add_column(c.replace("_", " "), justify="left" if c == "mode_mix" else "right")
-        for r in table.itertuples(index=False):
-            t.add_row(
-                str(r.point),
-                f"{r.co2_t:,.0f}",
-                _money(r.total_cost),
-                _money(getattr(r, "cost_per_t_abated", None)),
-                str(r.dcs_open),
-                str(r.mode_mix),
-            )
-        _console().print(t)
+        print_frontier(table)
         say(args, f"results written to {args.out}")
     return EXIT_OK if table["status"].isin(["optimal", "time_limit"]).all() else EXIT_SOLVER

@@ -1,6 +1,6 @@
 """Result tables: tidy DataFrames built from the solution arrays and the prepared network.
 
-Every table states its units in column names or in :data:`TABLE_DOCS`.
+Every table and column, with its unit, is declared in :mod:`netopt.data.results_schema`.
 """
 
 from __future__ import annotations
@@ -8,28 +8,13 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from netopt.data.results_schema import RESULT_TABLES
 from netopt.engine.inventory_report import inventory_kpis, pipeline_table, safety_stock_table
 from netopt.engine.mode_economics import mode_economics
 from netopt.network.arcs import Network
 
-TABLE_DOCS = {
-    "flows": "Units/yr per lane, mode and product, with per-flow costs (currency/yr), CO2e (kg/yr) and transit days",
-    "production": "Units/yr made per plant and product, against capacity",
-    "dcs": "Every DC: decision, chosen size, capacity, throughput (units/yr) and utilisation",
-    "supplier_shares": "Share of each receiving site's supplier inflow of a material taken by each supplier",
-    "mode_mix": "Units, tonnes, tonne-km, freight cost and CO2e by mode",
-    "service": "Per customer: demand, delivered, lost, share delivered within the service window",
-    "unmet": "Demand not served (units/yr) and its penalty value",
-    "cost": "Annual landed cost by component (currency/yr); rows sum to the total",
-    "kpis": "Headline indicators with units",
-    "safety_stock": "Per DC and product: throughput (units/yr), the model's piecewise-linear safety stock and the "
-    "exact formula for the customers served (units), approximation errors (ratio), cost (currency/yr)",
-    "pipeline": "In-transit stock per lane, mode and product by Little's law: units, value (currency), cost (currency/yr)",
-    "inventory_kpis": "Safety and in-transit stock per DC and for the network: value (currency), days of throughput, "
-    "turns per year (cycle stock not modelled)",
-    "mode_economics": "Every admissible mode of each used lane and product: cost per unit and per year if all went "
-    "by it, transit days, CO2e, the chosen mode and the cost of switching (currency/yr)",
-}
+TABLE_DOCS = {name: t.meaning for name, t in RESULT_TABLES.items()}
+"""Each result table's meaning, from the declared output schema (:mod:`netopt.data.results_schema`)."""
 
 EPS = 1e-7
 

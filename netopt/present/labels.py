@@ -1,4 +1,5 @@
-"""Words and number-kind hints shared by every output (files, workbook, terminal, report)."""
+"""Words shared by every output (files, workbook, terminal, report); labels and units are in
+:mod:`netopt.data.results_schema`."""
 
 DISCLAIMER = (
     "netopt results are decision support, not decisions. They are only as good as the input data "
@@ -6,7 +7,3 @@ DISCLAIMER = (
     "and labour rules (driving hours, site permits, works councils, consultation duties) are the "
     "user's to check locally before acting on any plan."
 )
-
-MONEY_HINTS = ("cost", "amount", "value", "penalty", "objective", "delta", "price")
-SHARE_HINTS = ("share", "utilisation", "pct", "gap")
-DAY_HINTS = ("days",)

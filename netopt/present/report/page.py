@@ -1,0 +1,383 @@
+"""The analyst's report: one self-contained HTML file with a network map, charts and tables.
+
+:func:`write_report` takes a :class:`~netopt.scenarios.ScenarioRun` (base and scenarios)
+or a single :class:`~netopt.engine.solve.Result` and writes ``report.html``: every chart is inline
+SVG drawn with matplotlib, the page is a Jinja2 template with its CSS inlined, and nothing
+is fetched from the network when the file is opened.  Money is in the case currency per
+year, volumes in units/yr or tonnes/yr, times in days.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+from datetime import datetime
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from netopt.data.results_schema import KPIS, result_table
+from netopt.present.formats import cell_text, kpi_kind, kpi_label, unit_text
+from netopt.present.labels import DISCLAIMER
+from netopt.present.report.charts import (
+    cost_bars_svg,
+    dc_utilisation_svg,
+    frontier_svg,
+    mode_mix_svg,
+    ranking_svg,
+    supplier_shares_svg,
+    transit_histogram_svg,
+    waterfall_svg,
+)
+from netopt.present.report.map import network_map_svg
+from netopt.present.report.style import mode_colours, short_number
+from netopt.present.report.tables import (
+    MAX_TABLE_ROWS,
+    comparison_table,
+    kpi_table,
+    money_tolerance,
+    service_class_table,
+    table,
+)
+
+KNOWN_EXTRA = {  # extra table name → section title and one line on what it shows
+    "frontier": ("Cost–CO2e frontier", "Least landed cost at each level of CO2e (or each carbon price)."),
+    "safety_stock": ("Safety stock", "Safety stock held at each DC and product (units) and its yearly cost."),
+    "spof": (
+        "Single points of failure",
+        "Each element taken out on its own, ranked by the yearly impact of "
+        "its loss (recovery cost plus lost demand value).",
+    ),
+    "spof_ranking": (
+        "Single points of failure",
+        "Each element taken out on its own, ranked by the yearly "
+        "impact of its loss (recovery cost plus lost demand value).",
+    ),
+    "exposure": (
+        "Time to survive and time to recover",
+        "Per node: how long the network lasts with it down (time to survive) against how long it takes to recover.",
+    ),
+    "pipeline": (
+        "Pipeline stock",
+        "Stock in transit per lane, mode and product (Little's law: units/yr × transit days ÷ 365).",
+    ),
+    "inventory_kpis": (
+        "Inventory indicators",
+        "Safety and pipeline stock per DC and for the network, in days of throughput and turns per year.",
+    ),
+    "mode_economics": (
+        "Mode economics",
+        "Every admissible mode of the busiest lanes: yearly cost and CO2e if the "
+        "lane's whole volume went by that mode, and the cost of switching to it.",
+    ),
+}
+KNOWN_COLUMNS = {  # extra table name → the columns worth showing on the page (all are in the workbook)
+    "safety_stock": [
+        "dc",
+        "product",
+        "throughput",
+        "customers_served",
+        "lead_days",
+        "ss_units_model",
+        "ss_units_exact",
+        "pwl_rel_error",
+        "cost_model",
+    ],
+    "spof": [
+        "rank",
+        "element",
+        "type",
+        "base_units",
+        "recovery_cost",
+        "lost_units",
+        "lost_value",
+        "impact",
+        "customers_affected",
+        "took_over",
+    ],
+    "exposure": ["rank", "node", "type", "ttr_days", "tts_days", "lost_units", "lost_value", "rei", "tts_below_ttr"],
+    "pipeline": [
+        "origin",
+        "destination",
+        "mode",
+        "product",
+        "quantity",
+        "transit_days",
+        "in_transit_units",
+        "in_transit_value",
+    ],
+    "inventory_kpis": [
+        "level",
+        "dc",
+        "throughput_units",
+        "safety_stock_units",
+        "safety_stock_value",
+        "pipeline_value",
+        "inventory_value",
+        "days_on_hand",
+        "days_incl_transit",
+        "turns",
+    ],
+    "mode_economics": [
+        "origin",
+        "destination",
+        "product",
+        "mode",
+        "chosen",
+        "share",
+        "transit_days",
+        "total_cost",
+        "co2_kg",
+        "switch_cost",
+        "cost_per_t_co2_saved",
+    ],
+}
+KNOWN_ORDER = {  # extra table name → (sort columns, ascending, rows shown): the largest first
+    "pipeline": (["in_transit_value"], [False], 25),
+    "mode_economics": (
+        ["quantity", "origin", "destination", "product", "total_cost"],
+        [False, True, True, True, True],
+        30,
+    ),
+}
+KNOWN_COLUMNS["spof_ranking"] = KNOWN_COLUMNS["spof"]
+STANDARD_TABLES = {"flows", "production", "dcs", "supplier_shares", "mode_mix", "service", "unmet", "cost", "kpis"}
+ASSETS = Path(__file__).resolve().parents[1] / "report_assets"
+
+
+# ----------------------------------------------------------------------------- page
+
+
+def _currency(result) -> str:
+    net = getattr(result, "network", None)
+    try:
+        return str(net.settings["case"]["currency"]) if net is not None else ""
+    except (KeyError, TypeError):
+        return ""
+
+
+def _status_class(status: str) -> str:
+    return "ok" if status == "optimal" else "warn" if status in ("time_limit", "gap_limit", "feasible") else "bad"
+
+
+TILES = (  # the indicators shown as tiles at the top, in order
+    "total_landed_cost",
+    "cost_per_unit_delivered",
+    "share_within_service_window",
+    "avg_transit_days_to_customer",
+    "dcs_open",
+    "co2e_tonnes",
+    "lost_demand",
+)
+
+
+def _kpi_tiles(result, currency: str) -> list[dict]:
+    """The headline tiles: each indicator's declared label, its value by its unit's kind, the unit."""
+    k = dict(zip(result.tables["kpis"]["kpi"], result.tables["kpis"]["value"]))
+    out = []
+    for key in TILES:
+        v = k.get(key)
+        if v is None:
+            continue
+        v, kind = float(v), kpi_kind(key)
+        text = short_number(v) if kind == "money" else cell_text(v, kind)
+        unit = KPIS[key].unit
+        out.append(
+            {
+                "label": kpi_label(key),
+                "value": text if np.isfinite(v) else "–",
+                "unit": "" if kind in ("share", "count") else unit_text(unit, currency).replace("t CO2e", "t"),
+                "cls": "bad" if key == "lost_demand" and v > 0.5 else "",
+            }
+        )
+    return out
+
+
+def _verification(result) -> dict:
+    v = result.verification
+    if v is None:
+        return {"text": "not checked", "cls": "warn"}
+    if v.passed:
+        return {"text": f"passed (largest violation {v.largest_violation:.1e})", "cls": "ok"}
+    return {"text": f"FAILED: {v.largest_violation_rule} off by {v.largest_violation:.3g}", "cls": "bad"}
+
+
+def _extra_sections(tables: dict[str, pd.DataFrame], currency: str) -> list[dict]:
+    """A titled section per extra table; frontiers and rankings also get a chart."""
+    out = []
+    for name, df in tables.items():
+        if not isinstance(df, pd.DataFrame):
+            continue
+        source = "frontier" if name.startswith("frontier") else name
+        declared = result_table(source)
+        title, note = KNOWN_EXTRA.get(
+            name, (name.replace("_", " ").capitalize(), declared.meaning + "." if declared is not None else "")
+        )
+        chart = frontier_svg(df, currency) if source == "frontier" else ranking_svg(df, currency)
+        cols = [c for c in KNOWN_COLUMNS.get(name, []) if c in df.columns]
+        trimmed = len(cols) >= 3 and len(cols) < len(df.columns)
+        shown = df[cols] if trimmed else df
+        max_rows = MAX_TABLE_ROWS
+        if name in KNOWN_ORDER and set(KNOWN_ORDER[name][0]) <= set(df.columns):
+            by, ascending, max_rows = KNOWN_ORDER[name]
+            shown = shown.loc[df.sort_values(by, ascending=ascending, kind="stable").index]
+            if len(df) > max_rows:
+                note = (note + " " if note else "") + f"The {max_rows} largest rows by {by[0].replace('_', ' ')}."
+        if trimmed:
+            note = (note + " " if note else "") + "A selection of the columns; every column is in results.xlsx."
+        out.append(
+            {
+                "id": "extra-" + re.sub(r"[^a-z0-9]+", "-", name.lower()).strip("-"),
+                "title": title,
+                "note": note,
+                "chart": chart,
+                "table": table(shown, source, tid=f"table-{name}", max_rows=max_rows),
+            }
+        )
+    return out
+
+
+def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, created: datetime | None = None) -> str:
+    """The report page as one HTML string (see :func:`write_report`)."""
+    import jinja2
+
+    if hasattr(run_or_result, "comparison"):
+        run, base = run_or_result, run_or_result.base
+    else:
+        run, base = None, run_or_result
+    currency = _currency(base)
+    created = created or datetime.now().astimezone()
+    ctx = {
+        "case": base.case_name,
+        "created": created.strftime("%Y-%m-%d %H:%M %Z").strip(),
+        "currency": currency,
+        "status": base.status,
+        "status_cls": _status_class(base.status),
+        "gap": f"{base.gap:.3%}" if base.gap is not None and np.isfinite(base.gap) else "–",
+        "verification": _verification(base) if base.has_solution else {"text": "no plan to check", "cls": "bad"},
+        "disclaimer": DISCLAIMER,
+        "has_solution": base.has_solution,
+        "message": "" if (base.message or "").strip().lower() in ("", base.status.lower(), "optimal") else base.message,
+        "css": (ASSETS / "report.css").read_text(encoding="utf-8"),
+        "n_scenarios": 0,
+        "sections": [],
+    }
+    if run is not None:
+        comp = run.comparison
+        ctx["n_scenarios"] = max(len(comp) - 1, 0)
+        ctx["n_checked"] = int(comp["verified"].fillna(False).astype(bool).sum()) if "verified" in comp else 0
+        ctx["n_rows"] = len(comp)
+    if base.has_solution:
+        t = base.tables
+        colours = mode_colours(t["mode_mix"]["mode"] if len(t["mode_mix"]) else [])
+        if run is not None:
+            labels = [lab for lab in run.comparison["scenario"] if lab in run.results and run.results[lab].has_solution]
+            for r in run.results.values():
+                if r.has_solution and len(r.tables["mode_mix"]):
+                    for m in r.tables["mode_mix"]["mode"]:
+                        colours.setdefault(m, mode_colours(list(colours) + [m])[m])
+            ctx["comparison"] = comparison_table(run.comparison)
+            ctx["comparison_tol"] = money_tolerance(run.comparison, run.comparison.iloc[0])
+            ctx["cost_bars"] = cost_bars_svg(
+                labels, [run.results[lab].cost for lab in labels], currency, tol=ctx["comparison_tol"]
+            )
+            desc = (
+                run.comparison[["scenario", "description", "resolve", "method"]].copy()
+                if {"description", "method"} <= set(run.comparison.columns)
+                else None
+            )
+            ctx["scenario_notes"] = (
+                table(desc, "comparison", tid="scenario-notes", max_rows=None) if desc is not None else None
+            )
+        ctx["kpis"] = _kpi_tiles(base, currency)
+        ctx["map"], ctx["map_caption"] = network_map_svg(base, colours)
+        ctx["waterfall"] = waterfall_svg(base.cost, currency)
+        cost = t["cost"].copy()
+        total = float(cost["amount"].sum())
+        cost["share"] = cost["amount"] / total if total else np.nan
+        cost = pd.concat(
+            [cost, pd.DataFrame([{"component": "total", "amount": total, "share": 1.0}])], ignore_index=True
+        )
+        cost["component"] = cost["component"].str.replace("_", " ")
+        ctx["cost_table"] = table(
+            cost,
+            "cost",
+            ["component", "amount", "share"],
+            tid="cost-table",
+            labels={"amount": f"{currency}/yr", "share": "share"},
+            kinds={"share": "share"},
+        )
+        ctx["transit"] = transit_histogram_svg(base)
+        last = t["flows"][t["flows"]["destination_kind"] == "customer"]
+        delivered = float(last["quantity"].sum())
+        ctx["within_share"] = (
+            float(last.loc[last["within_window"], "quantity"].sum()) / delivered if delivered > 0 else float("nan")
+        )
+        sv = t["service"]
+        missed = sv[~sv["target_met"].astype(bool)] if "target_met" in sv else sv.iloc[0:0]
+        ctx["service_classes"] = service_class_table(sv)
+        ctx["service_missed"] = table(
+            missed,
+            "service",
+            ["customer", "service_class", "target_share", "share_within_window", "demand", "unmet"],
+            tid="service-missed",
+        )
+        ctx["dc_chart"] = dc_utilisation_svg(base)
+        dcols = ["dc", "decision"]
+        if t["dcs"]["size"].astype(str).str.len().gt(0).any():
+            dcols.append("size")
+        dcols += ["capacity", "throughput", "utilisation", "fixed_cost"]
+        ctx["dc_table"] = table(t["dcs"], "dcs", dcols, tid="dc-table")
+        ctx["shares_chart"] = supplier_shares_svg(base)
+        ctx["mode_chart"] = mode_mix_svg(base, colours)
+        ctx["mode_table"] = table(
+            t["mode_mix"],
+            "mode_mix",
+            ["mode", "units", "tonnes", "tonne_km", "freight_cost", "co2_kg"],
+            tid="mode-table",
+        )
+        ctx["kpi_table"] = kpi_table(t["kpis"], currency)
+        if len(t["unmet"]):
+            ctx["unmet_table"] = table(t["unmet"], "unmet", tid="unmet-table")
+        optional = {k: v for k, v in t.items() if k not in STANDARD_TABLES}
+        optional.update(extra or {})
+        ctx["extras"] = _extra_sections(optional, currency)
+    elif base.diagnosis is not None:
+        ctx["diagnosis"] = table(base.diagnosis, "diagnosis", tid="diagnosis")
+    env = jinja2.Environment(
+        loader=jinja2.FileSystemLoader(ASSETS),
+        autoescape=jinja2.select_autoescape(["html", "j2"], default=True),
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+    env.filters["safe_svg"] = _safe_svg
+    return env.get_template("report.html.j2").render(**ctx)
+
+
+def _safe_svg(svg: str):
+    """Mark matplotlib's SVG as safe markup (text in it is XML-escaped by matplotlib)."""
+    from markupsafe import Markup
+
+    return Markup(svg or "")
+
+
+def write_report(run_or_result, path: str | Path, extra: dict[str, pd.DataFrame] | None = None) -> Path:
+    """Write the self-contained HTML report of a run (base and scenarios) or of one result.
+
+    Args:
+        run_or_result: a ScenarioRun or a Result.
+        path: the file to write (written beside as a temporary file, then renamed).
+        extra: more tables to show, each as a titled section (e.g. ``{"frontier": df, "spof": df}``);
+            a ``frontier`` table with cost and CO2 columns is also charted.
+    """
+    path = Path(path)
+    page = render_report(run_or_result, extra=extra)
+    tmp = path.with_name(f".{path.name}.tmp-{os.getpid()}")
+    tmp.write_text(page, encoding="utf-8")
+    os.replace(tmp, path)
+    return path
+
+
+__all__ = ["render_report", "write_report"]

@@ -1,0 +1,157 @@
+"""Terminal output of a solve, a run and a frontier: rich tables with the declared labels and units."""
+
+from __future__ import annotations
+
+import math
+import os
+import shutil
+import sys
+
+from netopt.data.results_schema import COMPARISON_VIEW, KPIS, label_of
+from netopt.present.formats import cell_text, column_kind, kpi_kind, kpi_label, unit_text
+
+
+def new_console():
+    """A rich console; as wide as the terminal, or $COLUMNS (at least 120) when writing to a pipe."""
+    from rich.console import Console
+
+    width = (
+        None
+        if sys.stdout.isatty()
+        else int(os.environ.get("COLUMNS", 0)) or max(120, shutil.get_terminal_size((120, 24)).columns)
+    )
+    return Console(highlight=False, width=width)
+
+
+def money_text(x) -> str:
+    """Money with thousands separators, no decimals; '–' when blank or infinite."""
+    if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
+        return "–"
+    return f"{x:,.0f}"
+
+
+def _currency(result) -> str:
+    try:
+        return str(result.network.settings["case"]["currency"])
+    except (AttributeError, KeyError, TypeError):
+        return ""
+
+
+def print_result(result, console=None) -> None:
+    """Readable terminal summary of one solve: status, cost breakdown, DCs, KPIs."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    con = console or new_console()
+    status = result.status + (
+        "" if result.status == "optimal" else "  (best plan found, not proven optimal)" if result.has_solution else ""
+    )
+    con.print(
+        f"[bold]{escape(result.case_name)}[/bold]: {status}; cost {money_text(result.objective)}, "
+        f"bound {money_text(result.bound)}, gap {result.gap:.4%}"
+        if result.has_solution and math.isfinite(result.gap)
+        else f"[bold]{escape(result.case_name)}[/bold]: {status}"
+    )
+    if result.diagnosis is not None:
+        t = Table(title="What cannot be met (elastic re-solve)")
+        for c in result.diagnosis.columns:
+            t.add_column(label_of("diagnosis", str(c)))
+        for row in result.diagnosis.itertuples(index=False):
+            t.add_row(*[f"{v:,.1f}" if isinstance(v, float) else escape(str(v)) for v in row])
+        con.print(t)
+        return
+    if not result.has_solution:
+        return
+    currency = _currency(result)
+    t = Table(title=f"Annual landed cost ({unit_text('currency/yr', currency)})")
+    t.add_column(label_of("cost", "component"))
+    t.add_column(label_of("cost", "amount"), justify="right")
+    t.add_column("share", justify="right")
+    total = sum(result.cost.values())
+    for k, v in result.cost.items():
+        if abs(v) > 0.5:
+            t.add_row(k.replace("_", " "), money_text(v), f"{v / total:.1%}" if total else "")
+    t.add_row("[bold]total[/bold]", f"[bold]{money_text(total)}[/bold]", "100%")
+    con.print(t)
+    d = result.tables["dcs"]
+    t = Table(title="DCs")
+    cols = ("dc", "status", "decision", "throughput", "utilisation")
+    for c in cols:
+        t.add_column(label_of("dcs", c), justify="right" if c in ("throughput", "utilisation") else "left")
+    for row in d[list(cols)].itertuples(index=False):
+        t.add_row(*[escape(cell_text(v, column_kind("dcs", c))) for v, c in zip(row, cols)])
+    con.print(t)
+    k = result.tables["kpis"]
+    t = Table(title="Key indicators")
+    t.add_column("indicator")
+    t.add_column("value", justify="right")
+    t.add_column("unit")
+    for row in k.itertuples(index=False):
+        kind = kpi_kind(row.kpi)
+        t.add_row(kpi_label(row.kpi), cell_text(row.value, kind), unit_text(_kpi_unit(row.kpi, row.unit), currency))
+    con.print(t)
+    v = result.verification
+    if v is not None:
+        con.print(
+            f"Independent check: {'[green]passed[/green]' if v.passed else '[red]FAILED[/red]'} — recomputed cost "
+            f"{money_text(v.recomputed_objective)}, largest violation {v.largest_violation:.2e} "
+            f"({v.largest_violation_rule})"
+        )
+
+
+def _kpi_unit(kpi: str, written: str) -> str:
+    """The declared unit of an indicator (the unit written in the table for an undeclared one)."""
+    k = KPIS.get(kpi)
+    return k.unit if k is not None else str(written)
+
+
+def print_comparison(comparison, console=None) -> None:
+    """The scenario comparison as a terminal table: the declared headline columns and labels."""
+    from rich.markup import escape
+    from rich.table import Table
+    from rich.text import Text
+
+    con = console or new_console()
+    cols = [c for c in COMPARISON_VIEW if c in comparison.columns]
+    t = Table(title="Scenario comparison (money per year; Δ = recovery cost for disruptions)")
+    rows = []
+    for row in comparison[cols].itertuples(index=False):
+        cells = []
+        for c, v in zip(cols, row):
+            kind = column_kind("comparison", c)
+            text = escape(cell_text(v, kind))
+            if kind == "flag" and isinstance(v, bool) and not v:
+                text = "[red]NO[/red]"
+            elif kind == "delta" and isinstance(v, float) and math.isfinite(v) and abs(v) > 0.5:
+                colour = "red" if v > 0 else "green"
+                text = f"[{colour}]{text}[/{colour}]"
+            cells.append(text)
+        rows.append(cells)
+    for j, c in enumerate(cols):
+        # Numbers are never cut short: their columns are as wide as their widest cell; names wrap instead.
+        text = column_kind("comparison", c) == "text"
+        widest = max((Text.from_markup(r[j]).cell_len for r in rows), default=0)
+        t.add_column(
+            label_of("comparison", c),
+            justify="left" if text else "right",
+            no_wrap=not text,
+            min_width=None if text else widest,
+            overflow="fold",
+        )
+    for cells in rows:
+        t.add_row(*cells)
+    con.print(t)
+
+
+def print_frontier(table, console=None) -> None:
+    """The cost–CO2 frontier as a terminal table (per year)."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    cols = [c for c in ("point", "co2_t", "total_cost", "cost_per_t_abated", "dcs_open", "mode_mix") if c in table]
+    t = Table(title="Cost–CO2 frontier (per year)")
+    for c in cols:
+        t.add_column(label_of("frontier", c), justify="left" if c == "mode_mix" else "right")
+    for row in table[cols].itertuples(index=False):
+        t.add_row(*[escape(cell_text(v, column_kind("frontier", c))) for v, c in zip(row, cols)])
+    (console or new_console()).print(t)
