@@ -16,7 +16,8 @@ from randcase import random_case
 
 from netopt.api import solve
 from netopt.data.frames import make_case
-from netopt.studies.exposure import base_stock, exposure, single_tier_exposure, time_to_recover
+from netopt.studies.exposure import base_stock, exposure, time_to_recover
+from netopt.studies.exposure_tier import single_tier_exposure
 
 # --------------------------------------------------------------------------- published worked example
 

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 import highspy
 import numpy as np
 from pyomo.repn.plugins.standard_form import LinearStandardFormCompiler
+from scipy import sparse
 
 from netopt.model.core import Builder
 
@@ -195,27 +196,7 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
         c = np.concatenate([c, np.zeros(n - len(c))])
     offset = float(info.c_offset[0]) if len(info.c_offset) else 0.0
 
-    lp = highspy.HighsLp()
-    lp.num_col_ = n
-    lp.num_row_ = A.shape[0]
-    lp.col_cost_ = c
-    lp.col_lower_ = lb
-    lp.col_upper_ = ub
-    lp.row_lower_ = row_lo
-    lp.row_upper_ = row_hi
-    lp.offset_ = offset
-    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
-    lp.a_matrix_.start_ = A.indptr.astype(np.int32)
-    lp.a_matrix_.index_ = A.indices.astype(np.int32)
-    lp.a_matrix_.value_ = A.data.astype(float)
-    if integ.any():
-        lp.integrality_ = [highspy.HighsVarType.kInteger if i else highspy.HighsVarType.kContinuous for i in integ]
-    h = _new_highs()
-    h.setOptionValue("output_flag", False)
-    h.setOptionValue("threads", 1)
-    for k, v in (options or {}).items():
-        h.setOptionValue(k, v)
-    h.passModel(lp)
+    h = pass_matrices(c, A, row_lo, row_hi, lb, ub, integrality=integ, offset=offset, options=options)
     t2 = time.perf_counter()
     row_of = {id(cd): k for k, (cd, _) in enumerate(info.rows)}
     return HighsModel(
@@ -249,3 +230,49 @@ def _attach_progress(h: highspy.Highs, progress) -> None:
         h.startCallback(highspy.cb.HighsCallbackType.kCallbackMipLogging)
     except Exception:  # older highspy without callbacks: no progress lines, solve unaffected
         pass
+
+
+def pass_matrices(
+    c: np.ndarray,
+    A,
+    row_lo: np.ndarray,
+    row_hi: np.ndarray,
+    col_lo: np.ndarray,
+    col_hi: np.ndarray,
+    *,
+    integrality: np.ndarray | None = None,
+    offset: float = 0.0,
+    options: dict | None = None,
+) -> highspy.Highs:
+    """The one hand-over to HiGHS: ``min c·x + offset`` s.t. ``row_lo ≤ A x ≤ row_hi``, column bounds.
+
+    ``A`` is any scipy sparse matrix; ±inf bounds become HiGHS's infinity.  A quiet,
+    single-thread instance (``options`` override).  Used by :func:`compile_model` and by
+    studies that state a small LP directly as matrices.
+    """
+    A = sparse.csc_matrix(A)
+    n = A.shape[1]
+    lp = highspy.HighsLp()
+    lp.num_col_ = n
+    lp.num_row_ = A.shape[0]
+    lp.col_cost_ = np.asarray(c, dtype=float)
+    lp.col_lower_ = np.where(np.isneginf(col_lo), -INF, np.asarray(col_lo, dtype=float))
+    lp.col_upper_ = np.where(np.isposinf(col_hi), INF, np.asarray(col_hi, dtype=float))
+    lp.row_lower_ = np.where(np.isneginf(row_lo), -INF, np.asarray(row_lo, dtype=float))
+    lp.row_upper_ = np.where(np.isposinf(row_hi), INF, np.asarray(row_hi, dtype=float))
+    lp.offset_ = float(offset)
+    lp.a_matrix_.format_ = highspy.MatrixFormat.kColwise
+    lp.a_matrix_.start_ = A.indptr.astype(np.int32)
+    lp.a_matrix_.index_ = A.indices.astype(np.int32)
+    lp.a_matrix_.value_ = A.data.astype(float)
+    if integrality is not None and np.any(integrality):
+        lp.integrality_ = [
+            highspy.HighsVarType.kInteger if i else highspy.HighsVarType.kContinuous for i in integrality
+        ]
+    h = _new_highs()
+    h.setOptionValue("output_flag", False)
+    h.setOptionValue("threads", 1)
+    for k, v in (options or {}).items():
+        h.setOptionValue(k, v)
+    h.passModel(lp)
+    return h
