@@ -1,6 +1,24 @@
 """The network MIP, one module per modelling concept.
 
-``build_model`` is the recipe: it reads top to bottom as the formulation.
+``build_model`` is the recipe: it reads top to bottom as the formulation.  Each module's ``add``
+states its rows in plain maths; ``docs/formulation.md`` gathers them on one page
+(``python -m netopt.model.formulation`` rewrites it from the docstrings).
+
+Sets and indices:
+
+| symbol | meaning | name in code |
+|---|---|---|
+| S, F, D, C | suppliers, plants, DCs, customers (one namespace of site codes) | tables ``suppliers``, ``plants``, ``dcs``, ``customers`` |
+| p, r | a product; a material (a product of kind material, used by plants) | table ``products`` |
+| m | a transport mode | table ``modes`` |
+| A, a = (i, j, m, p) | arcs: one flow variable per lane (origin i, destination j), mode and product, dominated modes pruned | ``Network.arcs`` (``netopt.network.arcs``) |
+| in(n,p), out(n,p), in(n) | arcs into / out of site n carrying p; into n carrying anything | arc columns ``origin``, ``destination``, ``product`` |
+| A_S, A_{→D}, A_C, A_{D→C} | arcs from a supplier, into a DC, into a customer, from a DC to a customer | arc columns ``origin_kind``, ``destination_kind`` |
+| O, O(d) | DC opening options (a DC, or one of its sizes); those of DC d | ``Network.options`` |
+| Q | demand rows (customer c, product p) with quantity > 0 | ``Network.demand`` |
+| W | (plant f, product p) pairs a plant can make | ``Network.make`` |
+
+Units: flows, production and throughput in units/yr, costs in currency/yr.
 """
 
 from __future__ import annotations

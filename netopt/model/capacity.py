@@ -17,6 +17,32 @@ from netopt.model.openings import option_terms
 
 
 def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> None:
+    """Capacities: supplier offers, DC throughput tied to the opening, lane-and-mode limits.
+
+    Rows marked † are never relaxed in the elastic diagnosis.
+
+        supplier_capacity:   Σ_{a ∈ out(s,p)} x_a ≤ U_{s,p}                          ∀ offer (s, p) with U_{s,p} < ∞
+        dc_throughput:       Σ_{a ∈ in(d)} x_a − Σ_{o ∈ O(d)} Ū_o y_o ≤ 0            ∀ DC d with an inbound arc
+        dc_customer_link †:  Σ_m x_{(d,c,m,p)} − q_{c,p} Σ_{o ∈ O(d)} y_o ≤ 0         ∀ (d, c, p) with a DC → customer arc (tight only)
+        lane_capacity:       Σ_p x_{(i,j,m,p)} ≤ L_{i,j,m}                            ∀ lane (i, j) and mode m with L_{i,j,m} < ∞
+
+        Ū_o = U_o if finite, else M = (Σ q) × (2 if any DC → DC arc, else 1) × big_m_factor
+
+        C[dc_handling] = Σ_{a ∈ A_{→D}} h_a x_a
+
+    ``dc_customer_link`` is valid for every integer solution (a DC that is closed delivers
+    nothing, and no customer takes more than its demand) and makes the LP bound far stronger
+    than ``dc_throughput`` alone; the "plain" formulation (benchmarks) leaves it out.
+
+    | symbol | meaning | unit | name in code |
+    |---|---|---|---|
+    | U_{s,p} | capacity of supplier s's offer of p | units/yr | ``suppliers.capacity`` |
+    | U_o | capacity of opening option o (∞ = unlimited) | units/yr | ``options.capacity`` |
+    | M | big M standing in for unlimited DC capacity | units/yr | ``Builder.dc_big_m`` |
+    | in(d) | arcs into DC d, every product | | arc column ``destination_kind`` = dc |
+    | L_{i,j,m} | capacity of a lane and mode shared by all products (∞ = none) | units/yr | arc column ``lane_capacity`` |
+    | A_{→D}, h_a | arcs into a DC; handling cost of the receiving DC | currency/unit | arc column ``handling_per_unit`` |
+    """
     net = b.net
     arcs = net.arcs
     flow_idx = np.arange(len(arcs))

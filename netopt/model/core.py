@@ -144,7 +144,25 @@ class Builder:
         self.cost_constant[component] = self.cost_constant.get(component, 0.0) + float(constant)
 
     def finish(self) -> None:
-        """Create the objective: total annual landed cost = Σ of every component."""
+        """Objective: minimise the total annual landed cost, the sum of every cost component.
+
+            min  Σ_{k ∈ K} C[k]
+
+        K is ``COST_COMPONENTS`` (``netopt.model``); each C[k] = Σ coef · variable + constant
+        (currency/yr) is added by the concept module that owns it (``add_cost``) and reported
+        separately.  In the elastic diagnosis (``build_model(elastic=True)``) each row r of a
+        family not marked † gets two slacks, and their penalty joins the objective:
+
+            Σ terms_r + σ⁺_r − σ⁻_r  (≤ | = | ≥)  rhs_r,    σ⁺_r = 0 on ≤ rows, σ⁻_r = 0 on ≥ rows
+
+            C[elastic_slack] = P Σ_r (σ⁺_r + σ⁻_r)
+
+        | symbol | meaning | unit | name in code |
+        |---|---|---|---|
+        | C[k] | cost component k | currency/yr | ``Builder.cost[k]``, ``Builder.cost_constant[k]`` |
+        | σ⁺_r, σ⁻_r | slack raising / lowering the left side of row r | the row's unit | variable blocks ``slack_lo__<family>``, ``slack_hi__<family>`` |
+        | P | penalty per unit of slack (and of unmet demand) in the diagnosis | currency/unit | ``Builder.elastic_penalty`` |
+        """
         coefs: list[float] = []
         vs: list = []
         for terms in self.cost.values():

@@ -15,6 +15,36 @@ from netopt.model.core import Builder, Term, group_index, lookup
 
 
 def add(b: Builder) -> None:
+    """Flows and balances: demand met or lost, conservation at DCs, plant output and materials.
+
+    Rows marked † are never relaxed in the elastic diagnosis.
+
+        demand_met †:       Σ_{a ∈ in(c,p)} x_a + u_{c,p} = q_{c,p}                 ∀ (c, p) ∈ Q
+        dc_balance †:       Σ_{a ∈ in(d,p)} x_a − Σ_{a ∈ out(d,p)} x_a = 0          ∀ DC d, product p with an arc into or out of d
+        plant_output †:     Σ_{a ∈ out(f,p)} x_a − w_{f,p} = 0                      ∀ (f, p) ∈ W
+        plant_materials †:  Σ_{a ∈ in(f,r)} x_a − Σ_p β_{p,r} w_{f,p} = 0           ∀ plant f, material r of a product f makes
+
+        0 ≤ x_a ≤ u_a,   0 ≤ w_{f,p} ≤ W_{f,p},   0 ≤ u_{c,p} ≤ q_{c,p}
+
+        C[production]    = Σ_{(f,p) ∈ W} c_{f,p} w_{f,p}
+        C[unmet_penalty] = Σ_{(c,p) ∈ Q} π_{c,p} u_{c,p}
+
+    u_{c,p} exists only when ``policy.allow_unmet_demand`` is on (or in the elastic diagnosis,
+    where π is the elastic penalty P); otherwise demand is met in full.
+
+    | symbol | meaning | unit | name in code |
+    |---|---|---|---|
+    | x_a | flow on arc a | units/yr | variable block ``flow`` |
+    | u_a | capacity of a product-specific lane row (∞ otherwise) | units/yr | arc column ``capacity`` |
+    | in(n,p), out(n,p) | arcs into / out of site n carrying product p | | arc columns ``destination``, ``origin``, ``product`` |
+    | Q, q_{c,p} | demand rows with quantity > 0, their quantity | units/yr | ``net.demand``, column ``quantity`` |
+    | u_{c,p} | demand of (c, p) not delivered | units/yr | variable block ``unmet`` |
+    | π_{c,p} | penalty per unit not delivered | currency/unit | ``demand.penalty`` |
+    | W, w_{f,p} | (plant, product) pairs; units made | units/yr | ``net.make``; variable block ``make`` |
+    | W_{f,p} | production capacity | units/yr | ``make.capacity`` |
+    | c_{f,p} | conversion cost per unit made | currency/unit | ``make.unit_cost`` |
+    | β_{p,r} | units of material r per unit of product p | units/unit | ``bom.quantity_per_unit`` |
+    """
     net = b.net
     arcs = net.arcs
     b.add_vars("flow", arcs[["origin", "destination", "mode", "product"]], ub=arcs["capacity"].to_numpy(float))

@@ -14,6 +14,30 @@ from netopt.model.core import Builder, Term, group_index
 
 
 def add(b: Builder, fixed_open: np.ndarray | None = None) -> None:
+    """Openings: which DCs are open, and at which size.
+
+    One binary per opening option o (a DC with rows in ``dc_sizes`` has one option per size,
+    any other DC one option).  y_o = 0 when the DC is forced closed; y_o = 1 when it is forced
+    open and has one option; a held network fixes every y_o (``fixed_open``) and drops the
+    rows marked "not held".
+
+        one_size_per_dc:  Σ_{o ∈ O(d)} y_o ≤ 1        ∀ DC d with |O(d)| ≥ 2
+        forced_open_dc:   Σ_{o ∈ O(d)} y_o ≥ 1        ∀ DC d forced open with |O(d)| ≥ 2 (not held)
+        min_open_dcs:     Σ_{o ∈ O} y_o ≥ N_min        when N_min > 0 (not held)
+        max_open_dcs:     Σ_{o ∈ O} y_o ≤ N_max        when N_max ≥ 0 (not held)
+
+        C[dc_fixed]   = Σ_{o ∈ O} F_o y_o
+        C[dc_closing] = Σ_{d ∈ D_exist} K_d (1 − Σ_{o ∈ O(d)} y_o)
+
+    | symbol | meaning | unit | name in code |
+    |---|---|---|---|
+    | O, O(d) | opening options, those of DC d | | ``net.options`` rows, column ``dc`` |
+    | y_o | option o chosen (DC open at that size) | binary | variable block ``open`` |
+    | N_min, N_max | least and most options open (−1 = no limit) | DCs | settings ``policy.min_open_dcs``, ``policy.max_open_dcs`` |
+    | F_o | fixed cost of option o | currency/yr | ``options.fixed_cost`` |
+    | D_exist | DCs with status existing | | ``options.status`` |
+    | K_d | cost of closing existing DC d | currency/yr | ``options.closing_cost`` |
+    """
     o = b.net.options
     n = len(o)
     lb = np.zeros(n)

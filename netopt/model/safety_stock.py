@@ -47,7 +47,41 @@ __all__ = [
 
 
 def add(b: Builder) -> None:
-    """Variables ``ss_seg`` (units/yr per segment), binaries ``ss_fill``; cost ``safety_stock``."""
+    """Safety stock at DCs: a concave piecewise-linear cost of each DC's deliveries (incremental formulation).
+
+    Only with ``inventory.safety_stock``.  One curve per (DC d, finished product p) that d can
+    deliver to customers (see :mod:`netopt.model.safety_stock_curve`):
+    SS(T) = z √(L α T / 365 + T² σ_L² / 365²) units at throughput T, interpolated between
+    breakpoints b_0 = 0 < b_1 < … < b_K, segment widths Δ_k = b_{k+1} − b_k.  Concave costs need
+    binaries to be minimised: segment k+1 may carry throughput only once segment k is full.
+    Rows marked † are never relaxed in the elastic diagnosis.
+
+        ss_throughput †:  Σ_k s_{d,p,k} − Σ_{a ∈ A_{D→C}(d,p)} x_a = 0          ∀ curve (d, p)
+        ss_open_link †:   s_{d,p,0} − Δ_{d,p,0} Σ_{o ∈ O(d)} y_o ≤ 0             ∀ curve (d, p)
+        ss_fill_full †:   s_{d,p,k} − Δ_{d,p,k} f_{d,p,k} ≥ 0                    ∀ curve (d, p), k = 0 … K−2
+        ss_fill_next †:   s_{d,p,k+1} − Δ_{d,p,k+1} f_{d,p,k} ≤ 0                ∀ curve (d, p), k = 0 … K−2
+
+        0 ≤ s_{d,p,k} ≤ Δ_{d,p,k}
+
+        C[safety_stock] = Σ_{d,p,k} g_{d,p,k} s_{d,p,k},   g_k = (SS(b_{k+1}) − SS(b_k)) / Δ_k × v_p η_p
+
+    A held network (hold-the-network re-solves) has none of these rows: it prices each curve
+    on the line through the segment that holds the base throughput T⁰ (``held_lines``):
+    C[safety_stock] = Σ_{d,p} v_p η_p (I_{d,p} Σ_{o ∈ O(d)} y_o + S_{d,p} Σ_{a ∈ A_{D→C}(d,p)} x_a).
+
+    | symbol | meaning | unit | name in code |
+    |---|---|---|---|
+    | A_{D→C}(d,p) | arcs from DC d to customers carrying p | | arc columns ``origin_kind`` = dc, ``destination_kind`` = customer |
+    | s_{d,p,k} | throughput on segment k of the curve | units/yr | variable block ``ss_seg`` |
+    | f_{d,p,k} | segment k is full, so k+1 may be used | binary | variable block ``ss_fill`` |
+    | b_k, Δ_{d,p,k} | breakpoints; segment width | units/yr | ``segment_table``: ``start``, ``width`` |
+    | g_{d,p,k} | holding cost per unit of throughput on segment k | currency/yr per unit/yr | ``segment_table``: ``cost_per_unit`` |
+    | z | safety factor Φ⁻¹(cycle service level) | | setting ``inventory.cycle_service_level`` |
+    | L, σ_L | lead time of the fastest inbound lane, its standard deviation | days | arc column ``transit_days``; ``suppliers.lead_time_sd_days`` |
+    | α | variance per unit of demand of the customers d can reach | units/yr | ``curves``: ``alpha`` (``demand.demand_cv``) |
+    | v_p η_p | holding cost of one unit for a year | currency/unit/yr | ``curves``: ``unit_holding`` |
+    | I_{d,p}, S_{d,p} | intercept and slope of the held line | units, units per unit/yr | ``held_lines``: ``intercept``, ``slope`` |
+    """
     net = b.net
     if not bool(net.settings["inventory"]["safety_stock"]):
         return

@@ -17,6 +17,27 @@ from netopt.model.openings import option_terms
 
 
 def add(b: Builder) -> None:
+    """Service: share delivered within each customer's window; single sourcing.
+
+    A_C(c) are the last-leg arcs into customer c (from a DC or a plant, every mode and
+    product); A_C(i,c,p) those from origin i carrying p.  With lost demand allowed (or in the
+    elastic diagnosis) the single-sourcing equalities become ≤ (one origin may deliver part of
+    the demand, the rest is lost at the penalty).  The row marked † is never relaxed in the
+    elastic diagnosis.
+
+        service_window:        Σ_{a ∈ A_C(c)} (ω_a − τ_c) x_a ≥ 0                   ∀ customer c with τ_c > 0
+        single_source_flow:    Σ_{a ∈ A_C(i,c,p)} x_a − q_{c,p} v_{i,c,p} = 0         ∀ (i, c, p) with a last-leg arc
+        single_source_choice:  Σ_i v_{i,c,p} = 1                                       ∀ (c, p) with a candidate origin
+        single_source_open †:  v_{i,c,p} − Σ_{o ∈ O(i)} y_o ≤ 0                        ∀ (i, c, p) with i a DC
+
+    The single-sourcing rows and binaries exist only with ``policy.single_sourcing``.
+
+    | symbol | meaning | unit | name in code |
+    |---|---|---|---|
+    | τ_c | least share of c's deliveries within its window | share | ``customers.target_share`` (service class or ``policy.service_target_share``) |
+    | ω_a | 1 if the arc's transit days ≤ the customer's window, else 0 | 0/1 | arc column ``within_window`` (``customers.max_days``) |
+    | v_{i,c,p} | customer c gets product p from origin i | binary | variable block ``assign`` |
+    """
     net = b.net
     arcs = net.arcs
     cust = net.customers

@@ -21,7 +21,7 @@ def _share_rows(b: Builder, name: str, si: np.ndarray, by: list[str], share: flo
     """Σ flow of each group (site, product, *by) − share × Σ flow of (site, product) ≤ 0."""
     arcs = b.net.arcs.iloc[si]
     groups, g = group_index(arcs, ["destination", "product"] + by)
-    sites, s_of_arc = group_index(arcs, ["destination", "product"])
+    _sites, s_of_arc = group_index(arcs, ["destination", "product"])
     # Every group row also carries −share × every arc of its site/product.
     g_site = pd.Series(s_of_arc).groupby(g).first().to_numpy(int)
     arc_tab = pd.DataFrame({"site": s_of_arc, "arc": si})
@@ -41,6 +41,36 @@ def _share_rows(b: Builder, name: str, si: np.ndarray, by: list[str], share: flo
 
 
 def add(b: Builder) -> None:
+    """Sourcing: purchase cost, supplier and region shares, least number of active suppliers.
+
+    A_S(j,p) are the arcs from suppliers into site j (plant or DC) carrying p, A_S(j,p,s) those
+    from supplier s, A_S(j,p,R) those from suppliers of region R.  Share rows exist only when
+    the share is below 1; the active-supplier rows only when k ≥ 2.
+
+        max_supplier_share:         Σ_{a ∈ A_S(j,p,s)} x_a − σ Σ_{a ∈ A_S(j,p)} x_a ≤ 0                 ∀ (j, p, s)
+        max_region_share:           Σ_{a ∈ A_S(j,p,R)} x_a − ρ Σ_{a ∈ A_S(j,p)} x_a ≤ 0                 ∀ (j, p, R)
+        active_supplier_link:       Σ_{a ∈ A_S(j,p,s)} x_a − M_{j,p,s} z_{j,p,s} ≤ 0                    ∀ (j, p, s)
+        active_supplier_min_share:  Σ_{a ∈ A_S(j,p,s)} x_a − μ Σ_{a ∈ A_S(j,p)} x_a − N_p z_{j,p,s} ≥ −N_p  ∀ (j, p, s)
+        min_active_suppliers:       Σ_s z_{j,p,s} ≥ min(k, n_{j,p})                                      ∀ (j, p)
+
+        M_{j,p,s} = min(U_{s,p}, N_p)
+
+        C[supply] = Σ_{a ∈ A_S} c^sup_a x_a
+
+    So an active supplier (z = 1) delivers at least μ of the site's supplier inflow, and an
+    inactive one nothing.
+
+    | symbol | meaning | unit | name in code |
+    |---|---|---|---|
+    | σ | most one supplier may provide of a site's supplier inflow | share | setting ``policy.max_supplier_share`` |
+    | ρ | most one supplier region may provide | share | setting ``policy.max_region_share``; ``suppliers.region`` |
+    | k | least number of active suppliers per site and product | suppliers | setting ``policy.min_active_suppliers`` |
+    | μ | least share of an active supplier | share | setting ``policy.min_share_when_active`` |
+    | z_{j,p,s} | supplier s active for site j and product p | binary | variable block ``supplier_active`` |
+    | n_{j,p} | suppliers with an arc into j for p | suppliers | |
+    | N_p | bound on a site's inflow of p: its demand plus its use in every bill of materials (≥ 1) | units/yr | ``_site_need_bound`` |
+    | c^sup_a | purchase price of the supplier's offer | currency/unit | arc column ``supply_per_unit`` |
+    """
     net = b.net
     arcs = net.arcs
     pol = net.settings["policy"]

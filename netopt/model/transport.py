@@ -17,6 +17,30 @@ from netopt.model.core import Builder, Term, group_index
 
 
 def add(b: Builder) -> None:
+    """Transport: freight and carbon cost, one mode per lane, CO2e cap.
+
+    The rows of one mode per lane exist only with ``policy.one_mode_per_lane``, for lanes that
+    have two or more modes; the cap only when E ≥ 0.  The row marked † is never relaxed in the
+    elastic diagnosis.
+
+        mode_on_link †:     Σ_p x_{(i,j,m,p)} − M_{i,j,m} λ_{i,j,m} ≤ 0      ∀ lane (i, j), mode m
+        one_mode_per_lane:  Σ_m λ_{i,j,m} ≤ 1                                ∀ lane (i, j)
+        co2_cap:            Σ_{a ∈ A} (e_a / 1000) x_a ≤ E
+
+        M_{i,j,m} = min(L_{i,j,m}, max(1, B_j)),   B_j = Σ_p q_{j,p} if j is a customer,
+                                                    else max(Σ q, Σ_{p,r} β_{p,r} Σ_c q_{c,p})
+
+        C[transport] = Σ_{a ∈ A} c^fr_a x_a
+        C[carbon]    = Σ_{a ∈ A} c^co2_a x_a
+
+    | symbol | meaning | unit | name in code |
+    |---|---|---|---|
+    | c^fr_a | freight: weight × km × rate + fixed per unit, or the lane's cost per unit | currency/unit | arc column ``freight_per_unit`` |
+    | e_a | CO2e: weight × km × mode factor | kg CO2e/unit | arc column ``co2_kg_per_unit`` |
+    | c^co2_a | e_a / 1000 × carbon price | currency/unit | arc column ``carbon_per_unit`` (``policy.carbon_price_per_tonne``) |
+    | E | cap on transport CO2e | t CO2e/yr | setting ``policy.co2_cap_tonnes`` |
+    | λ_{i,j,m} | mode m used on lane (i, j) | binary | variable block ``mode_on`` |
+    """
     net = b.net
     arcs = net.arcs
     idx = np.arange(len(arcs))
