@@ -96,7 +96,7 @@ def size_spec(size: str | dict) -> dict[str, int]:
         if spec[k] < 1:
             raise ValueError(f"size needs at least one of {k}")
     spec.setdefault("materials", spec["products"])
-    spec.setdefault("metros", max(2, int(round(np.sqrt(spec["customers"]) / 2))))
+    spec.setdefault("metros", max(2, round(np.sqrt(spec["customers"]) / 2)))
     spec["metros"] = max(1, min(spec["metros"], spec["dcs"]))
     return spec
 
@@ -216,7 +216,7 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
     limit = float(np.ceil(limit))
 
     # ---- service: window 1.5 days; target only where some mode can meet it from a DC within the limit
-    modes = [m for m in _MODES[: spec["modes"]]]
+    modes = list(_MODES[: spec["modes"]])
     last_mile = [m for m in modes if "dc-customer" in m[7]]
     reach = max((SERVICE_WINDOW_DAYS - m[4]) * m[3] for m in last_mile)  # road km within the window
     can_meet = road_sorted[:, 0] <= min(reach, limit)

@@ -38,13 +38,12 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 from generator import synthetic_case
 
 from netopt.api import solve
+from netopt.engine.held import HeldNetwork
 from netopt.network.lanes import build_lanes
 from netopt.studies.changes import element_changes
 from netopt.studies.resilience import hold_resolve, run_sweep, sweep_elements
-from netopt.studies.sweep_worker import held_case, make_spec, worker_state
-from netopt.engine.held import HeldNetwork
-from netopt.studies.changes import resolve_held
 from netopt.studies.scenarios import Scenario, apply_changes
+from netopt.studies.sweep_worker import held_case, make_spec, worker_state
 
 
 def sample_elements(case, base, n: int, seed: int) -> pd.DataFrame:
@@ -169,12 +168,12 @@ def main(argv: list[str] | None = None) -> dict:
         stamps: list[float] = []
         cpu: list[float] = []
 
-        def seen(row):
+        def seen(row, stamps=stamps, cpu=cpu):
             stamps.append(time.perf_counter())
             cpu.append(row["cpu_seconds"])
 
         t0 = time.perf_counter()
-        table, info = run_sweep(case, base, workers=n, progress=False, elements=ids, rules="hard", on_row=seen)
+        _table, info = run_sweep(case, base, workers=n, progress=False, elements=ids, rules="hard", on_row=seen)
         wall = time.perf_counter() - t0
         window = stamps[-1] - stamps[0] if len(stamps) > 1 else float("nan")
         # Share of a CPU each worker got while tasks ran (1.0 = a core of its own): the CPU time of the

@@ -184,7 +184,7 @@ def _pick_scenarios(base, n: int) -> list[tuple[str, list[dict]]]:
     lane_cands = []
     seen_c: set[str] = set()
     targets = net.customers.set_index("customer")["target_share"]
-    for o, d, f in zip(used["origin"], used["destination"], used["flow"]):
+    for o, d in zip(used["origin"], used["destination"]):
         if d in seen_c:
             continue
         pool = window if float(targets.get(d, 0.0)) > 0 else ok_arc
@@ -251,8 +251,8 @@ def worker_resolves(
     from benchmarks.generator import synthetic_case
     from netopt.api import solve
     from netopt.engine.held import HeldNetwork
-from netopt.studies.changes import resolve_held
-from netopt.studies.scenarios import Scenario, apply_changes
+    from netopt.studies.changes import resolve_held
+    from netopt.studies.scenarios import Scenario, apply_changes
 
     case = synthetic_case(size, seed, safety_stock=safety_stock)
     t0 = time.perf_counter()
@@ -643,7 +643,7 @@ def _md_table(header: list[str], rows: list[list[str]]) -> str:
 
 def _text_table(header: list[str], rows: list[list[str]]) -> str:
     widths = [max(len(h), *(len(r[i]) for r in rows)) if rows else len(h) for i, h in enumerate(header)]
-    fmt = "  ".join("{:<%d}" % w for w in widths)
+    fmt = "  ".join(f"{{:<{w}}}" for w in widths)
     return "\n".join([fmt.format(*header), fmt.format(*["-" * w for w in widths])] + [fmt.format(*r) for r in rows])
 
 
@@ -848,7 +848,7 @@ def main(argv: list[str] | None = None) -> int:
             "finished": finished,
             "time_limit": args.time_limit,
             "safety_stock": args.safety_stock,
-            "solves": [v for v in results.values()],
+            "solves": list(results.values()),
             "resolves": resolves,
         }
         _write_atomic(Path(args.json), json.dumps(raw, indent=1, default=_json_default))

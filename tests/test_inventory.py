@@ -6,6 +6,7 @@ Sources are named beside each check (see /work/shared/notes/trade-facts.md §4 a
 
 from __future__ import annotations
 
+import itertools
 import math
 from pathlib import Path
 
@@ -104,7 +105,7 @@ def test_reported_error_matches_scipy_maximisation_with_lead_time_spread():
     f = lambda t: float(ss_units(t, alpha, L, sdl, z))  # noqa: E731
     vals = ss_units(bp, alpha, L, sdl, z)
     worst = 0.0
-    for a, b in zip(bp[1:-1], bp[2:]):
+    for a, b in itertools.pairwise(bp[1:]):
         gap = lambda t, a=a, b=b: -(f(t) - np.interp(t, bp, vals)) / f(t)  # noqa: E731
         res = minimize_scalar(gap, bounds=(a, b), method="bounded", options={"xatol": 1e-6 * a})
         worst = max(worst, -res.fun)

@@ -146,9 +146,9 @@ def networkx_cost(g: dict, open_dcs: set[str]) -> float | None:
     for (d, c), (cost, cap) in g["dc"].items():
         if d in open_dcs:
             G.add_edge(("out", d), ("c", c), weight=cost, **({} if cap is None else {"capacity": cap}))
-    for (p, c), (cost, cap) in g["pc"].items():
+    for (p, c), (cost, _cap) in g["pc"].items():
         G.add_edge(("p", p), ("c", c), weight=cost)
-    for (a, b), (cost, cap) in g.get("dd", {}).items():  # DC→DC transfer: out of a, into b (handled again)
+    for (a, b), (cost, _cap) in g.get("dd", {}).items():  # DC→DC transfer: out of a, into b (handled again)
         if a in open_dcs and b in open_dcs:
             G.add_edge(("out", a), ("in", b), weight=cost)
     try:
