@@ -5,6 +5,7 @@ from __future__ import annotations
 import copy
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import pandas as pd
 
@@ -56,12 +57,13 @@ class Case:
     ``tables`` maps table name → DataFrame whose index is the row number the user sees
     (CSV line or sheet row); optional tables that were not given are empty DataFrames
     with the declared columns.  ``settings`` is ``{section: {name: value}}`` with every
-    default filled in.  ``scenarios`` holds the raw scenario definitions (if any).
+    default filled in and each value coerced to its declared type (number, text, bool or
+    list, so typed ``Any``).  ``scenarios`` holds the raw scenario definitions (if any).
     """
 
     name: str
     tables: dict[str, pd.DataFrame]
-    settings: dict[str, dict[str, object]]
+    settings: dict[str, dict[str, Any]]
     path: Path | None = None
     scenarios: list[dict] = field(default_factory=list)
     warnings: list[Problem] = field(default_factory=list)
@@ -75,7 +77,7 @@ class Case:
             return tables[item]
         raise AttributeError(item)
 
-    def setting(self, section: str, name: str):
+    def setting(self, section: str, name: str) -> Any:
         return self.settings[section][name]
 
     def copy(self) -> Case:

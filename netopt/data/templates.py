@@ -103,7 +103,7 @@ def schema_markdown() -> str:
             default = "" if c.default is None else ("no limit" if c.default == INF else str(c.default))
             if c.type == "bool" and c.default is not None:
                 default = "true" if c.default else "false"
-            elif c.type in ("float", "int") and c.default is not None and c.default != INF:
+            elif c.type in ("float", "int") and isinstance(c.default, int | float) and c.default != INF:
                 default = format_number(c.default)
             allowed = _range(c)
             if c.choices:

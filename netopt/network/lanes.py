@@ -105,14 +105,17 @@ def _leg_masks(case: Case, sites: dict[str, pd.DataFrame]) -> dict[str, np.ndarr
     needs = _incidence(needs_pairs, "site", "product", p_codes, universe)
     makes = _incidence(plt, "site", "product", p_codes, universe)
     wants = _incidence(dem, "site", "product", c_codes, universe)
-    sells_finished = _incidence(sup[sup["product"].isin(finished)], "site", "product", s_codes, universe).any(axis=1)
+    sells_finished = np.asarray(
+        _incidence(sup[sup["product"].isin(finished)], "site", "product", s_codes, universe).any(axis=1)
+    )
+    wanted = np.asarray(wants.any(axis=1))
 
     return {
         "supplier-plant": (offers.astype(np.int64) @ needs.T.astype(np.int64)) > 0,
         "supplier-dc": np.repeat(sells_finished[:, None], len(d_codes), axis=1),
         "plant-dc": np.ones((len(p_codes), len(d_codes)), dtype=bool),
         "plant-customer": (makes.astype(np.int64) @ wants.T.astype(np.int64)) > 0,
-        "dc-customer": np.repeat(wants.any(axis=1)[None, :], len(d_codes), axis=0),
+        "dc-customer": np.repeat(wanted[None, :], len(d_codes), axis=0),
         "dc-dc": ~np.eye(len(d_codes), dtype=bool),
     }
 
@@ -377,7 +380,7 @@ def _explicit_rows(
                 )
             )
             bad = True
-        if bad:
+        if bad or ok is None or dk is None:  # (ok and dk are known once bad is False)
             continue
         available = r["available"]
         rows.append(
