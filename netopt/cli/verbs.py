@@ -17,9 +17,9 @@ from netopt.data.io import load_case
 from netopt.engine.solve import solve
 from netopt.present.files import _jsonable, atomic_folder, write_result_files, write_run, write_workbook
 from netopt.present.report import write_report
+from netopt.present.stress import stress_command
 from netopt.present.terminal import money_text, print_comparison, print_frontier, print_result
 from netopt.studies.frontier import frontier
-from netopt.studies.resilience import stress_command
 from netopt.studies.scenarios import parse_scenarios, run_scenarios
 
 SOLVER_OPTIONS = argparse.ArgumentParser(add_help=False)

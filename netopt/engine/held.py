@@ -210,9 +210,8 @@ class HeldNetwork:
                 len(ci), ci, np.array([plan.cols[c][0] for c in ci]), np.array([plan.cols[c][1] for c in ci])
             )
         if len(ri):
-            h.changeRowsBounds(
-                len(ri), ri, np.array([plan.rows[r][0] for r in ri]), np.array([plan.rows[r][1] for r in ri])
-            )
+            lo, hi = np.array([plan.rows[r][0] for r in ri]), np.array([plan.rows[r][1] for r in ri])
+            h.changeRowsBounds(len(ri), ri, lo, hi)  # type: ignore[attr-defined]  # in highspy, not in its stubs
         try:
             if basis is not None:
                 h.setBasis(basis)
@@ -223,7 +222,7 @@ class HeldNetwork:
             if len(ci):
                 h.changeColsBounds(len(ci), ci, self.col_lo[ci], self.col_hi[ci])
             if len(ri):
-                h.changeRowsBounds(len(ri), ri, self.row_lo[ri], self.row_hi[ri])
+                h.changeRowsBounds(len(ri), ri, self.row_lo[ri], self.row_hi[ri])  # type: ignore[attr-defined]
         return info, values, x
 
     def held_open(self, plan: BoundPlan) -> dict[str, bool]:

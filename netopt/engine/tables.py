@@ -59,7 +59,7 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
     """Every result table from the solution (``block → array``) and cost components."""
     flow = values["flow"]
     flows = flows_table(net, flow)
-    arcs = net.arcs
+
     t: dict[str, pd.DataFrame] = {"flows": flows}
 
     make = net.make.copy()
@@ -134,7 +134,7 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
 
     # Service per customer.
     dem = net.demand.copy()
-    dem["unmet"] = values["unmet"] if "unmet" in values else 0.0
+    dem["unmet"] = values.get("unmet", 0.0)
     last = flows[flows["destination_kind"] == "customer"]
     by_c = last.groupby("destination").agg(delivered=("quantity", "sum"))
     win = last[last["within_window"]].groupby("destination")["quantity"].sum()

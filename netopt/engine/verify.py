@@ -351,13 +351,13 @@ def verify(
 
 def flows_possible_suppliers(lanes: pd.DataFrame, sup: pd.DataFrame) -> pd.Series:
     """Number of suppliers with a lane to each (site, product) — for min-active checks."""
-    l = lanes[lanes["origin_kind"] == "supplier"][["origin", "destination", "product"]]
+    sl = lanes[lanes["origin_kind"] == "supplier"][["origin", "destination", "product"]]
     gen = (
-        l[l["product"] == ""]
+        sl[sl["product"] == ""]
         .drop(columns="product")
         .merge(sup[["supplier", "product"]].rename(columns={"supplier": "origin"}), on="origin")
     )
-    allp = pd.concat([gen, l[l["product"] != ""]]).drop_duplicates()
+    allp = pd.concat([gen, sl[sl["product"] != ""]]).drop_duplicates()
     return allp.groupby(["destination", "product"])["origin"].nunique()
 
 
@@ -448,7 +448,11 @@ def recompute_cost(
     fixed = 0.0
     for d, o, size in zip(dcs["dc"], dcs["open"], dcs["size"]):
         if o:
-            fixed += float(sizes.loc[(d, size), "fixed_cost"]) if size else float(base.loc[d, "fixed_cost"])
+            fixed += (
+                float(sizes.loc[(d, size), "fixed_cost"])
+                if size and sizes is not None
+                else float(base.loc[d, "fixed_cost"])
+            )
     closing = float(
         base.loc[dcs.loc[~dcs["open"].to_numpy(bool), "dc"]].query("status == 'existing'")["closing_cost"].sum()
     )

@@ -36,7 +36,7 @@ import pandas as pd
 
 from netopt.data.case import Case
 from netopt.engine.extract import extract
-from netopt.engine.highs import compile_model
+from netopt.engine.highs import SolveInfo, compile_model
 from netopt.model import build_model
 from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
 from netopt.network.arcs import build_network
@@ -109,7 +109,7 @@ def sweep(
             h.setSolution(sol)
         return hm.solve(time_limit=time_limit, mip_gap=mip_gap)
 
-    results: list[tuple[float, object, np.ndarray | None]] = []  # (cap, info, x)
+    results: list[tuple[float, SolveInfo, np.ndarray | None]] = []  # (cap, info, x)
 
     # 1. Cost-optimal under the case's own rules.
     set_cap(case_cap)
@@ -154,8 +154,10 @@ def sweep(
     results.append((case_cap if case_cap >= 0 else np.nan, info0, x0))
     results.reverse()
 
-    rows, point_tables = [], []
-    base_cost = base_co2 = None
+    rows: list[dict] = []
+    point_tables: list[dict[str, pd.DataFrame]] = []
+    base_cost: float | None = None
+    base_co2 = 0.0
     for k, (cap, info, x) in enumerate(results):
         row_ = {"point": k, "co2_cap_t": cap, "status": info.status, "gap": info.gap}
         if x is None:

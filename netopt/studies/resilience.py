@@ -44,6 +44,7 @@ import os
 import time
 from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -228,7 +229,7 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
     t0 = time.perf_counter()
     info, values, x = held.resolve(plan, basis=st.basis)
     bent = x[st.relief.cols] if x is not None and st.relief is not None and len(st.relief.cols) else np.zeros(0)
-    row = {"status": info.status, "seconds": time.perf_counter() - t0}
+    row: dict[str, Any] = {"status": info.status, "seconds": time.perf_counter() - t0}
     if values is None:
         return row
     cost = held.builder.component_values(values)
@@ -238,7 +239,9 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
     un = values.get("unmet", np.zeros(len(dem)))
     un0 = st.base_values.get("unmet", np.zeros(len(dem)))
     delta = total - st.base_total
-    recovery = delta - (pen_new - pen_old) + el.get("own_fixed_cost", 0.0) - el.get("own_closing_cost", 0.0)
+    recovery = (
+        delta - (pen_new - pen_old) + float(el.get("own_fixed_cost", 0.0)) - float(el.get("own_closing_cost", 0.0))
+    )
     short, rerouted = customers_touched(st, values)
     took, took_units = took_over(st, el, values)
     # Safety stock is held at the base's level: its cost is the base's in both totals.
@@ -256,7 +259,7 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
             "took_over_units": took_units,
             "rules_bent": rules_bent(st.relief, bent),
             "rule_relief_units": float(bent.sum()),
-            "rule_relief_cost": float(bent @ st.relief.price) if len(bent) else 0.0,
+            "rule_relief_cost": float(bent @ st.relief.price) if st.relief is not None and len(bent) else 0.0,
         }
     )
     row["impact"] = row["recovery_cost"] + row["lost_value"] + row["rule_relief_cost"]
@@ -407,7 +410,7 @@ def run_sweep(
             elif workers == 0:
                 run_inline(run_task, spec, todo, done_cb)
             else:
-                run_local(run_task, spec, todo, workers, done_cb, prepare=worker_state)
+                run_local(run_task, spec, todo, workers or 1, done_cb, prepare=worker_state)
     finally:
         if bar is not None:
             bar.stop()

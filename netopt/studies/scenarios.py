@@ -134,7 +134,8 @@ def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml"
     # cycles
     by = {s.name: s for s in out}
     for s in out:
-        chain, cur = [], s
+        chain: list[str] = []
+        cur: Scenario | None = s
         while cur is not None and cur.based_on:
             if cur.name in chain:
                 problems.append(
@@ -198,8 +199,8 @@ def held_decisions(base: Result, sc_case: Case) -> dict[str, str | bool]:
 def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
     """The case of scenario ``name``, its based_on chain applied first."""
     by = {s.name: s for s in scenarios}
-    chain = []
-    cur = by[name]
+    chain: list[Scenario] = []
+    cur: Scenario | None = by[name]
     while cur is not None:
         chain.append(cur)
         cur = by.get(cur.based_on) if cur.based_on else None
@@ -211,7 +212,8 @@ def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
 
 def all_changes(scenarios: list[Scenario], name: str) -> list[dict]:
     by = {s.name: s for s in scenarios}
-    chain, cur = [], by[name]
+    chain: list[Scenario] = []
+    cur: Scenario | None = by[name]
     while cur is not None:
         chain.append(cur)
         cur = by.get(cur.based_on) if cur.based_on else None

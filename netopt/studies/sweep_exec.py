@@ -17,6 +17,7 @@ import uuid
 from collections.abc import Callable
 from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 from pathlib import Path
+from typing import Any
 
 from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
@@ -24,7 +25,7 @@ from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, T
 JOURNAL = "sweep_journal.jsonl"
 JOURNAL_FORMAT = "netopt stress sweep journal v1"
 
-Task = Callable[[object, dict], dict]
+Task = Callable[[Any, dict], dict]  # task(spec, element) -> row
 
 
 def where_running() -> str:

@@ -220,13 +220,13 @@ class WorkerState:
     """One worker's kept model: the held network (safety stock at base levels) and base arrays."""
 
     spec: SweepSpec
-    held: object
+    held: HeldNetwork
     basis: object
     base_values: dict
     base_cost: dict
     base_total: float
     build_seconds: float
-    groups: Groups | None = None
+    groups: Groups
     relief: Relief | None = None
 
 
