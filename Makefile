@@ -1,18 +1,19 @@
 # The two commands a new machine needs: `make demo` and `make test`.
 # Each creates .venv when missing and installs netopt into it first.
+# `make test` runs ruff (lint and format), mypy and then pytest; any finding fails it.
 PYTHON ?= python3
 VENV := .venv
 PY := $(VENV)/bin/python
 STAMP := $(VENV)/.installed
 
-.PHONY: demo test bench install clean
+.PHONY: demo test lint bench install clean
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
 
 $(STAMP): $(PY) pyproject.toml
 	$(PY) -m pip install --quiet --upgrade pip
-	$(PY) -m pip install --quiet -e ".[test]"
+	$(PY) -m pip install --quiet -e ".[test,dev]"
 	touch $(STAMP)
 
 install: $(STAMP)
@@ -22,7 +23,12 @@ demo: $(STAMP)
 	$(VENV)/bin/netopt run cases/brackenholt --out out/brackenholt
 	$(VENV)/bin/netopt stress cases/brackenholt --out out/brackenholt-stress
 
-test: $(STAMP)
+lint: $(STAMP)
+	$(PY) -m ruff check netopt tests benchmarks
+	$(PY) -m ruff format --check netopt tests benchmarks
+	$(PY) -m mypy netopt
+
+test: lint
 	$(PY) -m pytest -q
 
 bench: $(STAMP)
