@@ -129,13 +129,13 @@ def print_comparison(comparison, console=None) -> None:
         rows.append(cells)
     for j, c in enumerate(cols):
         # Numbers are never cut short: their columns are as wide as their widest cell; names wrap instead.
-        text = column_kind("comparison", c) == "text"
+        is_text = column_kind("comparison", c) == "text"
         widest = max((Text.from_markup(r[j]).cell_len for r in rows), default=0)
         t.add_column(
             label_of("comparison", c),
-            justify="left" if text else "right",
-            no_wrap=not text,
-            min_width=None if text else widest,
+            justify="left" if is_text else "right",
+            no_wrap=not is_text,
+            min_width=None if is_text else widest,
             overflow="fold",
         )
     for cells in rows:

@@ -116,13 +116,14 @@ def write_workbook(
                     _text_cell(ws, i, j, v)
                     continue
                 cell = ws.cell(row=i, column=j, value=v)
-                f = excel_format(row_kinds[i - 2], currency) if j - 1 == value_col else fmts[j - 1]
+                f = excel_format(row_kinds[i - 2], currency) if row_kinds and j - 1 == value_col else fmts[j - 1]
                 if f and isinstance(v, (int, float)) and not isinstance(v, bool):
                     cell.number_format = f
         ws.freeze_panes = "A2"
         for j, c in enumerate(cols, start=1):
             sample = [len(str(c))] + [_shown_len(x) for x in values[:200, j - 1]] if len(values) else [len(str(c))]
-            extra = len(currency) + 1 if fmts[j - 1] and currency and '#,##0"' in fmts[j - 1] else 0
+            fj = fmts[j - 1] or ""
+            extra = len(currency) + 1 if currency and '#,##0"' in fj else 0
             width = min(45, max(9, max(sample) + 2 + extra))
             ws.column_dimensions[ws.cell(row=1, column=j).column_letter].width = width
     wb.save(path)

@@ -48,13 +48,14 @@ def site_table(result) -> pd.DataFrame:
     s = s.reset_index(drop=True)
     flows = result.tables["flows"]
     used = set(flows["origin"])
-    style = np.where(s["kind"].eq("supplier"), np.where(s["site"].isin(used), "supplier", "supplier_idle"), s["kind"])
-    dec = dict(zip(d["dc"], d["decision"]))
-    style = [
-        {"keep": "dc_keep", "open": "dc_open", "close": "dc_close"}.get(dec.get(site), "dc_idle") if k == "dc" else st
-        for site, k, st in zip(s["site"], s["kind"], style)
+    base = np.where(s["kind"].eq("supplier"), np.where(s["site"].isin(used), "supplier", "supplier_idle"), s["kind"])
+    dec = {str(k): str(v) for k, v in zip(d["dc"], d["decision"])}
+    s["style"] = [
+        {"keep": "dc_keep", "open": "dc_open", "close": "dc_close"}.get(dec.get(str(site), ""), "dc_idle")
+        if k == "dc"
+        else st
+        for site, k, st in zip(s["site"], s["kind"], base)
     ]
-    s["style"] = style
     demand = result.tables["service"].set_index("customer")["demand"] if len(result.tables["service"]) else {}
     s["size"] = s["site"].map(demand).fillna(0.0).astype(float)
     return s

@@ -195,7 +195,8 @@ def short_ticks(axis) -> None:
 
 def mode_colours(modes) -> dict[str, str]:
     """A colour per mode name: familiar colours for common names, then a fixed palette."""
-    out, spare = {}, iter(FALLBACK * 4)
+    out: dict[str, str] = {}
+    spare = iter(FALLBACK * 4)
     for m in sorted(set(map(str, modes))):
         low = m.lower()
         hit = next((c for frag, c in MODE_HINTS if frag in low), None)

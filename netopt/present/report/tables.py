@@ -128,7 +128,7 @@ def comparison_table(comp: pd.DataFrame) -> dict:
     :func:`money_tolerance`); other columns when their shown value differs from the base's.
     """
     cols = [
-        (c, label_of("comparison", c), column_kind("comparison", c), column_of("comparison", c).sense)
+        (c, label_of("comparison", c), column_kind("comparison", c), getattr(column_of("comparison", c), "sense", 0))
         for c in COMPARISON_VIEW
         if c in comp.columns
     ]
