@@ -14,8 +14,8 @@ from __future__ import annotations
 import argparse
 import sys
 from collections.abc import Callable
+from importlib.metadata import version as package_version
 
-from netopt import __version__
 from netopt.cli.case_verbs import add_check, add_template
 from netopt.cli.common import EXIT_INVALID
 from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
@@ -38,7 +38,7 @@ def build_parser() -> argparse.ArgumentParser:
         "sourcing and service rules.",
         epilog="Exit codes: 0 ok, 2 invalid input, 3 infeasible, 4 solver failure.",
     )
-    parser.add_argument("--version", action="version", version=f"netopt {__version__}")
+    parser.add_argument("--version", action="version", version=f"netopt {package_version('netopt')}")
     sub = parser.add_subparsers(dest="verb", metavar="VERB")
     for add in VERBS:
         add(sub)

@@ -163,7 +163,8 @@ class HeldNetwork:
     def _groups(self, name: str, frame: pd.DataFrame, keys: list[str]) -> dict:
         if name not in self._index:
             if len(frame):
-                g = pd.Series(np.arange(len(frame))).groupby([frame[k].astype(str).to_numpy() for k in keys]).groups
+                by = [frame[k].astype(str).to_numpy() for k in keys]
+                g = pd.Series(np.arange(len(frame))).groupby(by[0] if len(by) == 1 else by).groups
                 self._index[name] = {k: np.asarray(v, dtype=np.int64) for k, v in g.items()}
             else:
                 self._index[name] = {}

@@ -84,7 +84,7 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
         ["keep", "close", "open"],
         "stay closed",
     )
-    d["size"] = d["dc"].map(chosen["size"]).fillna("")
+    d["size"] = d["dc"].map(chosen["size"]).astype(object).fillna("")
     d["capacity"] = np.where(d["open"], d["dc"].map(chosen["capacity"]), 0.0)
     d["fixed_cost"] = np.where(d["open"], d["dc"].map(chosen["fixed_cost"]), 0.0)
     d["throughput"] = d["dc"].map(inflow).fillna(0.0)

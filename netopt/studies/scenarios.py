@@ -40,7 +40,8 @@ from netopt.data.validate import validate_and_coerce
 from netopt.engine.held import HeldNetwork
 from netopt.engine.result import Result
 from netopt.engine.solve import solve
-from netopt.studies.changes import CHANGE_KINDS, CaseEdit, resolve_held, site_kinds
+from netopt.studies.case_edit import CaseEdit, site_kinds
+from netopt.studies.changes import CHANGE_KINDS, resolve_held
 from netopt.studies.comparison import comparison_row
 from netopt.studies.frontier import scenario_frontier
 
@@ -227,8 +228,8 @@ def all_changes(scenarios: list[Scenario], name: str) -> list[dict]:
 class ScenarioRun:
     """Base and scenario results with the comparison table (one row per scenario and re-solve)."""
 
-    base: object
-    results: dict[str, object] = field(default_factory=dict)
+    base: Result
+    results: dict[str, Result] = field(default_factory=dict)
     comparison: pd.DataFrame = field(default_factory=pd.DataFrame)
     scenarios: list[Scenario] = field(default_factory=list)
     frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)  # scenario → cost–CO2 frontier table
