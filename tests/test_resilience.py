@@ -22,8 +22,8 @@ from netopt.data.frames import make_case
 from netopt.present.stress import stress, stress_command, summary_lines
 from netopt.studies.changes import element_changes
 from netopt.studies.resilience import run_sweep, sweep_elements
-from netopt.studies.sweep_exec import JOURNAL, read_journal
 from netopt.studies.scenarios import Scenario, run_scenarios
+from netopt.studies.sweep_exec import JOURNAL, read_journal
 
 ROOT = Path(__file__).resolve().parents[1]
 

@@ -133,6 +133,7 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
                 )
             out.append(col.default)
             continue
+        assert v is not None  # parsed above; None only for blanks, handled above
         if math.isinf(v) and not (col.default == INF and v > 0):
             problems.append(Problem(table, r, col.name, f"finite number expected, got '{text}'"))
             out.append(None)
@@ -278,8 +279,10 @@ def coerce_settings(
     out: dict[str, dict[str, object]] = {}
     declared = {(s.section, s.name): s for s in SETTINGS}
     sections = {s.section for s in SETTINGS}
-    for s in SETTINGS:
-        out.setdefault(s.section, {})[s.name] = list(s.default) if isinstance(s.default, list) else s.default
+    for setting in SETTINGS:
+        out.setdefault(setting.section, {})[setting.name] = (
+            list(setting.default) if isinstance(setting.default, list) else setting.default
+        )
     for section, entries in (raw or {}).items():
         if not isinstance(entries, dict):
             problems.append(Problem(label, None, str(section), "setting outside any [section] (ignored)", "warning"))
@@ -297,7 +300,7 @@ def coerce_settings(
             continue
         names = [n for (sec, n) in declared if sec == section]
         for name, value in entries.items():
-            s = declared.get((section, name))
+            s: Setting | None = declared.get((section, name))
             if s is None:
                 problems.append(
                     Problem(

@@ -19,7 +19,7 @@ import os
 import re
 
 try:
-    import tomllib
+    import tomllib  # type: ignore[import-not-found, unused-ignore]  # Python 3.11+
 except ModuleNotFoundError:  # Python 3.10: the same parser, as the tomli package
     import tomli as tomllib
 from pathlib import Path

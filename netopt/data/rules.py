@@ -71,11 +71,11 @@ def _references(name: str, tables: dict[str, pd.DataFrame], usable: set[str]) ->
 
 
 def _site_namespace(tables: dict[str, pd.DataFrame]) -> list[Problem]:
-    first_seen: dict[str, tuple[str, int]] = {}
+    first_seen: dict[str, tuple[str, int | None]] = {}
     problems = []
     for table, col in SITE_TABLES:
         codes = _codes(tables[table], col)
-        mine: dict[str, int] = {}
+        mine: dict[str, int | None] = {}
         for r, code in codes.items():
             mine.setdefault(code, row_number(r))
         for code, r in mine.items():
@@ -99,7 +99,7 @@ def _consistent_site_rows(
     table: str, col: str, df: pd.DataFrame, kind: str, attrs: tuple[str, ...] = ("lat", "lon")
 ) -> list[Problem]:
     """Rows of one site (e.g. a plant making several products) must agree on its location."""
-    problems = []
+    problems: list[Problem] = []
     if df.empty:
         return problems
     d = df[df[col].astype(str) != ""]

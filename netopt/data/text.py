@@ -33,7 +33,7 @@ def as_text(value) -> str:
     if isinstance(value, (bool, np.bool_)):
         return "true" if value else "false"
     if isinstance(value, (float, np.floating)):
-        return format_number(value)
+        return format_number(float(value))
     if isinstance(value, (int, np.integer)):
         return str(int(value))
     try:

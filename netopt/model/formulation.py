@@ -97,7 +97,7 @@ def formulation_markdown() -> str:
         *_variables_table(sections),
         "",
     ]
-    owner = {}
+    owner: dict[str, str] = {}
     for _, ref, doc in sections:
         for c in sorted(documented_costs(doc)):
             owner.setdefault(c, ref)

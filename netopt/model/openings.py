@@ -111,6 +111,6 @@ def option_terms(
     c = j["coef"].to_numpy(float)
     if use_capacity:
         cap = j["cap"].to_numpy(float)
-        cap = np.where(np.isinf(cap), float(big_m), cap)
+        cap = np.where(np.isinf(cap), float(big_m if big_m is not None else np.inf), cap)
         c = c * cap
     return Term("open", j["opt"].to_numpy(int), c, j["row"].to_numpy(int))
