@@ -234,6 +234,8 @@ def test_killed_sweep_resumes_without_redoing_finished_elements(solved, inline_t
     finally:
         os.killpg(proc.pid, signal.SIGKILL)  # the sweep and its pool worker, mid-run
         proc.wait()
+        if proc.stderr is not None:
+            proc.stderr.close()
     with open(journal, "a") as fh:
         fh.write('{"id": "lane:torn')  # a row torn by the kill
     from netopt.studies.sweep_worker import make_spec
