@@ -11,7 +11,7 @@ only, no dominated-mode pruning), each in a fresh subprocess so that peak memory
 per run.  After the MIP, the same process solves the LP relaxation of the same
 formulation to measure the bound gap.  On ``medium`` (when it is among the sizes and
 ``--resolves`` > 0) a further subprocess measures hold-the-network re-solves warm
-(``netopt.scenarios.HeldNetwork``) against cold rebuilds (``netopt.solve(..., hold=...)``)
+(``netopt.engine.held.HeldNetwork``) against cold rebuilds (``netopt.solve(..., hold=...)``)
 and redesign re-solves (full MIP) on the kept base model against cold rebuilds.
 
 HiGHS runs with threads=1 and mip_rel_gap 1e-4.  Times are seconds, memory MB.

@@ -15,9 +15,9 @@ import pytest
 from randcase import random_case
 
 from netopt.api import solve
-from netopt.engine.held import HeldNetwork
+from netopt.engine.held import HeldNetwork, held_decisions
 from netopt.studies.changes import CHANGE_KINDS, resolve_held
-from netopt.studies.scenarios import Scenario, apply_changes, held_decisions
+from netopt.studies.scenarios import Scenario, apply_changes
 
 TOL = 1e-6
 SETTINGS = {"inventory": {"safety_stock": False}, "policy": {"allow_unmet_demand": True}}
@@ -92,7 +92,7 @@ def test_held_warm_resolve_equals_cold_rebuild(solved, kind):
     warm = resolve_held(held, sc_case, changes, name=kind)
     assert warm is not None, f"{kind} should be a warm re-solve"
     assert warm.verification.passed, warm.verification.table
-    cold = solve(sc_case, hold=held_decisions(base, sc_case), mip_gap=1e-9)
+    cold = solve(sc_case, hold=held_decisions(base.held_openings(), sc_case), mip_gap=1e-9)
     assert cold.has_solution and cold.verification.passed
     assert warm.objective == pytest.approx(cold.objective, rel=1e-9)
     _assert_tables_equal(warm.tables, cold.tables, kind)

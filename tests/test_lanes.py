@@ -1,4 +1,4 @@
-"""Lane generation (netopt.lanes): legs, range pruning, road graphs and explicit lanes."""
+"""Lane generation (netopt.network.lanes): legs, range pruning, road graphs and explicit lanes."""
 
 import math
 

@@ -299,3 +299,17 @@ def test_warm_hold_reports_lp_bound_and_zero_gap(base_case, base):
     changes = [{"kind": "scale_demand", "factor": 1.05}]
     warm = resolve_held(held, apply_changes(base_case, sc("x", *changes)), changes)
     assert warm.status == "optimal" and warm.gap == 0.0 and warm.bound == pytest.approx(warm.objective)
+
+
+def test_a_warm_hold_that_loses_demand_says_so(base_case, base):
+    """A held network may lose demand (it cannot open anything); when the settings forbid lost demand,
+    the comparison row and the result's summary say it was allowed (never substituted silently)."""
+    assert not base_case.settings["policy"]["allow_unmet_demand"]
+    run = run_scenarios(
+        base_case, base=base, scenarios=[sc("plant_out", {"kind": "site_out", "site": "F"}, resolve="hold")]
+    )
+    row = run.comparison.set_index("scenario").loc["plant_out"]
+    assert row["method"] == "warm LP (lost demand allowed)"
+    assert row["lost_units"] > 0
+    assert run.results["plant_out"].summary()["lost_demand_allowed"] is True
+    assert run.results["base"].summary()["lost_demand_allowed"] is False

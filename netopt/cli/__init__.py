@@ -3,7 +3,7 @@
 Each verb is two functions: ``add_<verb>(subparsers)`` declares its arguments and
 sets ``func=cmd_<verb>``; ``cmd_<verb>(args) -> int`` does the work and returns the
 exit code.  To add a verb, write both and append the ``add_`` function to
-:data:`VERBS`.  :func:`main` turns a :class:`~netopt.case.CaseError` into a report
+:data:`VERBS`.  :func:`main` turns a :class:`~netopt.data.case.CaseError` into a report
 on stderr and exit code 2 (never a traceback).
 
 Exit codes: 0 ok, 2 invalid input, 3 infeasible, 4 solver failure.

@@ -1,6 +1,6 @@
 """CLI verbs that solve: ``netopt solve`` (one case) and ``netopt run`` (base and scenarios).
 
-Thin layers over :func:`netopt.solve` and :func:`netopt.scenarios.run_scenarios`; the
+Thin layers over :func:`netopt.solve` and :func:`netopt.studies.scenarios.run_scenarios`; the
 terminal output is rich tables, with ``--quiet`` and ``--json`` for scripts.
 """
 

@@ -355,7 +355,7 @@ _table(
     _c("customers_affected", "int", "count", "customers affected", "Customers short or served differently"),
     _c("customers_short", "int", "count", "customers short", "Customers short of demand"),
     _c("took_over", "str", "text", "took over", "Elements of the same kind whose volume rose most"),
-    _c("took_over_units", "str", "text", "took over units/yr", "Their added units/yr"),
+    _c("took_over_units", "float", "units/yr", "took over units/yr", "Their added units/yr"),
     _c("rules_bent", "str", "text", "rules bent", "Rules exceeded in the disruption, at base shadow prices"),
     _c("rule_relief_units", "float", "units/yr", "rule relief units", "Units beyond the rules"),
     _c("rule_relief_cost", "float", "currency/yr", "rule relief cost", "Those units at the rules' shadow prices"),

@@ -58,7 +58,7 @@ def schema_markdown() -> str:
     out = [
         "# netopt case schema",
         "",
-        "Generated from `netopt/schema.py` by `python -m netopt.templates`; do not edit by hand.",
+        "Generated from `netopt/data/schema.py` by `python -m netopt.data.templates`; do not edit by hand.",
         "",
         "A case is a folder holding `settings.toml` and one CSV file per table, named `<table>.csv`",
         "(UTF-8, comma-separated, header on line 1), plus optionally `scenarios.toml`; or one `.xlsx`",

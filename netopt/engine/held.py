@@ -38,11 +38,10 @@ NO_INDEX = np.zeros(0, dtype=np.int64)
 
 @dataclass
 class BoundPlan:
-    """Bound changes on a held model: HiGHS column → (lower, upper), row → (lower, upper), DCs closed."""
+    """Bound changes on a held model: HiGHS column → (lower, upper), row → (lower, upper)."""
 
     cols: dict[int, tuple[float, float]] = field(default_factory=dict)
     rows: dict[int, tuple[float, float]] = field(default_factory=dict)
-    closed_dcs: set[str] = field(default_factory=set)
 
     def set_cols(self, cols: np.ndarray, lower: float | np.ndarray, upper: float | np.ndarray) -> None:
         """Bounds for HiGHS columns ``cols`` (−1 entries, variables not in the model, are skipped)."""
@@ -56,7 +55,6 @@ class BoundPlan:
     def merge(self, other: BoundPlan) -> None:
         self.cols.update(other.cols)
         self.rows.update(other.rows)
-        self.closed_dcs |= other.closed_dcs
 
 
 def settings_with_lost_demand(case: Case) -> Case:
@@ -71,6 +69,18 @@ def _model_case(case: Case) -> Case:
     c = settings_with_lost_demand(case)
     c.settings["inventory"]["safety_stock"] = False
     return c
+
+
+def held_decisions(held: dict[str, str | bool], sc_case: Case) -> dict[str, str | bool]:
+    """Held DC decisions (dc → size/True/False) as a hold of scenario case ``sc_case``: DCs the scenario
+    forces closed (or takes out) are closed, DCs the held decisions do not know (added by the scenario)
+    stay closed."""
+    hold = dict(held)
+    forced = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
+    for d in sc_case.tables["dcs"]["dc"]:
+        if forced.get(d, "") == "closed" or d not in hold:
+            hold[d] = False
+    return hold
 
 
 class HeldNetwork:
@@ -226,10 +236,6 @@ class HeldNetwork:
                 h.changeRowsBounds(len(ri), ri, self.row_lo[ri], self.row_hi[ri])  # type: ignore[attr-defined]
         return info, values, x
 
-    def held_open(self, plan: BoundPlan) -> dict[str, bool]:
-        """DC decisions of a re-solve under ``plan``: the held ones, less the DCs it closes."""
-        return {d: (bool(v) and d not in plan.closed_dcs) for d, v in self.held.items()}
-
     def result(self, sc_case: Case, plan: BoundPlan, name: str = "") -> Result:
         """Warm re-solve of scenario case ``sc_case`` under ``plan``: a full, verified :class:`Result`.
 
@@ -263,11 +269,15 @@ class HeldNetwork:
             values,
             info.objective,
             solved_on=self.net,
-            held_open=self.held_open(plan),
+            held_open={d: bool(v) for d, v in held_decisions(self.held, sc_case).items()},
             extra_cost=lambda tables: {"safety_stock": held_lines_cost(self.ss_lines, tables)},
         )
         res.tables, res.verification = out.tables, out.verification
         res.timings.update(out.seconds)
+        lost = float(res.tables["unmet"]["lost_units"].sum()) if len(res.tables["unmet"]) else 0.0
+        if lost > 0 and not bool(sc_case.settings["policy"]["allow_unmet_demand"]):
+            res.lost_demand_allowed = True
+            res.message += f"; {lost:,.0f} units/yr of demand lost at the penalty (a held network may lose demand)"
         res.lanes = lanes
         res.network = sc_net
         return res

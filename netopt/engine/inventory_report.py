@@ -133,7 +133,7 @@ def safety_stock_table(net, flows: pd.DataFrame, values: dict | None = None) -> 
 
 
 def safety_stock_extra_cost(tables: dict[str, pd.DataFrame]) -> dict[str, float]:
-    """The ``safety_stock`` cost component recomputed from the flows (currency/yr), for :func:`netopt.verify.verify`.
+    """The ``safety_stock`` cost component recomputed from the flows (currency/yr), for :func:`netopt.engine.verify.verify`.
 
     It is the model's curve evaluated at each DC's throughput from the flows table, not the
     solver's value, so a formulation error shows up as an objective mismatch in verification.

@@ -30,6 +30,7 @@ class Result:
     timings: dict[str, float] = field(default_factory=dict)
     model_size: dict[str, int] = field(default_factory=dict)
     message: str = ""
+    lost_demand_allowed: bool = False  # netopt allowed lost demand although the settings do not
     network: Network | None = None
     highs_model: HighsModel | None = None
     lanes: pd.DataFrame | None = None
@@ -72,6 +73,7 @@ class Result:
             "timings_s": {k: round(x, 4) for k, x in self.timings.items()},
             "model_size": self.model_size,
             "message": self.message,
+            "lost_demand_allowed": self.lost_demand_allowed,
         }
         if "kpis" in self.tables:
             out["kpis"] = {k: _num(x) for k, x in zip(self.tables["kpis"]["kpi"], self.tables["kpis"]["value"])}

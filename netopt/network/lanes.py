@@ -161,7 +161,7 @@ def build_lanes(case: Case) -> pd.DataFrame:
         source: "generated" or "explicit".
         origin_lat, origin_lon, destination_lat, destination_lon: site coordinates, degrees.
 
-    Rows are sorted by leg (in the order of ``netopt.schema.LEGS``), origin,
+    Rows are sorted by leg (in the order of ``netopt.data.schema.LEGS``), origin,
     destination, mode and product.
 
     Raises:

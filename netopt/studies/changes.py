@@ -82,7 +82,6 @@ def _held_force_dc(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | 
     opts = held.option_rows(dc)
     if to == "closed":
         plan.set_cols(held.cols("open", opts), 0.0, 0.0)
-        plan.closed_dcs.add(dc)
         return plan
     is_open = bool(held.held.get(dc, False))
     if (to == "open" and is_open) or to == "free":
@@ -115,7 +114,6 @@ def _held_site_out(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan:
     opts = held.option_rows(site)
     if len(opts):
         plan.set_cols(held.cols("open", opts), 0.0, 0.0)
-        plan.closed_dcs.add(site)
     return plan
 
 

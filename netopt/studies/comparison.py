@@ -14,7 +14,6 @@ def comparison_row(
     method: str,
     seconds: float,
     description: str,
-    lost_allowed: bool = False,
 ) -> dict:
     """One row of the comparison table (money in currency/yr)."""
     row = {
@@ -51,6 +50,6 @@ def comparison_row(
     row["lost_value"] = float(un["value"].sum()) if len(un) else 0.0
     row["co2e_tonnes"] = k.get("co2e_tonnes")
     row["verified"] = bool(r.verification.passed) if r.verification else False
-    row["method"] = method + (" (lost demand allowed)" if lost_allowed else "")
+    row["method"] = method + (" (lost demand allowed)" if r.lost_demand_allowed else "")
     row["seconds"] = seconds
     return row

@@ -50,6 +50,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
+from netopt.data.results_schema import RESULT_TABLES
 from netopt.studies.changes import element_changes, held_plan
 from netopt.studies.scenarios import Scenario, apply_changes, solve_or_lose
 from netopt.studies.sweep_exec import (
@@ -75,37 +76,10 @@ from netopt.studies.sweep_worker import (
 )
 
 ELEMENT_TYPES = ("supplier", "plant", "dc", "lane")
-"""Rule families that a disruption may bend in ``rules="priced"`` mode (at the base's shadow price)."""
-
-SPOF_COLUMNS = [
-    "rank",
-    "element",
-    "type",
-    "base_units",
-    "recovery_cost",
-    "lost_units",
-    "lost_value",
-    "impact",
-    "customers_affected",
-    "customers_short",
-    "took_over",
-    "took_over_units",
-    "rules_bent",
-    "rule_relief_units",
-    "rule_relief_cost",
-    "total_cost",
-    "delta_objective",
-    "status",
-    "id",
-]
-REDESIGN_COLUMNS = [
-    "redesign_status",
-    "redesign_total_cost",
-    "redesign_recovery_cost",
-    "redesign_lost_units",
-    "redesign_lost_value",
-    "redesign_dc_changes",
-]
+# The ranked table's columns, as declared in the output schema (redesign columns only with --redesign).
+_SPOF = [c.name for c in RESULT_TABLES["spof_ranking"].columns]
+SPOF_COLUMNS = [c for c in _SPOF if not c.startswith("redesign_")]
+REDESIGN_COLUMNS = [c for c in _SPOF if c.startswith("redesign_")]
 
 
 class StressError(Exception):
@@ -269,8 +243,8 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
 def redesign_resolve(spec: SweepSpec, el: dict) -> dict:
     """Redesign with ``el`` out (openings re-optimised, a MIP); result columns prefixed ``redesign_``."""
     sc_case = apply_changes(spec.case, Scenario(el["id"], element_changes(el), resolve="redesign"))
-    r, _ = solve_or_lose(sc_case)
-    out = {"redesign_status": r.status}
+    r = solve_or_lose(sc_case)
+    out: dict[str, Any] = {"redesign_status": r.status}
     if not r.has_solution:
         return out
     cost = r.cost

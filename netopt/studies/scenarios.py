@@ -7,7 +7,7 @@ A case may hold ``scenarios.toml`` with ``[[scenario]]`` entries::
     description = "Ocean lane Ningbo → Poznań lost for the year"
     based_on = ""            # optional: another scenario whose changes come first
     resolve = "both"         # redesign (default) | hold | both
-    frontier_points = 5      # optional: also the cost–CO2 frontier of this scenario (netopt.frontier)
+    frontier_points = 5      # optional: also the cost–CO2 frontier of this scenario (netopt.studies.frontier)
 
       [[scenario.change]]
       kind = "close_lane"
@@ -37,7 +37,7 @@ import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
 from netopt.data.validate import validate_and_coerce
-from netopt.engine.held import HeldNetwork
+from netopt.engine.held import HeldNetwork, held_decisions
 from netopt.engine.result import Result
 from netopt.engine.solve import solve
 from netopt.studies.case_edit import CaseEdit, site_kinds
@@ -60,7 +60,7 @@ class Scenario:
     description: str = ""
     based_on: str = ""
     resolve: str = "redesign"
-    frontier_points: int = 0  # ≥ 2: also sweep this scenario's cost–CO2 frontier (netopt.frontier)
+    frontier_points: int = 0  # ≥ 2: also sweep this scenario's cost–CO2 frontier (netopt.studies.frontier)
 
 
 def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml") -> list[Scenario]:
@@ -186,39 +186,28 @@ def apply_changes(case: Case, sc: Scenario, changes: list[dict] | None = None) -
     return Case(c.name, typed, typed_settings, c.path, c.scenarios, c.warnings, lanes)
 
 
-def held_decisions(base: Result, sc_case: Case) -> dict[str, str | bool]:
-    """The base's DC decisions as a hold of ``sc_case``: DCs the scenario forces closed (or takes
-    out) are closed, DCs the base does not know (added by the scenario) stay closed."""
-    hold = base.held_openings()
-    forced = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
-    for d in sc_case.tables["dcs"]["dc"]:
-        if forced.get(d, "") == "closed" or d not in hold:
-            hold[d] = False
-    return hold
-
-
-def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
-    """The case of scenario ``name``, its based_on chain applied first."""
+def scenario_chain(scenarios: list[Scenario], name: str) -> list[Scenario]:
+    """Scenario ``name`` and the scenarios it is ``based_on``, the first of the chain first."""
     by = {s.name: s for s in scenarios}
     chain: list[Scenario] = []
     cur: Scenario | None = by[name]
     while cur is not None:
         chain.append(cur)
         cur = by.get(cur.based_on) if cur.based_on else None
+    return chain[::-1]
+
+
+def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
+    """The case of scenario ``name``, its based_on chain applied first."""
     out = case
-    for sc in reversed(chain):
+    for sc in scenario_chain(scenarios, name):
         out = apply_changes(out, sc)
     return out
 
 
 def all_changes(scenarios: list[Scenario], name: str) -> list[dict]:
-    by = {s.name: s for s in scenarios}
-    chain: list[Scenario] = []
-    cur: Scenario | None = by[name]
-    while cur is not None:
-        chain.append(cur)
-        cur = by.get(cur.based_on) if cur.based_on else None
-    return [c for sc in reversed(chain) for c in sc.changes]
+    """Every change of scenario ``name``, its based_on chain's first."""
+    return [c for sc in scenario_chain(scenarios, name) for c in sc.changes]
 
 
 # ---------------------------------------------------------------------------------- running
@@ -235,18 +224,19 @@ class ScenarioRun:
     frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)  # scenario → cost–CO2 frontier table
 
 
-def solve_or_lose(case: Case, **kw):
-    """Solve; if infeasible, solve again with lost demand allowed at the penalty."""
+def solve_or_lose(case: Case, **kw) -> Result:
+    """Solve; if infeasible, solve again with lost demand allowed at the penalty (``Result.lost_demand_allowed``)."""
     r = solve(case, diagnose=False, **kw)
     if r.has_solution or r.status not in ("infeasible", "unbounded"):
-        return r, False
+        return r
     c2 = Case(case.name, case.tables, copy.deepcopy(case.settings), case.path)
     c2.settings["policy"]["allow_unmet_demand"] = True
     r2 = solve(c2, **kw)
     r2.message = (r2.message + "; infeasible without lost demand, so re-solved with lost demand at the penalty").strip(
         "; "
     )
-    return r2, True
+    r2.lost_demand_allowed = True
+    return r2
 
 
 def run_scenarios(
@@ -312,7 +302,6 @@ def run_scenarios(
             label = s.name if len(modes) == 1 else f"{s.name} [{how}]"
             say("start", {"name": label, "resolve": how})
             t1 = time.perf_counter()
-            lost_allowed = False
             if how == "hold":
                 r = None
                 if warm and base.has_solution:
@@ -321,16 +310,14 @@ def run_scenarios(
                     r = resolve_held(held, sc_case, all_changes(scenarios, s.name), name=label)
                     method = "warm LP"
                 if r is None:
-                    r, lost_allowed = solve_or_lose(sc_case, hold=held_decisions(base, sc_case))
+                    r = solve_or_lose(sc_case, hold=held_decisions(base.held_openings(), sc_case))
                     method = "rebuilt"
             else:
-                r, lost_allowed = solve_or_lose(sc_case)
+                r = solve_or_lose(sc_case)
                 method = "mip"
             sec = time.perf_counter() - t1
             run.results[label] = r
-            rows.append(
-                comparison_row(label, s.based_on, how, r, base, method, sec, s.description, lost_allowed=lost_allowed)
-            )
+            rows.append(comparison_row(label, s.based_on, how, r, base, method, sec, s.description))
             say("done", {"name": label, "status": r.status, "seconds": sec})
         if s.frontier_points:
             say("frontier_start", {"name": s.name, "points": s.frontier_points})

@@ -25,6 +25,7 @@ from netopt.studies.sweep_exec import JOURNAL_FORMAT
 TOL = 1e-6  # units/yr: smaller changes count as none
 RULES = ("priced", "hard")
 POLICY_ROWS = ("service_window", "max_supplier_share", "max_region_share", "co2_cap")
+"""Rule families that a disruption may bend in ``rules="priced"`` mode (at the base's shadow price)."""
 RELIEF_EPS = 1e-4  # currency per unit added to each shadow price, so the undisrupted base stays the unique choice
 
 

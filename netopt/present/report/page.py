@@ -1,6 +1,6 @@
 """The analyst's report: one self-contained HTML file with a network map, charts and tables.
 
-:func:`write_report` takes a :class:`~netopt.scenarios.ScenarioRun` (base and scenarios)
+:func:`write_report` takes a :class:`~netopt.studies.scenarios.ScenarioRun` (base and scenarios)
 or a single :class:`~netopt.engine.solve.Result` and writes ``report.html``: every chart is inline
 SVG drawn with matplotlib, the page is a Jinja2 template with its CSS inlined, and nothing
 is fetched from the network when the file is opened.  Money is in the case currency per
