@@ -6,6 +6,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.engine.highs import compile_model
+from netopt.engine.relief import add_slack
 from netopt.model import build_model
 from netopt.model.safety_stock import prepare_solve
 from netopt.network.arcs import Network
@@ -19,20 +20,30 @@ def diagnose_infeasibility(net: Network, formulation: str = "tight", fixed: np.n
     """
     b = build_model(net, formulation=formulation, elastic=True, fixed_open=fixed)
     hm = compile_model(b)
+    slack = add_slack(
+        hm, [f for f, relaxed in b.relaxable.items() if relaxed], lambda r: np.full(len(r), b.elastic_penalty)
+    )
     prepare_solve(hm, time_limit=120.0, mip_gap=1e-3)  # safety-stock binaries only
     info = hm.solve(time_limit=120.0, mip_gap=1e-3)
-    rows = []
+    rows = [
+        {
+            "rule": name,
+            "where": _where(b.row_labels[name], k),
+            "amount": float("nan"),
+            "meaning": "no variable can satisfy this rule (it has no terms)",
+        }
+        for name, k in b.empty_infeasible
+    ]
     if not info.has_solution:
-        return pd.DataFrame(
-            [
-                {
-                    "rule": "model",
-                    "where": "",
-                    "amount": float("nan"),
-                    "meaning": f"no elastic solution either ({info.status})",
-                }
-            ]
+        rows.append(
+            {
+                "rule": "model",
+                "where": "",
+                "amount": float("nan"),
+                "meaning": f"no elastic solution either ({info.status})",
+            }
         )
+        return pd.DataFrame(rows)
     vals = hm.values()
     if "unmet" in vals:
         dem = net.demand
@@ -45,15 +56,18 @@ def diagnose_infeasibility(net: Network, formulation: str = "tight", fixed: np.n
                     "meaning": "units/yr of demand that cannot be delivered",
                 }
             )
-    for name, v in vals.items():
-        if not name.startswith("slack_"):
-            continue
-        rule = name.split("__", 1)[1]
-        labels = b.var_labels[name]
-        for k in np.flatnonzero(v > 1e-6):
-            lab = ", ".join(f"{c} {labels[c].iloc[k]}" for c in labels.columns if c != "constraint")
-            kind = "excess over the limit" if name.startswith("slack_hi") else "shortfall below the requirement"
-            rows.append({"rule": rule, "where": lab, "amount": float(v[k]), "meaning": kind})
+    v = slack.values(np.asarray(hm.highs.getSolution().col_value, dtype=float))
+    for i in np.flatnonzero(v > 1e-6).tolist():
+        name = str(slack.family[i])
+        kind = "shortfall below the requirement" if slack.sign[i] > 0 else "excess over the limit"
+        rows.append(
+            {
+                "rule": name,
+                "where": _where(b.row_labels[name], int(slack.row[i])),
+                "amount": float(v[i]),
+                "meaning": kind,
+            }
+        )
     if not rows:
         rows.append(
             {
@@ -64,3 +78,8 @@ def diagnose_infeasibility(net: Network, formulation: str = "tight", fixed: np.n
             }
         )
     return pd.DataFrame(rows)
+
+
+def _where(labels: pd.DataFrame, k: int) -> str:
+    """A row's labels as text: ``customer C1, product P``."""
+    return ", ".join(f"{c} {labels[c].iloc[k]}" for c in labels.columns)

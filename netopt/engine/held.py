@@ -146,22 +146,12 @@ class HeldNetwork:
         self.col_hi = np.array(lp.col_upper_, dtype=float)
         self.row_lo = np.array(lp.row_lower_, dtype=float)
         self.row_hi = np.array(lp.row_upper_, dtype=float)
-        self._rows: dict[str, np.ndarray] = {}
         self._index: dict[str, dict] = {}
 
     # ------------------------------------------------------------------ index look-ups
     def rows_of(self, name: str) -> np.ndarray:
         """HiGHS row of each label row of constraint family ``name`` (−1 when skipped)."""
-        if name not in self._rows:
-            comp = getattr(self.builder.model, name, None)
-            n = len(self.builder.row_labels.get(name, []))
-            r = -np.ones(n, dtype=np.int64)
-            if comp is not None:
-                for k in range(n):
-                    if k in comp:
-                        r[k] = self.hm.row(comp[k])
-            self._rows[name] = r
-        return self._rows[name]
+        return self.hm.rows_of(name)
 
     def cols(self, block: str, idx: np.ndarray) -> np.ndarray:
         """HiGHS columns of variables ``block[idx]`` (−1: not in the model)."""

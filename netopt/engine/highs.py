@@ -72,6 +72,7 @@ class HighsModel:
     compile_seconds: float
     pass_seconds: float
     timings: dict = field(default_factory=dict)
+    row_index: dict[str, np.ndarray] = field(default_factory=dict, repr=False)  # rows_of cache
 
     # ---------------------------------------------------------------- solve
     def solve(
@@ -168,6 +169,20 @@ class HighsModel:
 
     def row(self, constraint) -> int:
         return self.row_of.get(id(constraint), -1)
+
+    def rows_of(self, name: str) -> np.ndarray:
+        """HiGHS row of each label row of constraint family ``name`` (−1 where the row was skipped)."""
+        cache = self.row_index
+        if name not in cache:
+            comp = getattr(self.builder.model, name, None)
+            n = len(self.builder.row_labels.get(name, []))
+            r = -np.ones(n, dtype=np.int64)
+            if comp is not None:
+                for k in range(n):
+                    if k in comp:
+                        r[k] = self.row(comp[k])
+            cache[name] = r
+        return cache[name]
 
 
 def compile_model(b: Builder, options: dict | None = None) -> HighsModel:

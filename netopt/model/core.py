@@ -17,8 +17,6 @@ from pyomo.core.expr.numeric_expr import LinearExpression, MonomialTermExpressio
 
 from netopt.network.arcs import Network
 
-SENSES = {"<=": 1, "==": 0, ">=": -1}
-
 
 @dataclass
 class Term:
@@ -41,8 +39,9 @@ class Builder:
     cost: dict[str, list[Term]] = field(default_factory=dict)
     cost_constant: dict[str, float] = field(default_factory=dict)
     row_labels: dict[str, pd.DataFrame] = field(default_factory=dict)
-    elastic: bool = False
+    elastic: bool = False  # the diagnosis' model shape: unmet demand allowed at elastic_penalty
     elastic_penalty: float = 1e6
+    relaxable: dict[str, bool] = field(default_factory=dict)  # row family → relaxed in the diagnosis
     empty_infeasible: list[tuple[str, int]] = field(default_factory=list)
     dc_big_m: float = float("inf")  # units/yr standing in for unlimited DC capacity
 
@@ -75,8 +74,9 @@ class Builder:
         """Add one constraint per row of ``labels``: Σ terms (sense) rhs.
 
         ``sense`` is "<=", "==" or ">=" (or an array of them); ``rhs`` a scalar or array.
-        In elastic mode a penalised slack lets each row be violated, so an infeasible
-        case can be diagnosed by which rows needed slack.
+        ``elastic=False`` marks a family the infeasibility diagnosis never relaxes (definitions
+        and linking rows); every other family gets penalised slack there
+        (``netopt.engine.relief``, added to the compiled model in HiGHS).
         """
         n = len(labels)
         if n == 0:
@@ -84,27 +84,7 @@ class Builder:
         rhs = np.broadcast_to(np.asarray(rhs, dtype=float), (n,)).copy()
         senses = np.broadcast_to(np.asarray(sense, dtype=object), (n,))
         terms = [t for t in terms if len(t.idx)]
-        if elastic is None:
-            elastic = self.elastic
-        if elastic:
-            code = np.array([SENSES[s] for s in senses])
-            rows = np.arange(n)
-            slack_labels = labels.reset_index(drop=True).assign(constraint=name)
-            lo = self.add_vars(f"slack_lo__{name}", slack_labels)  # adds to the row (≥ and ==)
-            hi = self.add_vars(f"slack_hi__{name}", slack_labels)  # subtracts (≤ and ==)
-            for v, c in zip(lo, code.tolist()):
-                if c == 1:
-                    v.setub(0.0)
-            for v, c in zip(hi, code.tolist()):
-                if c == -1:
-                    v.setub(0.0)
-            terms = terms + [
-                Term(f"slack_lo__{name}", rows, np.ones(n), rows),
-                Term(f"slack_hi__{name}", rows, -np.ones(n), rows),
-            ]
-            pen = np.full(n, self.elastic_penalty)
-            self.add_cost("elastic_slack", Term(f"slack_lo__{name}", rows, pen))
-            self.add_cost("elastic_slack", Term(f"slack_hi__{name}", rows, pen))
+        self.relaxable[name] = True if elastic is None else bool(elastic)
         row = np.concatenate([t.row for t in terms]) if terms else np.zeros(0, int)
         coef = np.concatenate([t.coef for t in terms]).astype(float) if terms else np.zeros(0)
         vs: list = []
@@ -150,8 +130,9 @@ class Builder:
 
         K is ``COST_COMPONENTS`` (``netopt.model``); each C[k] = Σ coef · variable + constant
         (currency/yr) is added by the concept module that owns it (``add_cost``) and reported
-        separately.  In the elastic diagnosis (``build_model(elastic=True)``) each row r of a
-        family not marked † gets two slacks, and their penalty joins the objective:
+        separately.  In the elastic diagnosis (``build_model(elastic=True)``, then
+        ``netopt.engine.relief.add_slack`` on the compiled model) each row r of a family not
+        marked † gets a slack per direction that loosens it, and their penalty joins the objective:
 
             Σ terms_r + σ⁺_r − σ⁻_r  (≤ | = | ≥)  rhs_r,    σ⁺_r = 0 on ≤ rows, σ⁻_r = 0 on ≥ rows
 
@@ -160,7 +141,7 @@ class Builder:
         | symbol | meaning | unit | name in code |
         |---|---|---|---|
         | C[k] | cost component k | currency/yr | ``Builder.cost[k]``, ``Builder.cost_constant[k]`` |
-        | σ⁺_r, σ⁻_r | slack raising / lowering the left side of row r | the row's unit | variable blocks ``slack_lo__<family>``, ``slack_hi__<family>`` |
+        | σ⁺_r, σ⁻_r | slack raising / lowering the left side of row r | the row's unit | ``Slack`` columns of ``netopt.engine.relief`` (sign +1 / −1) |
         | P | penalty per unit of slack (and of unmet demand) in the diagnosis | currency/unit | ``Builder.elastic_penalty`` |
         """
         coefs: list[float] = []

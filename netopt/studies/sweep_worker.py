@@ -14,12 +14,12 @@ import threading
 import time
 from dataclasses import dataclass, field
 
-import highspy
 import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
 from netopt.engine.held import HeldNetwork
+from netopt.engine.relief import add_slack
 from netopt.studies.sweep_exec import JOURNAL_FORMAT
 
 TOL = 1e-6  # units/yr: smaller changes count as none
@@ -177,43 +177,11 @@ def add_relief(held) -> Relief:
     optimal (no rule is bent without a disruption), and a disruption may deliver late or
     buy beyond a share limit when that costs less than losing the demand.
     """
-    h = held.hm.highs
-    dual = np.asarray(h.getSolution().row_dual, float)
-    lp = h.getLp()
-    row_lo = np.asarray(lp.row_lower_, float)
-    fam, lab, price, rows_all, sign_all = [], [], [], [], []
-    n0 = int(lp.num_col_)
-    for name in POLICY_ROWS:
-        if name not in held.builder.row_labels:
-            continue
-        rows = held.rows_of(name)
-        labels = held.builder.row_labels[name]
-        ok = np.flatnonzero(rows >= 0)
-        for k in ok:
-            r = int(rows[k])
-            rows_all.append(r)
-            sign_all.append(1.0 if row_lo[r] > -highspy.kHighsInf else -1.0)  # ≥ rows gain, ≤ rows lose
-            fam.append(name)
-            lab.append(str(labels.iloc[k, 0]))
-            price.append(abs(float(dual[r])) + RELIEF_EPS)
-    n = len(rows_all)
-    if n:
-        h.addCols(
-            n,
-            np.array(price),
-            np.zeros(n),
-            np.full(n, highspy.kHighsInf),
-            n,
-            np.arange(n, dtype=np.int32),
-            np.array(rows_all, dtype=np.int32),
-            np.array(sign_all),
-        )
-    return Relief(
-        cols=np.arange(n0, n0 + n),
-        family=np.array(fam, dtype=object),
-        label=np.array(lab, dtype=object),
-        price=np.array(price),
-    )
+    dual = np.asarray(held.hm.highs.getSolution().row_dual, float)
+    families = [f for f in POLICY_ROWS if f in held.builder.row_labels]
+    slack = add_slack(held.hm, families, lambda rows: np.abs(dual[rows]) + RELIEF_EPS)
+    labels = [str(held.builder.row_labels[f].iloc[k, 0]) for f, k in zip(slack.family, slack.row)]
+    return Relief(cols=slack.cols, family=slack.family, label=np.array(labels, dtype=object), price=slack.price)
 
 
 @dataclass
