@@ -187,6 +187,58 @@ def test_service_class_table_overrides_settings():
     assert res.objective == pytest.approx(800.0, rel=1e-7)
 
 
+def short_fast_case(late_cost: float = 0.0, allow_unmet: bool = True):
+    """The service case with DC FAST limited to 40 units/yr and a 0.75 target: only 40 of the 75
+    units the target asks for can arrive within the window.  Lost demand costs 1000/unit."""
+    tables = {
+        "products": [widget()],
+        "plants": [site("plant", "PL", product="widget")],
+        "dcs": [site("dc", "FAST", capacity=40.0), site("dc", "SLOW")],
+        "customers": [site("customer", "CU", service_class="express")],
+        "demand": [{"customer": "CU", "product": "widget", "quantity": 100.0}],
+        "service_classes": [
+            {"service_class": "express", "max_days": 2.0, "target_share": 0.75, "late_cost_per_unit": late_cost}
+        ],
+        "lanes": [
+            lane("PL", "FAST", 0.0),
+            lane("PL", "SLOW", 0.0),
+            lane("FAST", "CU", 10.0, days=1.0),
+            lane("SLOW", "CU", 2.0, days=5.0),
+        ],
+    }
+    return build(tables, policy={"allow_unmet_demand": allow_unmet, "unmet_penalty_per_unit": 1000.0})
+
+
+def test_losing_demand_never_helps_a_service_target():
+    # The target counts on-time units against demand (100), not against what is delivered.  Measured
+    # against deliveries, the model could meet 0.75 by delivering only 40 / 0.75 = 53.3 units and losing
+    # 46.7.  Measured against demand, 75 on-time units are needed and FAST carries 40: no plan meets a
+    # hard target, lost demand allowed or not.
+    res = solve(short_fast_case(late_cost=0.0, allow_unmet=True))
+    assert res.status == "infeasible"
+    assert "service_window" in set(res.diagnosis["rule"])
+    short = res.diagnosis[res.diagnosis["rule"] == "service_window"]["amount"].sum()
+    assert short == pytest.approx(35.0, rel=1e-6)  # 75 required − 40 possible
+
+
+def test_priced_service_shortfall_costs_late_delivery_not_lost_demand():
+    # Late delivery priced at κ = 20/unit: each unit through FAST costs 8 more than through SLOW and
+    # saves 20 of late cost, so FAST is filled (40) and SLOW carries the other 60; the 75 − 40 = 35
+    # units short of the target are paid as late: cost = 40 × 10 + 60 × 2 + 35 × 20 = 1220 (all
+    # through SLOW would cost 200 + 75 × 20 = 1700; losing a unit costs 1000), nothing lost.
+    res = solve(short_fast_case(late_cost=20.0))
+    assert res.status == "optimal" and res.verification.passed
+    assert res.objective == pytest.approx(1220.0, rel=1e-7)
+    assert res.cost["late_delivery"] == pytest.approx(700.0, rel=1e-7)
+    assert res.tables["unmet"].empty
+    cheap = solve(short_fast_case(late_cost=5.0))  # κ = 5 < 8: all through SLOW, 75 late: 200 + 375 = 575
+    assert cheap.objective == pytest.approx(575.0, rel=1e-7) and cheap.verification.passed
+    sv = res.tables["service"].set_index("customer").loc["CU"]
+    assert sv["late_units"] == pytest.approx(35.0) and sv["share_within_window"] == pytest.approx(0.40)
+    kpi = dict(zip(res.tables["kpis"]["kpi"], res.tables["kpis"]["value"]))
+    assert kpi["share_within_service_window"] == pytest.approx(0.40)  # on-time ÷ demand
+
+
 # ----------------------------------------------------------------------------- DC decisions
 
 

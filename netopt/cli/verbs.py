@@ -12,7 +12,7 @@ import math
 import sys
 import time
 
-from netopt.cli.common import COMMON, EXIT_INFEASIBLE, EXIT_OK, EXIT_SOLVER, print_warnings, say
+from netopt.cli.common import COMMON, EXIT_INFEASIBLE, EXIT_OK, EXIT_SOLVER, print_warnings, say, warn
 from netopt.data.io import load_case
 from netopt.engine.solve import solve
 from netopt.present.files import _jsonable, atomic_folder, write_result_files, write_run, write_workbook
@@ -208,9 +208,16 @@ def cmd_run(args: argparse.Namespace) -> int:
         say(args, f"results written to {args.out} (comparison.csv, comparison.md, results.xlsx, report.html)")
     if not run.base.has_solution:
         return EXIT_INFEASIBLE if run.base.status in ("infeasible", "unbounded") else EXIT_SOLVER
-    if not run.comparison["verified"].fillna(False).all():
+    comp = run.comparison
+    planned = comp["total_cost"].notna()
+    if not comp.loc[planned, "verified"].fillna(False).astype(bool).all():
         print("error: an independent check failed; see verification.csv in the scenario folders", file=sys.stderr)
         return EXIT_SOLVER
+    for _, row in comp[~planned].iterrows():
+        warn(
+            args,
+            f"{row['scenario']}: {row['status']}, no plan" + (f" ({row['diagnosis']})" if row.get("diagnosis") else ""),
+        )
     return EXIT_OK
 
 

@@ -13,6 +13,36 @@ per component or mode, e.g. ``cost_<component>``.
 
 from __future__ import annotations
 
+from netopt.data.result_columns import (
+    CARBON_COST,
+    CO2_KG,
+    CUSTOMER,
+    DC,
+    DCS_OPEN,
+    DCS_OPEN_NAMES,
+    DESTINATION,
+    DISTANCE,
+    FREIGHT_COST,
+    GAP,
+    LEG,
+    LOST_UNITS,
+    LOST_VALUE,
+    MODE,
+    MODE_MIX,
+    ORIGIN,
+    PIPELINE_COST,
+    PRODUCT,
+    QUANTITY,
+    RANK,
+    REGION,
+    STATUS,
+    TOTAL_COST,
+    TRANSIT,
+    TYPE,
+    UTILISATION,
+    VERIFIED,
+    WITHIN,
+)
 from netopt.data.result_types import UNITS, Kpi, ResultColumn, ResultTable
 from netopt.data.result_types import result_column as _c
 
@@ -24,36 +54,6 @@ def _table(name, meaning, written_by, *columns, aliases=()) -> ResultTable:
     RESULT_TABLES[name] = t
     return t
 
-
-# Columns shared by several tables: one declaration each.
-ORIGIN = _c("origin", "str", "text", "from", "Site the flow leaves")
-DESTINATION = _c("destination", "str", "text", "to", "Site the flow reaches")
-LEG = _c("leg", "str", "text", "leg", "Kind of lane, e.g. dc-customer")
-MODE = _c("mode", "str", "text", "mode", "Transport mode")
-PRODUCT = _c("product", "str", "text", "product", "Product or material")
-QUANTITY = _c("quantity", "float", "units/yr", "units/yr", "Units moved or made per year")
-DISTANCE = _c("distance_km", "float", "km", "distance km", "Lane distance")
-TRANSIT = _c("transit_days", "float", "days", "transit days", "Door-to-door transit time")
-DC = _c("dc", "str", "text", "DC", "Distribution centre")
-CUSTOMER = _c("customer", "str", "text", "customer", "Customer")
-REGION = _c("region", "str", "text", "region", "Region of the site")
-UTILISATION = _c("utilisation", "float", "share", "utilisation", "Throughput over capacity (blank: no limit)")
-CO2_KG = _c("co2_kg", "float", "kg CO2e/yr", "CO2e kg/yr", "Transport CO2e")
-FREIGHT_COST = _c("freight_cost", "float", "currency/yr", "freight cost", "Freight cost")
-PIPELINE_COST = _c("pipeline_cost", "float", "currency/yr", "pipeline cost", "Holding cost of stock in transit")
-CARBON_COST = _c("carbon_cost", "float", "currency/yr", "carbon cost", "CO2e times the carbon price")
-TOTAL_COST = _c("total_cost", "float", "currency/yr", "total cost", "Total landed cost", sense=1)
-STATUS = _c("status", "str", "text", "status", "Solver status (optimal, time_limit, infeasible, …)")
-GAP = _c("gap", "float", "share", "gap", "Proven optimality gap of the solve")
-VERIFIED = _c("verified", "bool", "flag", "checked", "The independent check of the plan passed")
-DCS_OPEN = _c("dcs_open", "int", "count", "DCs open", "DCs open in the plan")
-DCS_OPEN_NAMES = _c("dcs_open_names", "str", "text", "open DCs", "Codes of the open DCs, space-separated")
-LOST_UNITS = _c("lost_units", "float", "units/yr", "lost units/yr", "Demand not delivered", sense=1)
-LOST_VALUE = _c("lost_value", "float", "currency/yr", "lost value", "Penalty value of the demand lost", sense=1)
-MODE_MIX = _c("mode_mix", "str", "text", "mode mix", "Share of tonne-km by mode, as text")
-RANK = _c("rank", "int", "count", "rank", "Position in the ranking, 1 = largest impact")
-TYPE = _c("type", "str", "text", "type", "Kind of element: supplier, plant, dc or lane")
-WITHIN = _c("within_window", "bool", "flag", "in window", "Transit within the customer's service window")
 
 _table(
     "flows",
@@ -134,17 +134,19 @@ _table(
 )
 _table(
     "service",
-    "Per customer: demand, delivered, lost, share delivered within the service window",
+    "Per customer: demand, delivered, lost, share of demand delivered within the service window",
     "netopt solve / run",
     CUSTOMER,
     _c("service_class", "str", "text", "class", "Service class of the customer"),
     _c("max_days", "float", "days", "window days", "Service window: longest transit counted as on time"),
-    _c("target_share", "float", "share", "target", "Share of units the class must get within the window"),
+    _c("target_share", "float", "share", "target", "Share of demand the class must get within the window"),
+    _c("late_cost", "float", "currency/unit", "late cost per unit", "Cost per unit short of the target (0: hard)"),
     _c("demand", "float", "units/yr", "demand units/yr", "Demand of the customer"),
     _c("delivered", "float", "units/yr", "delivered units/yr", "Units delivered"),
     _c("unmet", "float", "units/yr", "lost units/yr", "Demand not delivered"),
     _c("within_window", "float", "units/yr", "in window units/yr", "Units delivered within the window"),
-    _c("share_within_window", "float", "share", "achieved", "Share of delivered units within the window"),
+    _c("share_within_window", "float", "share", "achieved", "Units within the window ÷ demand"),
+    _c("late_units", "float", "units/yr", "late units/yr", "Units short of target × demand within the window"),
     _c("avg_transit_days", "float", "days", "avg transit days", "Unit-weighted transit time of the last leg"),
     _c("target_met", "bool", "flag", "target met", "The achieved share reaches the target"),
 )
@@ -293,6 +295,16 @@ _table(
     _c("meaning", "str", "text", "meaning", "What the amount is"),
 )
 _table(
+    "dc_decisions",
+    "One row per DC and solve of a run (the base included): what the plan does with the DC",
+    "netopt run",
+    _c("scenario", "str", "text", "scenario", "Scenario name (base, or with [hold] / [redesign])"),
+    _c("resolve", "str", "text", "re-solve", "design (the base), hold or redesign"),
+    DC,
+    _c("decision", "str", "text", "decision", "kept, closed, opened, not opened, or out (taken out by the scenario)"),
+    _c("throughput", "float", "units/yr", "throughput units/yr", "Units into the DC"),
+)
+_table(
     "comparison",
     "One row per solve of a run: the base, then each scenario (and each re-solve of it)",
     "netopt run",
@@ -305,10 +317,37 @@ _table(
     TOTAL_COST,
     _c("delta_cost", "float", "currency/yr", "Δ vs base", "Total cost − the base's", signed=True, sense=1),
     _c("delta_pct", "float", "share", "Δ %", "delta_cost / the base's total cost", signed=True, sense=1),
+    _c(
+        "delta_penalty",
+        "float",
+        "currency/yr",
+        "Δ penalties",
+        "Change in penalties for rules not met (late delivery, lost demand)",
+        signed=True,
+        sense=1,
+    ),
+    _c(
+        "delta_operating",
+        "float",
+        "currency/yr",
+        "Δ operating",
+        "Change in operating cost (supply, production, DCs, transport, inventory, carbon); + Δ penalties = Δ",
+        signed=True,
+        sense=1,
+    ),
+    _c(
+        "gap_tolerance",
+        "float",
+        "currency/yr",
+        "gap tolerance",
+        "Largest Δ the optimality gaps of the base and this solve allow: (both gaps) × the larger total",
+    ),
+    _c("within_gap", "bool", "flag", "within gap", "Δ vs base is within the optimality gaps: not a finding"),
     _c("cost_<component>", "float", "currency/yr", "<component> cost", "One cost component"),
+    _c("delta_<component>", "float", "currency/yr", "Δ <component>", "One cost component − the base's", signed=True),
     DCS_OPEN,
     DCS_OPEN_NAMES,
-    _c("share_within_window", "float", "share", "in window", "Share of delivered units in window", sense=-1),
+    _c("share_within_window", "float", "share", "in window", "On-time units ÷ demand", sense=-1),
     _c("avg_transit_days", "float", "days", "avg transit days", "Unit-weighted transit to customers", sense=1),
     _c("max_supplier_share", "float", "share", "max supplier share", "Largest supplier share of a site"),
     MODE_MIX,
@@ -317,6 +356,13 @@ _table(
     _c("co2e_tonnes", "float", "t CO2e/yr", "CO2e t/yr", "Transport CO2e", sense=1),
     VERIFIED,
     _c("method", "str", "text", "method", "How it was solved (warm re-solve, rebuild, …)"),
+    _c(
+        "diagnosis",
+        "str",
+        "text",
+        "why no plan",
+        "For a solve with no plan: the rules that cannot be met, where, how much",
+    ),
     _c("seconds", "float", "seconds", "seconds", "Solve time"),
 )
 _table(
@@ -405,6 +451,9 @@ COMPARISON_VIEW = (
     "total_cost",
     "delta_cost",
     "delta_pct",
+    "delta_operating",
+    "delta_penalty",
+    "within_gap",
     "dcs_open",
     "share_within_window",
     "avg_transit_days",
@@ -415,32 +464,6 @@ COMPARISON_VIEW = (
     "verified",
 )
 """The headline columns of the comparison, in order: Markdown, terminal and report show these."""
-
-KPIS: dict[str, Kpi] = {
-    k.name: k
-    for k in (
-        Kpi("total_landed_cost", "currency/yr", "landed cost", "Sum of the cost components"),
-        Kpi("demand", "units/yr", "demand", "Total demand"),
-        Kpi("delivered", "units/yr", "delivered", "Units delivered to customers"),
-        Kpi("lost_demand", "units/yr", "lost demand", "Demand not delivered"),
-        Kpi("cost_per_unit_delivered", "currency/unit", "cost per unit", "Landed cost / units delivered"),
-        Kpi("avg_transit_days_to_customer", "days", "average transit", "Demand-weighted transit of the last leg"),
-        Kpi("p95_transit_days_to_customer", "days", "95th percentile transit", "95 % of units arrive within"),
-        Kpi("share_within_service_window", "share", "within service window", "Share of delivered units in window"),
-        Kpi("dcs_open", "count", "DCs open", "DCs open in the plan"),
-        Kpi("in_transit_inventory_units", "units", "units in transit", "Average stock in transit"),
-        Kpi("in_transit_inventory_value", "currency", "value in transit", "Average stock in transit at unit value"),
-        Kpi("in_transit_inventory_days", "days", "days in transit", "In-transit value in days of sales"),
-        Kpi("co2e_tonnes", "t CO2e/yr", "CO2e", "Transport CO2e"),
-        Kpi("safety_stock_units", "units", "safety stock", "Exact formula, customers served"),
-        Kpi("safety_stock_cost_model", "currency/yr", "safety stock cost", "Piecewise-linear, in the objective"),
-        Kpi("safety_stock_cost_exact", "currency/yr", "safety stock cost (exact)", "Exact formula"),
-        Kpi("safety_stock_pwl_max_rel_error", "ratio", "safety stock approx. error", "Curve vs. its linear form"),
-        Kpi("network_inventory_value", "currency", "inventory value", "Safety + in-transit stock"),
-        Kpi("network_inventory_days", "days", "inventory days", "Days of sales at unit value"),
-        Kpi("network_inventory_turns", "per year", "inventory turns", "Turns per year"),
-    )
-}
 
 
 def result_table(name: str) -> ResultTable | None:
@@ -464,7 +487,6 @@ def label_of(table: str, column: str) -> str:
 
 __all__ = [
     "COMPARISON_VIEW",
-    "KPIS",
     "RESULT_TABLES",
     "UNITS",
     "Kpi",

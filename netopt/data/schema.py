@@ -335,6 +335,16 @@ _table(
                 min=0,
                 max=1,
             ),
+            _c(
+                "late_cost_per_unit",
+                "float",
+                "currency/unit",
+                False,
+                None,
+                "Cost of each unit of demand short of the target within the window (late delivery); "
+                "blank = the settings' policy.late_cost_per_unit; 0 = the target is a hard rule",
+                min=0,
+            ),
         ),
         key=("service_class",),
         required=False,

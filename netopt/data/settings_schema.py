@@ -89,6 +89,16 @@ SETTINGS: tuple[Setting, ...] = (
         min=0,
         max=1,
     ),
+    Setting(
+        "policy",
+        "late_cost_per_unit",
+        "float",
+        "currency/unit",
+        0.0,
+        "Cost of each unit of demand short of the service target within the window (late delivery); "
+        "0 = the target is a hard rule",
+        min=0,
+    ),
     Setting("policy", "carbon_price_per_tonne", "float", "currency/t CO2e", 0.0, "Carbon price added to cost", min=0),
     Setting("policy", "co2_cap_tonnes", "float", "t CO2e/year", -1.0, "Cap on transport CO2e; -1 = no cap", min=-1),
     Setting(

@@ -131,7 +131,7 @@ class HeldNetwork:
             extra=lambda b: add_held_lines(b, self.ss_lines),
         )
         self.hm = compile_model(self.builder)
-        self.is_lp = set(self.builder.vars) <= {"flow", "make", "unmet", "open"}
+        self.is_lp = set(self.builder.vars) <= {"flow", "make", "unmet", "late", "open"}
         if self.is_lp:
             self.hm.relax_integrality()
         else:

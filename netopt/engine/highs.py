@@ -160,6 +160,14 @@ class HighsModel:
             int(m.sum()), cols[m].astype(np.int32), np.asarray(lo, float), np.asarray(hi, float)
         )
 
+    def set_start(self, block: str, values: np.ndarray) -> None:
+        """Hand HiGHS a partial start: the values of ``block`` only (HiGHS completes the rest by
+        solving the model with those values fixed, and keeps the result as its first incumbent)."""
+        cols = self.col_of[block]
+        m = cols >= 0
+        if m.any():
+            self.highs.setSolution(int(m.sum()), cols[m].astype(np.int32), np.asarray(values, dtype=float)[m])
+
     def relax_integrality(self) -> None:
         """Make every column continuous (after fixing the binaries, the model is an LP)."""
         n = len(self.integrality)

@@ -47,10 +47,16 @@ class Slack:
         return np.asarray(x, dtype=float)[self.cols] if len(self.cols) else np.zeros(0)
 
 
-def add_slack(hm: HighsModel, families: Iterable[str], price: Callable[[np.ndarray], np.ndarray]) -> Slack:
+def add_slack(
+    hm: HighsModel,
+    families: Iterable[str],
+    price: Callable[[np.ndarray], np.ndarray],
+    only: dict[str, np.ndarray] | None = None,
+) -> Slack:
     """Add one slack column per row of each family and per direction that loosens it.
 
-    ``price(hrows)`` gives the cost per unit of slack of each HiGHS row (currency/unit).
+    ``price(hrows)`` gives the cost per unit of slack of each HiGHS row (currency/unit);
+    ``only[family]``, where given, is a mask over the family's label rows: rows to relax.
     """
     h = hm.highs
     lp = h.getLp()
@@ -59,7 +65,10 @@ def add_slack(hm: HighsModel, families: Iterable[str], price: Callable[[np.ndarr
     fam, row, hrow, sign = [], [], [], []
     for name in families:
         rows = hm.rows_of(name)
-        for k in np.flatnonzero(rows >= 0).tolist():
+        keep = rows >= 0
+        if only is not None and name in only:
+            keep &= np.asarray(only[name], dtype=bool)
+        for k in np.flatnonzero(keep).tolist():
             r = int(rows[k])
             for s, loosens in ((1.0, lo[r] > -INF), (-1.0, hi[r] < INF)):
                 if loosens:

@@ -36,6 +36,7 @@ def solve(
     lanes: pd.DataFrame | None = None,
     keep_model: bool = False,
     diagnose: bool = True,
+    start: dict[str, str | bool] | None = None,
 ) -> Result:
     """Solve the network design for ``case``.
 
@@ -46,6 +47,9 @@ def solve(
         progress: callable(stage: str, info: dict) for progress lines.
         keep_model: keep the HiGHS model on the result (for warm re-solves).
         diagnose: on infeasibility, re-solve elastically to name what cannot be met.
+        start: DC decisions (as ``hold``) of a known plan, handed to HiGHS as a start: HiGHS
+            completes it (the flows for those openings) and never returns a plan dearer than it
+            (up to the gap), so a redesign started from its hold is never above the hold.
     """
     say = progress or (lambda stage, info=None: None)
     sset = case.settings["solver"]
@@ -101,6 +105,9 @@ def solve(
         if aids:
             timings["safety_stock_aids"] = aids["seconds"]
             size["pooling_cuts"] = int(aids["cuts"])
+        start_open = fixed_options(net, start)
+        if start_open is not None:
+            hm.set_start("open", start_open)
         info = hm.solve(time_limit=time_limit, mip_gap=mip_gap, threads=threads, progress=cb)
     timings["highs"] = info.solver_seconds
 

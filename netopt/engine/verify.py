@@ -281,31 +281,16 @@ def verify(
             need = np.minimum(k_min, offers.reindex(sites.index).fillna(1).to_numpy(float))
             ck.le("min active suppliers (count)", need, n_act.reindex(sites.index).fillna(0).to_numpy(float))
 
-    # --- service window (share of delivered units)
-    cust = t["customers"]
-    classes = t["service_classes"]
-    if len(classes):
-        c2 = cust.merge(classes, on="service_class", how="left")
-    else:
-        c2 = cust.assign(max_days=float(pol["service_max_days"]), target_share=float(pol["service_target_share"]))
-    c2 = c2.fillna({"max_days": 0.0, "target_share": 0.0})
-    if (c2["target_share"] > 0).any() and len(lane_rows):
-        lw = lane_rows[lane_rows["destination_kind"] == "customer"].merge(
-            c2[["customer", "max_days"]], left_on="destination", right_on="customer"
-        )
-        lw["in"] = np.where(
-            lw["_lane_transit"].to_numpy(float) <= lw["max_days"].to_numpy(float) + 1e-9,
-            lw["quantity"].to_numpy(float),
-            0.0,
-        )
-        g = lw.groupby("destination").agg(d=("quantity", "sum"), w=("in", "sum"))
-        tg = c2.set_index("customer")["target_share"].reindex(g.index).to_numpy(float)
+    # --- service window (share of demand, never of what is delivered)
+    sv = service_shortfall(case, lane_rows)
+    if len(sv):
+        hard = sv["late_cost"].to_numpy(float) <= 0
         ck.le(
-            "service window share",
-            tg * g["d"].to_numpy(float),
-            g["w"].to_numpy(float),
-            scale=g["d"],
-            where=g.index.to_numpy(),
+            "service window: on-time units ≥ target × demand (hard targets)",
+            np.where(hard, sv["required"].to_numpy(float), 0.0),
+            np.where(hard, sv["on_time"].to_numpy(float), 0.0),
+            scale=sv["demand"],
+            where=sv["customer"].to_numpy(),
         )
 
     # --- single sourcing and one mode per lane
@@ -472,6 +457,7 @@ def recompute_cost(
         if len(un)
         else 0.0
     )
+    late = service_shortfall(case, f)
     cost = {
         "supply": supply,
         "production": production,
@@ -481,6 +467,34 @@ def recompute_cost(
         "transport": float((q * freight).sum()),
         "pipeline_inventory": float((q * v * hr * days / 365.0).sum()),
         "carbon": float(co2.sum() / 1000.0 * float(s["policy"]["carbon_price_per_tonne"])),
+        "late_delivery": float((late["short"] * late["late_cost"]).sum()),
         "unmet_penalty": unmet_cost,
     }
     return cost, float(co2.sum())
+
+
+def service_shortfall(case: Case, lane_rows: pd.DataFrame) -> pd.DataFrame:
+    """Per customer with a service target, from the input tables and the matched flows: demand,
+    required on-time units (target × demand), on-time units (last-leg lane transit within the
+    window), short = max(0, required − on-time) (units/yr), and the late cost per unit."""
+    t = case.tables
+    pol = case.settings["policy"]
+    cust = t["customers"][["customer", "service_class"]]
+    classes = t["service_classes"]
+    if len(classes):
+        c = cust.merge(classes, on="service_class", how="left")
+        c["late_cost"] = pd.to_numeric(c["late_cost_per_unit"], errors="coerce")
+    else:
+        c = cust.assign(max_days=float(pol["service_max_days"]), target_share=float(pol["service_target_share"]))
+        c["late_cost"] = np.nan
+    c = c.fillna({"max_days": 0.0, "target_share": 0.0, "late_cost": float(pol["late_cost_per_unit"])})
+    dem = t["demand"]
+    c["demand"] = c["customer"].map(dem[dem["quantity"] > 0].groupby("customer")["quantity"].sum()).fillna(0.0)
+    c = c[(c["target_share"] > 0) & (c["demand"] > 0)].reset_index(drop=True)
+    last = lane_rows[lane_rows["destination_kind"] == "customer"]
+    window = last["destination"].map(c.set_index("customer")["max_days"])
+    on_time = last.loc[last["_lane_transit"] <= window + 1e-9].groupby("destination")["quantity"].sum()
+    c["on_time"] = c["customer"].map(on_time).fillna(0.0)
+    c["required"] = c["target_share"] * c["demand"]
+    c["short"] = np.maximum(0.0, c["required"] - c["on_time"])
+    return c[["customer", "demand", "required", "on_time", "short", "late_cost"]]

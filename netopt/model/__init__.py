@@ -39,8 +39,11 @@ COST_COMPONENTS = (
     "pipeline_inventory",
     "safety_stock",
     "carbon",
+    "late_delivery",
     "unmet_penalty",
 )
+PENALTY_COMPONENTS = ("late_delivery", "unmet_penalty")
+"""Components that price a rule not met (late delivery, lost demand); every other one is operating cost."""
 
 
 def build_model(

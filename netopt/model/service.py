@@ -1,8 +1,10 @@
-"""Service: share of each customer's deliveries arriving within its window; single sourcing.
+"""Service: share of each customer's demand arriving within its window; single sourcing.
 
 - Window rule per customer with a target τ > 0: Σ deliveries on last-leg arcs whose
-  transit days ≤ the class window ≥ τ × Σ deliveries.  (With lost demand allowed the
-  target applies to what is delivered; lost units are priced by the penalty.)
+  transit days ≤ the class window ≥ τ × the customer's demand.  The target is measured
+  against demand, never against what is delivered, so losing units can never help meet
+  it.  A shortfall is hard, or, where the class (or ``policy.late_cost_per_unit``) prices
+  late delivery, each unit short costs that price (variable ``late``, cost ``late_delivery``).
 - Single sourcing: each (customer, product) is served from one origin (DC or plant):
   binary ``assign`` per (origin, customer, product), flow = demand × assign
   (flow ≤ demand × assign when lost demand is allowed).
@@ -17,7 +19,7 @@ from netopt.model.openings import option_terms
 
 
 def add(b: Builder) -> None:
-    """Service: share delivered within each customer's window; single sourcing.
+    """Service: share of demand delivered within each customer's window; single sourcing.
 
     A_C(c) are the last-leg arcs into customer c (from a DC or a plant, every mode and
     product); A_C(i,c,p) those from origin i carrying p.  With lost demand allowed (or in the
@@ -25,16 +27,22 @@ def add(b: Builder) -> None:
     the demand, the rest is lost at the penalty).  The row marked † is never relaxed in the
     elastic diagnosis.
 
-        service_window:        Σ_{a ∈ A_C(c)} (ω_a − τ_c) x_a ≥ 0                   ∀ customer c with τ_c > 0
+        service_window:        Σ_{a ∈ A_C(c)} ω_a x_a + l_c ≥ τ_c D_c                ∀ customer c with τ_c > 0, D_c > 0
         single_source_flow:    Σ_{a ∈ A_C(i,c,p)} x_a − q_{c,p} v_{i,c,p} = 0         ∀ (i, c, p) with a last-leg arc
         single_source_choice:  Σ_i v_{i,c,p} = 1                                       ∀ (c, p) with a candidate origin
         single_source_open †:  v_{i,c,p} − Σ_{o ∈ O(i)} y_o ≤ 0                        ∀ (i, c, p) with i a DC
 
-    The single-sourcing rows and binaries exist only with ``policy.single_sourcing``.
+    l_c exists only where κ_c > 0 (otherwise the target is hard).  The single-sourcing rows and
+    binaries exist only with ``policy.single_sourcing``.
+
+        C[late_delivery] = Σ_c κ_c l_c
 
     | symbol | meaning | unit | name in code |
     |---|---|---|---|
-    | τ_c | least share of c's deliveries within its window | share | ``customers.target_share`` (service class or ``policy.service_target_share``) |
+    | τ_c | least share of c's demand within its window | share | ``customers.target_share`` (service class or ``policy.service_target_share``) |
+    | D_c | demand of customer c, all products | units/yr | ``demand.quantity`` summed per customer |
+    | l_c | units of c's demand short of the target within the window (late) | units/yr | variable block ``late`` |
+    | κ_c | cost per late unit | currency/unit | ``customers.late_cost`` (``service_classes.late_cost_per_unit`` or ``policy.late_cost_per_unit``) |
     | ω_a | 1 if the arc's transit days ≤ the customer's window, else 0 | 0/1 | arc column ``within_window`` (``customers.max_days``) |
     | v_{i,c,p} | customer c gets product p from origin i | binary | variable block ``assign`` |
     """
@@ -43,20 +51,27 @@ def add(b: Builder) -> None:
     cust = net.customers
     last = np.flatnonzero(arcs["destination_kind"].eq("customer").to_numpy())
     targets = cust[cust["target_share"] > 0].reset_index(drop=True)
+    demand = net.demand.groupby("customer")["quantity"].sum()
+    targets = targets.assign(demand=targets["customer"].map(demand).fillna(0.0).to_numpy(float))
+    targets = targets[targets["demand"] > 0].reset_index(drop=True)
     if len(targets) and len(last):
         sub = arcs.iloc[last]
         r = lookup(targets, sub, ["customer"], ["destination"])
-        ok = r >= 0
-        within = sub["within_window"].to_numpy(bool)
-        tau = targets["target_share"].to_numpy(float)
-        coef = np.where(within, 1.0, 0.0) - tau[np.maximum(r, 0)]
-        keep = ok & (coef != 0)
+        keep = (r >= 0) & sub["within_window"].to_numpy(bool)
+        terms = [Term("flow", last[keep], np.ones(int(keep.sum())), r[keep])]
+        priced = np.flatnonzero(targets["late_cost"].to_numpy(float) > 0)
+        if len(priced):
+            b.add_vars("late", targets.iloc[priced][["customer"]])
+            terms.append(Term("late", np.arange(len(priced)), np.ones(len(priced)), priced))
+            b.add_cost(
+                "late_delivery", Term("late", np.arange(len(priced)), targets["late_cost"].to_numpy(float)[priced])
+            )
         b.add_rows(
             "service_window",
             targets[["customer", "service_class", "max_days", "target_share"]],
-            [Term("flow", last[keep], coef[keep], r[keep])],
+            terms,
             ">=",
-            0.0,
+            targets["target_share"].to_numpy(float) * targets["demand"].to_numpy(float),
         )
 
     if bool(net.settings["policy"]["single_sourcing"]) and len(last):

@@ -35,7 +35,8 @@ class Network:
             demand_cv (ratio: the demand row's, else the product's, else 0; for safety stock).
         arcs_all: the arcs before dominated modes were pruned (same columns as ``arcs``),
             for reports that show every admissible mode of a lane.
-        customers: customer, service_class, max_days, target_share.
+        customers: customer, service_class, max_days, target_share, late_cost (currency per unit
+            short of the target within the window; 0 = the target is hard).
         bom: product, material, quantity_per_unit.
         total_demand: units/yr of all finished products.
     """
@@ -231,6 +232,12 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
         customers["target_share"] = float(s["policy"]["service_target_share"])
     customers["max_days"] = customers["max_days"].fillna(0.0)
     customers["target_share"] = customers["target_share"].fillna(0.0)
+    late = float(s["policy"]["late_cost_per_unit"])
+    if len(classes):
+        by_class = pd.to_numeric(classes.set_index("service_class")["late_cost_per_unit"], errors="coerce")
+        customers["late_cost"] = customers["service_class"].map(by_class).astype(float).fillna(late)
+    else:
+        customers["late_cost"] = late
     window = arcs["destination"].map(customers.set_index("customer")["max_days"])
     arcs["within_window"] = arcs["destination_kind"].eq("customer") & (arcs["transit_days"] <= window + 1e-9)
 

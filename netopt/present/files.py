@@ -126,13 +126,14 @@ def _label_folder(label: str) -> str:
 def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None = None, report: bool = True) -> Path:
     """Write a base-plus-scenarios run atomically.
 
-    Layout: ``comparison.csv``, ``comparison.md``, ``results.xlsx`` (comparison and the
+    Layout: ``comparison.csv``, ``comparison.md``, ``dc_decisions.csv`` (DC × solve), ``results.xlsx`` (comparison and the
     base's tables), ``summary.json``, ``base/`` and ``scenarios/<name>/`` with each
     solve's full results, and ``report.html`` when the report module is available.
     """
     out = Path(out)
     with atomic_folder(out) as tmp:
         run.comparison.to_csv(tmp / "comparison.csv", index=False)
+        run.dc_decisions.to_csv(tmp / "dc_decisions.csv", index=False)
         (tmp / "comparison.md").write_text(
             f"# Scenario comparison: {run.base.case_name}\n\n"
             + markdown_table(comparison_view(run.comparison), "comparison", comparison_labels(run.comparison))
@@ -152,7 +153,7 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         }
         for name, df in frontiers.items():
             df.to_csv(tmp / f"{name}.csv", index=False)
-        sheets = {"comparison": run.comparison}
+        sheets = {"comparison": run.comparison, "dc_decisions": run.dc_decisions}
         sheets.update(frontiers)
         sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
         sheets.update(extra_sheets or {})

@@ -7,7 +7,8 @@ import os
 import shutil
 import sys
 
-from netopt.data.results_schema import COMPARISON_VIEW, KPIS, label_of
+from netopt.data.kpi_schema import KPIS
+from netopt.data.results_schema import COMPARISON_VIEW, label_of
 from netopt.present.formats import cell_text, column_kind, kpi_kind, kpi_label, unit_text
 
 

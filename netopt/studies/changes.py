@@ -223,8 +223,40 @@ def _edit_settings(ed: CaseEdit, ch: Change, section: str) -> None:
             s[section][key] = v
 
 
+SERVICE_SETTINGS = ("service_max_days", "service_target_share")
+
+
 def _edit_policy(ed: CaseEdit, ch: Change) -> None:
+    if len(ed.tables["service_classes"]) and any(k in ch for k in SERVICE_SETTINGS):
+        ed.errors.append(
+            "the case has a service_classes table, so [policy] service_max_days / service_target_share "
+            'do not apply; change a class with kind = "service_class"'
+        )
+        return
     _edit_settings(ed, ch, "policy")
+
+
+SERVICE_CLASS_FIELDS = ("max_days", "target_share", "late_cost_per_unit")
+
+
+def _edit_service_class(ed: CaseEdit, ch: Change) -> None:
+    classes = ed.tables["service_classes"]
+    name = ed.text(ch, "service_class")
+    mask = classes["service_class"].astype(str) == name
+    if not mask.any():
+        known = ", ".join(sorted(classes["service_class"].astype(str))) or "none: the case has no service_classes table"
+        ed.errors.append(f"unknown service class '{name}' (known: {known})")
+        return
+    given = [k for k in SERVICE_CLASS_FIELDS if k in ch]
+    if not given:
+        ed.errors.append(f"give at least one of {', '.join(SERVICE_CLASS_FIELDS)}")
+    bad = set(ch) - {"kind", "service_class", *SERVICE_CLASS_FIELDS}
+    if bad:
+        ed.errors.append(f"unknown field(s): {', '.join(sorted(bad))}")
+    for k in given:
+        v = ed.number(ch, k)
+        if v is not None:
+            classes.loc[mask, k] = v
 
 
 def _edit_setting(ed: CaseEdit, ch: Change) -> None:
@@ -408,6 +440,12 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             _edit_policy,
         ),
         ChangeKind("setting", "Change any setting: section, then name = value", _edit_setting),
+        ChangeKind(
+            "service_class",
+            "Change a service class: service_class, and max_days (days), target_share (share of demand) "
+            "and/or late_cost_per_unit (currency/unit; 0 = hard)",
+            _edit_service_class,
+        ),
         ChangeKind(
             "scale_demand",
             "Scale demand: factor; optional region, customer, product filters",

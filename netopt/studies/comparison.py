@@ -3,6 +3,34 @@
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
+
+from netopt.model import PENALTY_COMPONENTS
+
+
+def gap_tolerance(base_total: float, base_gap: float, total: float, gap: float) -> float:
+    """The largest cost change (currency/yr) that two solves can show while both are within their
+    proven optimality gaps: (gap of the base + gap of this solve) × the larger total.  A change
+    smaller than this is "within the optimality gap", not a finding."""
+
+    def g(v) -> float:
+        v = float(v) if v is not None else 0.0
+        return v if np.isfinite(v) else 0.0
+
+    scale = max(abs(base_total) if np.isfinite(base_total) else 0.0, abs(total) if np.isfinite(total) else 0.0)
+    return max(g(base_gap) + g(gap), 1e-9) * scale
+
+
+def diagnosis_text(diagnosis: pd.DataFrame | None, most: int = 4) -> str:
+    """What an infeasible solve could not meet, in one line: rule, how many rows, where, amount."""
+    if diagnosis is None or diagnosis.empty:
+        return ""
+    parts = []
+    for rule, g in diagnosis.groupby("rule", sort=False):
+        where = "; ".join(g["where"].astype(str).head(2)) + (" …" if len(g) > 2 else "")
+        amount = pd.to_numeric(g["amount"], errors="coerce").sum()
+        parts.append(f"{rule} ×{len(g)} ({where}): {amount:,.0f}")
+    return " | ".join(parts[:most]) + (f" | +{len(parts) - most} more rules" if len(parts) > most else "")
 
 
 def comparison_row(
@@ -25,7 +53,15 @@ def comparison_row(
         "gap": r.gap,
     }
     if not r.has_solution:
-        row.update({"total_cost": np.nan, "verified": False, "method": method, "seconds": seconds})
+        row.update(
+            {
+                "total_cost": np.nan,
+                "verified": False,
+                "method": method + (" (lost demand allowed)" if r.lost_demand_allowed else ""),
+                "seconds": seconds,
+                "diagnosis": diagnosis_text(r.diagnosis),
+            }
+        )
         return row
     cost = r.cost
     total = float(sum(cost.values()))
@@ -33,8 +69,17 @@ def comparison_row(
     row["total_cost"] = total
     row["delta_cost"] = total - btotal
     row["delta_pct"] = (total - btotal) / btotal if btotal else np.nan
+    row["gap_tolerance"] = gap_tolerance(btotal, base.gap, total, r.gap)
+    row["within_gap"] = bool(abs(total - btotal) <= row["gap_tolerance"])
+    # The delta, explained: operating cost versus penalties for rules not met, then each component.
+    bcost = base.cost if base.has_solution else {}
+    delta = {k: float(v) - float(bcost.get(k, 0.0)) for k, v in cost.items()}
+    row["delta_penalty"] = sum(v for k, v in delta.items() if k in PENALTY_COMPONENTS)
+    row["delta_operating"] = row["delta_cost"] - row["delta_penalty"]
     for k, v in cost.items():
         row[f"cost_{k}"] = v
+    for k, v in delta.items():
+        row[f"delta_{k}"] = v
     d = r.tables["dcs"]
     row["dcs_open"] = int(d["open"].sum())
     row["dcs_open_names"] = " ".join(d.loc[d["open"], "dc"])
@@ -53,3 +98,37 @@ def comparison_row(
     row["method"] = method + (" (lost demand allowed)" if r.lost_demand_allowed else "")
     row["seconds"] = seconds
     return row
+
+
+DC_DECISION_WORDS = {
+    ("existing", True): "kept",
+    ("existing", False): "closed",
+    ("candidate", True): "opened",
+    ("candidate", False): "not opened",
+}
+"""A DC's decision in a solve, from its status and whether it is open; ``out`` where the scenario
+takes it out (or forces it closed) and the base case does not."""
+
+
+def dc_decisions(label: str, how: str, r, sc_case, base_case) -> pd.DataFrame:
+    """One row per DC of one solve: scenario, resolve, dc, decision, throughput (units/yr)."""
+    cols = ["scenario", "resolve", "dc", "decision", "throughput"]
+    if not r.has_solution:
+        return pd.DataFrame(columns=cols)
+    d = r.tables["dcs"]
+    forced_now = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
+    forced_base = base_case.tables["dcs"].set_index("dc")["force"].astype(str)
+    words = [DC_DECISION_WORDS[(str(s), bool(o))] for s, o in zip(d["status"], d["open"])]
+    out = [
+        forced_now.get(dc, "") == "closed" and forced_base.get(dc, "") != "closed" and not bool(o)
+        for dc, o in zip(d["dc"], d["open"])
+    ]
+    return pd.DataFrame(
+        {
+            "scenario": label,
+            "resolve": how,
+            "dc": d["dc"].to_numpy(),
+            "decision": np.where(out, "out", words),
+            "throughput": d["throughput"].to_numpy(float),
+        }
+    )[cols]

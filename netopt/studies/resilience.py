@@ -51,6 +51,7 @@ import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
 from netopt.data.results_schema import RESULT_TABLES
+from netopt.engine.held import held_decisions
 from netopt.studies.changes import element_changes, held_plan
 from netopt.studies.scenarios import Scenario, apply_changes, solve_or_lose
 from netopt.studies.sweep_exec import (
@@ -243,7 +244,7 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
 def redesign_resolve(spec: SweepSpec, el: dict) -> dict:
     """Redesign with ``el`` out (openings re-optimised, a MIP); result columns prefixed ``redesign_``."""
     sc_case = apply_changes(spec.case, Scenario(el["id"], element_changes(el), resolve="redesign"))
-    r = solve_or_lose(sc_case)
+    r = solve_or_lose(sc_case, start=held_decisions(spec.held, sc_case))
     out: dict[str, Any] = {"redesign_status": r.status}
     if not r.has_solution:
         return out

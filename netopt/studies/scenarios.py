@@ -42,7 +42,7 @@ from netopt.engine.result import Result
 from netopt.engine.solve import solve
 from netopt.studies.case_edit import CaseEdit, site_kinds
 from netopt.studies.changes import CHANGE_KINDS, resolve_held
-from netopt.studies.comparison import comparison_row
+from netopt.studies.comparison import comparison_row, dc_decisions
 from netopt.studies.frontier import scenario_frontier
 
 RESOLVE = ("redesign", "hold", "both")
@@ -221,7 +221,10 @@ class ScenarioRun:
     results: dict[str, Result] = field(default_factory=dict)
     comparison: pd.DataFrame = field(default_factory=pd.DataFrame)
     scenarios: list[Scenario] = field(default_factory=list)
-    frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)  # scenario → cost–CO2 frontier table
+    frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)
+    dc_decisions: pd.DataFrame = field(
+        default_factory=pd.DataFrame
+    )  # DC × solve: decision, throughput  # scenario → cost–CO2 frontier table
 
 
 def solve_or_lose(case: Case, **kw) -> Result:
@@ -294,6 +297,7 @@ def run_scenarios(
     run = ScenarioRun(base=base, scenarios=chosen)
     run.results["base"] = base
     rows = [comparison_row("base", "", "design", base, base, "mip", time.perf_counter() - t0, "the base case")]
+    decisions = [dc_decisions("base", "design", base, case, case)]
     held: HeldNetwork | None = None
     for s in chosen:
         sc_case = cases[s.name]
@@ -313,11 +317,14 @@ def run_scenarios(
                     r = solve_or_lose(sc_case, hold=held_decisions(base.held_openings(), sc_case))
                     method = "rebuilt"
             else:
-                r = solve_or_lose(sc_case)
+                # Started from the hold's plan (the base's DCs less those the scenario closes), so a
+                # redesign is never dearer than holding the network (up to the gap).
+                r = solve_or_lose(sc_case, start=held_decisions(base.held_openings(), sc_case))
                 method = "mip"
             sec = time.perf_counter() - t1
             run.results[label] = r
             rows.append(comparison_row(label, s.based_on, how, r, base, method, sec, s.description))
+            decisions.append(dc_decisions(label, how, r, sc_case, case))
             say("done", {"name": label, "status": r.status, "seconds": sec})
         if s.frontier_points:
             say("frontier_start", {"name": s.name, "points": s.frontier_points})
@@ -325,4 +332,5 @@ def run_scenarios(
             run.frontiers[s.name] = scenario_frontier(sc_case, s)
             say("frontier_done", {"name": s.name, "points": s.frontier_points, "seconds": time.perf_counter() - t1})
     run.comparison = pd.DataFrame(rows)
+    run.dc_decisions = pd.concat(decisions, ignore_index=True)
     return run

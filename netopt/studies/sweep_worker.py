@@ -170,7 +170,8 @@ class Relief:
 
 
 def add_relief(held) -> Relief:
-    """Add one priced relief column per policy row of the held LP (see :data:`POLICY_ROWS`).
+    """Add one priced relief column per policy row of the held LP (see :data:`POLICY_ROWS`; service
+    windows only where the target is hard: a priced target already has its late-delivery units).
 
     Each column enters its row in the direction that loosens it and costs the row's shadow
     price in the base solution plus :data:`RELIEF_EPS`.  By LP duality the base stays
@@ -179,7 +180,14 @@ def add_relief(held) -> Relief:
     """
     dual = np.asarray(held.hm.highs.getSolution().row_dual, float)
     families = [f for f in POLICY_ROWS if f in held.builder.row_labels]
-    slack = add_slack(held.hm, families, lambda rows: np.abs(dual[rows]) + RELIEF_EPS)
+    only = {}
+    if "service_window" in families:
+        # A customer whose class prices late delivery already has its priced shortfall (the model's
+        # ``late`` units); only hard targets get relief, so a late unit means the same as in a scenario.
+        late = held.net.customers.set_index("customer")["late_cost"]
+        labels = held.builder.row_labels["service_window"]["customer"]
+        only["service_window"] = labels.map(late).fillna(0.0).to_numpy(float) <= 0
+    slack = add_slack(held.hm, families, lambda rows: np.abs(dual[rows]) + RELIEF_EPS, only=only)
     labels = [str(held.builder.row_labels[f].iloc[k, 0]) for f, k in zip(slack.family, slack.row)]
     return Relief(cols=slack.cols, family=slack.family, label=np.array(labels, dtype=object), price=slack.price)
 

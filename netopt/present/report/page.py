@@ -17,7 +17,8 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from netopt.data.results_schema import KPIS, result_table
+from netopt.data.kpi_schema import KPIS
+from netopt.data.results_schema import result_table
 from netopt.present.formats import cell_text, kpi_kind, kpi_label, unit_text
 from netopt.present.labels import DISCLAIMER
 from netopt.present.report.charts import (

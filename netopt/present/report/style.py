@@ -58,6 +58,7 @@ COST_COLOURS = {
     "pipeline_inventory": "#5f86ab",
     "safety_stock": "#a7c1da",
     "carbon": "#5b8a3a",
+    "late_delivery": "#d08a3c",
     "unmet_penalty": "#b3261e",
 }
 

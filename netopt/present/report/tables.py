@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from netopt.data.results_schema import COMPARISON_VIEW, KPIS, column_of, label_of
+from netopt.data.kpi_schema import KPIS
+from netopt.data.results_schema import COMPARISON_VIEW, column_of, label_of
 from netopt.present.formats import cell_text, column_kind, kpi_kind, kpi_label, unit_text
 
 MAX_TABLE_ROWS = 60
@@ -103,22 +104,10 @@ MONEY_COLUMNS = ("total_cost", "delta_cost", "delta_pct")
 
 
 def money_tolerance(comp: pd.DataFrame, row) -> float:
-    """A cost change smaller than this (currency/yr) is within the optimality gaps of the base and
-    of this row's solve: not coloured.  Each row uses its own gap, so one time-limited scenario
-    does not hide the changes of the others."""
-    base_total = float(comp["total_cost"].iloc[0]) if "total_cost" in comp else float("nan")
-    if not np.isfinite(base_total):
-        return 0.5
-
-    def gap(v):
-        g = pd.to_numeric(pd.Series([v]), errors="coerce").iloc[0]
-        return 0.0 if g is None or not np.isfinite(g) else float(g)
-
-    base_gap = gap(comp["gap"].iloc[0]) if "gap" in comp else 0.0
-    row_gap = gap(row.get("gap", 0.0))
-    total = float(row.get("total_cost", base_total))
-    scale = max(abs(base_total), abs(total) if np.isfinite(total) else 0.0)
-    return max(base_gap + row_gap, 1e-9) * scale
+    """The row's ``gap_tolerance`` (currency/yr, from the comparison table): cost changes smaller than
+    this are within the optimality gaps of the base and of the row's solve, and are not coloured."""
+    v = pd.to_numeric(pd.Series([row.get("gap_tolerance", np.nan)]), errors="coerce").iloc[0]
+    return float(v) if np.isfinite(v) else 0.5
 
 
 def comparison_table(comp: pd.DataFrame) -> dict:

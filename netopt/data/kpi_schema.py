@@ -1,0 +1,36 @@
+"""The rows of the ``kpis`` result table: each indicator's unit, label and meaning, declared once."""
+
+from __future__ import annotations
+
+from netopt.data.result_types import Kpi
+
+KPIS: dict[str, Kpi] = {
+    k.name: k
+    for k in (
+        Kpi("total_landed_cost", "currency/yr", "landed cost", "Sum of the cost components"),
+        Kpi("demand", "units/yr", "demand", "Total demand"),
+        Kpi("delivered", "units/yr", "delivered", "Units delivered to customers"),
+        Kpi("lost_demand", "units/yr", "lost demand", "Demand not delivered"),
+        Kpi("cost_per_unit_delivered", "currency/unit", "cost per unit", "Landed cost / units delivered"),
+        Kpi("avg_transit_days_to_customer", "days", "average transit", "Demand-weighted transit of the last leg"),
+        Kpi("p95_transit_days_to_customer", "days", "95th percentile transit", "95 % of units arrive within"),
+        Kpi(
+            "share_within_service_window",
+            "share",
+            "within service window",
+            "On-time units ÷ demand (lost units count as late)",
+        ),
+        Kpi("dcs_open", "count", "DCs open", "DCs open in the plan"),
+        Kpi("in_transit_inventory_units", "units", "units in transit", "Average stock in transit"),
+        Kpi("in_transit_inventory_value", "currency", "value in transit", "Average stock in transit at unit value"),
+        Kpi("in_transit_inventory_days", "days", "days in transit", "In-transit value in days of sales"),
+        Kpi("co2e_tonnes", "t CO2e/yr", "CO2e", "Transport CO2e"),
+        Kpi("safety_stock_units", "units", "safety stock", "Exact formula, customers served"),
+        Kpi("safety_stock_cost_model", "currency/yr", "safety stock cost", "Piecewise-linear, in the objective"),
+        Kpi("safety_stock_cost_exact", "currency/yr", "safety stock cost (exact)", "Exact formula"),
+        Kpi("safety_stock_pwl_max_rel_error", "ratio", "safety stock approx. error", "Curve vs. its linear form"),
+        Kpi("network_inventory_value", "currency", "inventory value", "Safety + in-transit stock"),
+        Kpi("network_inventory_days", "days", "inventory days", "Days of sales at unit value"),
+        Kpi("network_inventory_turns", "per year", "inventory turns", "Turns per year"),
+    )
+}
