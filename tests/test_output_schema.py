@@ -8,8 +8,8 @@ from pathlib import Path
 import pytest
 
 from netopt import load_case, run_scenarios
-from netopt.data.kpi_schema import KPIS
 from netopt.data.result_types import ResultColumn
+from netopt.data.result_views import KPIS
 from netopt.data.results_schema import RESULT_TABLES, UNITS, column_of, label_of, result_table
 from netopt.present.files import write_run
 from netopt.present.outputs_doc import OUTPUTS_DOC, outputs_markdown, write_outputs_doc

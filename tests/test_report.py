@@ -19,7 +19,8 @@ from geographiclib.geodesic import Geodesic
 
 from netopt.api import Result
 from netopt.data.io import load_case
-from netopt.data.results_schema import COMPARISON_VIEW, label_of
+from netopt.data.result_views import COMPARISON_VIEW
+from netopt.data.results_schema import label_of
 from netopt.present.files import DISCLAIMER, write_run
 from netopt.present.formats import kpi_label
 from netopt.present.report import map_layout, project, render_report, site_table, write_report

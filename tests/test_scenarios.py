@@ -444,3 +444,25 @@ def test_a_change_within_the_optimality_gaps_is_flagged_not_reported_as_a_findin
         assert row["gap_tolerance"] == pytest.approx(max(base.gap + row["gap"], 1e-9) * scale, rel=1e-12)
         assert bool(row["within_gap"]) == (abs(row["delta_cost"]) <= row["gap_tolerance"])
     assert comp.loc["same", "within_gap"] and not comp.loc["more", "within_gap"]
+
+
+def test_check_applies_every_scenario_and_names_each_bad_change(tmp_path, capsys):
+    """`netopt check` catches in scenarios.toml what `run` would: an unknown site and an unknown mode,
+    both in one report with the scenario and change named, exit code 2."""
+    from casekit import make_case_dir
+
+    from netopt.cli import main
+
+    toml = (
+        '[[scenario]]\nname = "typo"\n[[scenario.change]]\nkind = "site_out"\nsite = "NO_SUCH_SITE"\n'
+        '[[scenario]]\nname = "mode"\n[[scenario.change]]\nkind = "scale_cost"\ntarget = "mode_rate"\n'
+        'mode = "hovercraft"\nfactor = 2\n'
+    )
+    folder = make_case_dir(tmp_path, scenarios=toml)
+    with pytest.raises(SystemExit) as e:
+        main(["check", str(folder)])
+    assert e.value.code == 2
+    err = capsys.readouterr().err
+    assert "scenario 'typo', change 1 (site_out): unknown site 'NO_SUCH_SITE'" in err
+    assert "scenario 'mode', change 1 (scale_cost): unknown mode 'hovercraft'" in err
+    assert "Traceback" not in err

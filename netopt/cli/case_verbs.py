@@ -11,6 +11,7 @@ from netopt.data.io import load_case
 from netopt.data.schema import TABLES
 from netopt.data.templates import write_blank_case
 from netopt.network.lanes import case_lanes
+from netopt.studies.scenarios import parse_scenarios, scenario_cases
 
 # --------------------------------------------------------------------------- template
 
@@ -51,7 +52,8 @@ def add_check(sub) -> None:
         help="validate a case and summarise the network",
         description="Load a case (a folder of CSV files with settings.toml, or one .xlsx workbook), check every "
         "table against the schema and the links between them (products, sites, lanes, modes), check "
-        "that every customer's demand can be reached from a plant or supplier, and print a summary: "
+        "that every customer's demand can be reached from a plant or supplier, apply every scenario of "
+        "scenarios.toml to a copy of the case and check the result, and print a summary: "
         "suppliers, plants, existing and candidate DCs, customers, products, total demand and lanes "
         "by mode.  Every problem is reported at once with its table, row and column; exit code 2 "
         "when any error is found.",
@@ -104,7 +106,11 @@ def case_summary(case: Case) -> list[str]:
 
 def cmd_check(args: argparse.Namespace) -> int:
     case = load_case(args.case)
+    scenarios = parse_scenarios(case.scenarios)
+    scenario_cases(case, scenarios)  # each scenario's changes applied and the result checked, as `run` does
     print_warnings(args, case)
     for line in case_summary(case):
         say(args, line)
+    if scenarios:
+        say(args, f"  scenarios   {len(scenarios)} checked (every change applied to a copy of the case)")
     return EXIT_OK

@@ -18,8 +18,9 @@ from netopt.engine.solve import solve
 from netopt.present.files import _jsonable, atomic_folder, write_result_files, write_run, write_workbook
 from netopt.present.report import write_report
 from netopt.present.stress import stress_command
-from netopt.present.terminal import money_text, print_comparison, print_frontier, print_result
-from netopt.studies.frontier import frontier
+from netopt.present.terminal import money_text, print_comparison, print_dc_matrix, print_frontier, print_result
+from netopt.studies.comparison import dc_decision_matrix
+from netopt.studies.frontier import sweep
 from netopt.studies.scenarios import parse_scenarios, run_scenarios
 
 SOLVER_OPTIONS = argparse.ArgumentParser(add_help=False)
@@ -205,6 +206,7 @@ def cmd_run(args: argparse.Namespace) -> int:
         print(json.dumps(_json(run.comparison.to_dict(orient="records")), indent=2))
     elif not args.quiet:
         print_comparison(run.comparison)
+        print_dc_matrix(dc_decision_matrix(run.dc_decisions))
         say(args, f"results written to {args.out} (comparison.csv, comparison.md, results.xlsx, report.html)")
     if not run.base.has_solution:
         return EXIT_INFEASIBLE if run.base.status in ("infeasible", "unbounded") else EXIT_SOLVER
@@ -257,8 +259,10 @@ def add_stress(sub) -> None:
         "--hard-rules",
         action="store_true",
         help="never bend service windows, share limits or the CO2 cap during a disruption "
-        "(default: bending is allowed at each rule's base shadow price, and reported)",
+        "(default: bending is allowed at each rule's base shadow price, and reported; a service class "
+        "that prices late delivery is never bent, its late units are priced as in `netopt run`)",
     )
+    p.add_argument("--no-report", action="store_true", help="skip the HTML report")
     p.set_defaults(func=cmd_stress)
 
 
@@ -274,6 +278,7 @@ def cmd_stress(args: argparse.Namespace) -> int:
         fresh=args.fresh,
         rules="hard" if args.hard_rules else "priced",
         quiet=args.quiet,
+        report=not args.no_report,
     )
 
 
@@ -291,9 +296,12 @@ def add_frontier(sub) -> None:
         "frontier_points = N in scenarios.toml (then `netopt run` writes it).",
     )
     p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
-    p.add_argument("--out", required=True, metavar="DIR", help="results folder (frontier.csv, frontier.xlsx)")
+    p.add_argument(
+        "--out", required=True, metavar="DIR", help="results folder (frontier.csv, frontier.xlsx, report.html)"
+    )
     p.add_argument("--points", type=int, default=5, metavar="N", help="points on the curve, ends included (default 5)")
     p.add_argument("--json", action="store_true", help="print the frontier as JSON on stdout")
+    p.add_argument("--no-report", action="store_true", help="skip the HTML report")
     p.set_defaults(func=cmd_frontier)
 
 
@@ -303,10 +311,13 @@ def cmd_frontier(args: argparse.Namespace) -> int:
         return 2
     case = load_case(args.case)
     print_warnings(args, case)
-    table = frontier(case, points=args.points)
+    curve = sweep(case, points=args.points)
+    table = curve.table
     with atomic_folder(args.out) as tmp:
         table.to_csv(tmp / "frontier.csv", index=False)
         write_workbook({"frontier": table}, tmp / "frontier.xlsx")
+        if curve.cost_optimal is not None and not args.no_report:
+            write_report(curve.cost_optimal, tmp / "report.html", extra={"frontier": table})
     if args.json:
         print(json.dumps(_json(table.to_dict(orient="records")), indent=2))
     elif not args.quiet:

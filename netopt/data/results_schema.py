@@ -2,7 +2,8 @@
 
 Every result table netopt writes (one solve's tables, the verification, the scenario
 comparison, the cost–CO2 frontier, the stress tables), every column of it (type, unit,
-short label, meaning) and every row of the ``kpis`` table live here and nowhere else.
+short label, meaning) lives here and nowhere else (the ``kpis`` rows and the comparison's
+headline columns: :mod:`netopt.data.result_views`).
 Workbook number formats, terminal and report labels and ``docs/outputs.md`` are read
 from these declarations.
 
@@ -305,6 +306,13 @@ _table(
     _c("throughput", "float", "units/yr", "throughput units/yr", "Units into the DC"),
 )
 _table(
+    "dc_decision_matrix",
+    "The DC decisions side by side: one row per DC, one column per solve of a run",
+    "netopt run (report and terminal)",
+    DC,
+    _c("<scenario>", "str", "text", "<scenario>", "Decision in that solve · throughput (units/yr)"),
+)
+_table(
     "comparison",
     "One row per solve of a run: the base, then each scenario (and each re-solve of it)",
     "netopt run",
@@ -444,27 +452,6 @@ _table(
     aliases=("run", "info"),
 )
 
-COMPARISON_VIEW = (
-    "scenario",
-    "resolve",
-    "status",
-    "total_cost",
-    "delta_cost",
-    "delta_pct",
-    "delta_operating",
-    "delta_penalty",
-    "within_gap",
-    "dcs_open",
-    "share_within_window",
-    "avg_transit_days",
-    "max_supplier_share",
-    "lost_units",
-    "lost_value",
-    "co2e_tonnes",
-    "verified",
-)
-"""The headline columns of the comparison, in order: Markdown, terminal and report show these."""
-
 
 def result_table(name: str) -> ResultTable | None:
     """The declaration of a table written as ``name`` (its name or an alias), or None."""
@@ -486,7 +473,6 @@ def label_of(table: str, column: str) -> str:
 
 
 __all__ = [
-    "COMPARISON_VIEW",
     "RESULT_TABLES",
     "UNITS",
     "Kpi",

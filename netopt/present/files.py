@@ -18,11 +18,13 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from netopt.data.results_schema import COMPARISON_VIEW, label_of
+from netopt.data.result_views import COMPARISON_VIEW
+from netopt.data.results_schema import label_of
 from netopt.present.formats import cell_text, column_kind
 from netopt.present.labels import DISCLAIMER
 from netopt.present.report import write_report
 from netopt.present.workbook import safe_text, write_workbook
+from netopt.studies.comparison import dc_decision_matrix
 
 
 @contextlib.contextmanager
@@ -168,6 +170,8 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         (tmp / "summary.json").write_text(json.dumps(summary, indent=2))
         if report:
             extra = {("frontier" if len(frontiers) == 1 else k): v for k, v in frontiers.items()}
+            if len(run.dc_decisions):
+                extra["dc_decision_matrix"] = dc_decision_matrix(run.dc_decisions)
             write_report(run, tmp / "report.html", extra=extra or None)
     return out
 

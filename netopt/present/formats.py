@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-from netopt.data.kpi_schema import KPIS
+from netopt.data.result_views import KPIS
 from netopt.data.results_schema import UNITS, ResultColumn, column_of, label_of
 
 EXCEL_FORMATS = {  # kind → Excel number format ({cur}: the case currency as a literal suffix)

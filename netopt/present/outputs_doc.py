@@ -6,8 +6,8 @@ import os
 import sys
 from pathlib import Path
 
-from netopt.data.kpi_schema import KPIS
-from netopt.data.results_schema import COMPARISON_VIEW, RESULT_TABLES, UNITS
+from netopt.data.result_views import COMPARISON_VIEW, KPIS
+from netopt.data.results_schema import RESULT_TABLES, UNITS
 
 OUTPUTS_DOC = Path(__file__).resolve().parents[2] / "docs" / "outputs.md"
 """The repository's ``docs/outputs.md``."""

@@ -22,6 +22,7 @@ from netopt.data.case import Case
 from netopt.data.io import load_case
 from netopt.engine.solve import solve
 from netopt.present.files import DISCLAIMER, _jsonable, atomic_folder, write_result_files, write_workbook
+from netopt.present.report import write_report
 from netopt.studies.exposure import exposure
 from netopt.studies.resilience import StressError, run_sweep
 from netopt.studies.sweep_exec import JOURNAL
@@ -40,11 +41,12 @@ def stress(
     fresh: bool = False,
     rules: str = "priced",
     say: Callable[[str], None] | None = None,
+    report: bool = True,
 ) -> dict[str, pd.DataFrame]:
     """Solve the base, run the single-point-of-failure sweep and the TTS/TTR exposure; write ``out_dir``.
 
     Written (atomically, the journal excepted while running): ``spof_ranking.csv``,
-    ``exposure.csv``, ``stress.xlsx``, ``summary.json``, ``sweep_journal.jsonl`` and the
+    ``exposure.csv``, ``stress.xlsx``, ``summary.json``, ``report.html``, ``sweep_journal.jsonl`` and the
     base solve's tables in ``base/``.  Raises :class:`StressError` when the base has no
     solution.
 
@@ -119,6 +121,8 @@ def stress(
         if jpath.exists():
             shutil.copy2(jpath, tmp / JOURNAL)
         write_result_files(base, tmp / "base", workbook=False)
+        if report:
+            write_report(base, tmp / "report.html", extra={"spof": spof, "exposure": expo})
     return tables
 
 
@@ -149,6 +153,7 @@ def stress_command(
     fresh: bool = False,
     rules: str = "priced",
     quiet: bool = False,
+    report: bool = True,
 ) -> int:
     """``netopt stress CASE --out DIR``: load, stress, print the summary; the exit code.
 
@@ -173,6 +178,7 @@ def stress_command(
             fresh=fresh,
             rules=rules,
             say=say,
+            report=report,
         )
     except StressError as e:
         print(f"error: {e}", file=sys.stderr)

@@ -7,8 +7,11 @@ import os
 import shutil
 import sys
 
-from netopt.data.kpi_schema import KPIS
-from netopt.data.results_schema import COMPARISON_VIEW, label_of
+import numpy as np
+import pandas as pd
+
+from netopt.data.result_views import KPIS, TERMINAL_VIEW
+from netopt.data.results_schema import label_of
 from netopt.present.formats import cell_text, column_kind, kpi_kind, kpi_label, unit_text
 
 
@@ -113,17 +116,18 @@ def print_comparison(comparison, console=None) -> None:
     from rich.text import Text
 
     con = console or new_console()
-    cols = [c for c in COMPARISON_VIEW if c in comparison.columns]
+    cols = [c for c in TERMINAL_VIEW if c in comparison.columns]
     t = Table(title="Scenario comparison (money per year; Δ = recovery cost for disruptions)")
     rows = []
-    for row in comparison[cols].itertuples(index=False):
+    within = comparison["within_gap"] if "within_gap" in comparison else pd.Series(False, index=comparison.index)
+    for (_, row), in_gap in zip(comparison[cols].iterrows(), within):
         cells = []
-        for c, v in zip(cols, row):
+        for c, v in row.items():
             kind = column_kind("comparison", c)
             text = escape(cell_text(v, kind))
-            if kind == "flag" and isinstance(v, bool) and not v:
+            if c == "verified" and isinstance(v, (bool, np.bool_)) and not v:
                 text = "[red]NO[/red]"
-            elif kind == "delta" and isinstance(v, float) and math.isfinite(v) and abs(v) > 0.5:
+            elif kind == "delta" and not in_gap and isinstance(v, float) and math.isfinite(v) and abs(v) > 0.5:
                 colour = "red" if v > 0 else "green"
                 text = f"[{colour}]{text}[/{colour}]"
             cells.append(text)
@@ -136,7 +140,7 @@ def print_comparison(comparison, console=None) -> None:
             label_of("comparison", c),
             justify="left" if is_text else "right",
             no_wrap=not is_text,
-            min_width=None if is_text else widest,
+            min_width=min(widest, 24) if is_text else widest,
             overflow="fold",
         )
     for cells in rows:
@@ -156,3 +160,21 @@ def print_frontier(table, console=None) -> None:
     for row in table[cols].itertuples(index=False):
         t.add_row(*[escape(cell_text(v, column_kind("frontier", c))) for v, c in zip(row, cols)])
     (console or new_console()).print(t)
+
+
+def print_dc_matrix(matrix, console=None) -> None:
+    """The DC decisions side by side: one row per solve, one column per DC (decision · units/yr)."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    if matrix.empty:
+        return
+    con = console or new_console()
+    by_solve = matrix.set_index("dc").T
+    t = Table(title="DC decisions by scenario (decision · throughput units/yr)")
+    t.add_column("scenario", overflow="fold", min_width=min(24, max(len(str(s)) for s in by_solve.index)))
+    for dc in by_solve.columns:
+        t.add_column(escape(str(dc)), overflow="fold")
+    for solve, row in by_solve.iterrows():
+        t.add_row(escape(str(solve)), *(escape(str(v)) for v in row))
+    con.print(t)

@@ -132,3 +132,14 @@ def dc_decisions(label: str, how: str, r, sc_case, base_case) -> pd.DataFrame:
             "throughput": d["throughput"].to_numpy(float),
         }
     )[cols]
+
+
+def dc_decision_matrix(decisions: pd.DataFrame) -> pd.DataFrame:
+    """The DC decisions side by side: one row per DC, one column per solve, each cell
+    ``decision · throughput`` (units/yr), solves in run order."""
+    if decisions.empty:
+        return pd.DataFrame(columns=["dc"])
+    d = decisions.assign(cell=decisions["decision"] + " · " + decisions["throughput"].map(lambda v: f"{v:,.0f}"))
+    order = list(dict.fromkeys(d["scenario"]))
+    m = d.pivot(index="dc", columns="scenario", values="cell").reindex(columns=order).fillna("–")
+    return m.reset_index().rename_axis(columns=None)

@@ -37,6 +37,7 @@ import pandas as pd
 from netopt.data.case import Case
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
+from netopt.engine.result import Result
 from netopt.model import build_model
 from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
 from netopt.network.arcs import build_network
@@ -53,6 +54,7 @@ class FrontierRun:
 
     table: pd.DataFrame
     tables: list[dict[str, pd.DataFrame]] = field(default_factory=list)
+    cost_optimal: Result | None = None  # point 0 as a full, verified result (for files and the report)
 
 
 def _with_cap(case: Case, cap: float) -> Case:
@@ -156,6 +158,7 @@ def sweep(
 
     rows: list[dict] = []
     point_tables: list[dict[str, pd.DataFrame]] = []
+    cost_optimal: Result | None = None
     base_cost: float | None = None
     base_co2 = 0.0
     for k, (cap, info, x) in enumerate(results):
@@ -194,6 +197,19 @@ def sweep(
         row_["verified"] = bool(ver.passed)
         rows.append(row_)
         point_tables.append(tables)
+        if k == 0:
+            cost_optimal = Result(
+                case_name=case.name,
+                status=info.status,
+                objective=info.objective,
+                bound=info.bound,
+                gap=info.gap,
+                tables=tables,
+                verification=ver,
+                message=info.message + " (the frontier's cost-optimal point)",
+                lanes=lanes,
+                network=net,
+            )
     table = pd.DataFrame(rows)
     if "total_cost" in table:
         d_cost = table["total_cost"].diff()
@@ -216,7 +232,7 @@ def sweep(
         ]
         rest = [c for c in table.columns if c not in first and c not in share_cols]
         table = table[first + share_cols + rest]
-    return FrontierRun(table, point_tables)
+    return FrontierRun(table, point_tables, cost_optimal)
 
 
 def frontier(case: Case, points: int = 5, **kw) -> pd.DataFrame:

@@ -205,6 +205,20 @@ def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
     return out
 
 
+def scenario_cases(case: Case, scenarios: list[Scenario], chosen: list[Scenario] | None = None) -> dict[str, Case]:
+    """The case of each chosen scenario (all by default), every problem of every scenario at once."""
+    cases: dict[str, Case] = {}
+    problems: list[Problem] = []
+    for sc in scenarios if chosen is None else chosen:
+        try:
+            cases[sc.name] = scenario_case(case, scenarios, sc.name)
+        except CaseError as e:
+            problems += e.problems
+    if problems:
+        raise CaseError(problems)
+    return cases
+
+
 def all_changes(scenarios: list[Scenario], name: str) -> list[dict]:
     """Every change of scenario ``name``, its based_on chain's first."""
     return [c for sc in scenario_chain(scenarios, name) for c in sc.changes]
@@ -278,16 +292,7 @@ def run_scenarios(
         chosen = [s for s in scenarios if s.name in names]
     else:
         chosen = scenarios
-    # Validate every scenario before solving anything: all errors at once.
-    cases: dict[str, Case] = {}
-    problems: list[Problem] = []
-    for s in chosen:
-        try:
-            cases[s.name] = scenario_case(case, scenarios, s.name)
-        except CaseError as e:
-            problems += e.problems
-    if problems:
-        raise CaseError(problems)
+    cases = scenario_cases(case, scenarios, chosen)  # every scenario validated before solving anything
 
     t0 = time.perf_counter()
     say("start", {"name": "base", "resolve": "redesign"})

@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from netopt.data.kpi_schema import KPIS
+from netopt.data.result_views import KPIS
 from netopt.data.results_schema import result_table
 from netopt.present.formats import cell_text, kpi_kind, kpi_label, unit_text
 from netopt.present.labels import DISCLAIMER
@@ -43,6 +43,10 @@ from netopt.present.report.tables import (
 )
 
 KNOWN_EXTRA = {  # extra table name → section title and one line on what it shows
+    "dc_decision_matrix": (
+        "DC decisions by scenario",
+        "What each solve does with each DC (kept, closed, opened, not opened, out) and its throughput in units/yr.",
+    ),
     "frontier": ("Cost–CO2e frontier", "Least landed cost at each level of CO2e (or each carbon price)."),
     "safety_stock": ("Safety stock", "Safety stock held at each DC and product (units) and its yearly cost."),
     "spof": (
@@ -310,11 +314,8 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
             kinds={"share": "share"},
         )
         ctx["transit"] = transit_histogram_svg(base)
-        last = t["flows"][t["flows"]["destination_kind"] == "customer"]
-        delivered = float(last["quantity"].sum())
-        ctx["within_share"] = (
-            float(last.loc[last["within_window"], "quantity"].sum()) / delivered if delivered > 0 else float("nan")
-        )
+        kpi = dict(zip(t["kpis"]["kpi"], t["kpis"]["value"]))
+        ctx["within_share"] = float(kpi.get("share_within_service_window", float("nan")))  # on-time ÷ demand
         sv = t["service"]
         missed = sv[~sv["target_met"].astype(bool)] if "target_met" in sv else sv.iloc[0:0]
         ctx["service_classes"] = service_class_table(sv)

@@ -5,8 +5,8 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from netopt.data.kpi_schema import KPIS
-from netopt.data.results_schema import COMPARISON_VIEW, column_of, label_of
+from netopt.data.result_views import COMPARISON_VIEW, KPIS
+from netopt.data.results_schema import column_of, label_of
 from netopt.present.formats import cell_text, column_kind, kpi_kind, kpi_label, unit_text
 
 MAX_TABLE_ROWS = 60
@@ -65,9 +65,8 @@ def service_class_table(service: pd.DataFrame) -> dict | None:
         within=("within_window", "sum"),
         met=("target_met", "sum"),
     )
-    g["share_within_window"] = np.where(
-        g["delivered"] > 0, g["within"] / g["delivered"].where(g["delivered"] > 0), np.nan
-    )
+    # As the service table: units within the window ÷ demand, never ÷ what is delivered.
+    g["share_within_window"] = np.where(g["demand"] > 0, g["within"] / g["demand"].where(g["demand"] > 0), np.nan)
     return table(
         g,
         "service",

@@ -1,4 +1,5 @@
-"""The rows of the ``kpis`` result table: each indicator's unit, label and meaning, declared once."""
+"""The headline views of the outputs: the rows of the ``kpis`` table (each indicator's unit, label and
+meaning) and the headline columns of the scenario comparison, declared once."""
 
 from __future__ import annotations
 
@@ -34,3 +35,30 @@ KPIS: dict[str, Kpi] = {
         Kpi("network_inventory_turns", "per year", "inventory turns", "Turns per year"),
     )
 }
+
+
+COMPARISON_VIEW = (
+    "scenario",
+    "resolve",
+    "status",
+    "total_cost",
+    "delta_cost",
+    "delta_pct",
+    "delta_operating",
+    "delta_penalty",
+    "within_gap",
+    "dcs_open",
+    "share_within_window",
+    "avg_transit_days",
+    "max_supplier_share",
+    "lost_units",
+    "lost_value",
+    "co2e_tonnes",
+    "verified",
+)
+"""The headline columns of the comparison, in order: Markdown, terminal and report show these."""
+
+TERMINAL_VIEW = tuple(
+    c for c in COMPARISON_VIEW if c not in ("delta_pct", "avg_transit_days", "max_supplier_share", "lost_value")
+)
+"""The headline columns that fit a terminal line (same labels; the others are in comparison.md and the report)."""
