@@ -38,6 +38,15 @@ def register_lane_builder(build: Callable) -> None:
     _LANE_BUILDER[:] = [build]
 
 
+_CASE_CHECKS: list[Callable] = []  # more checks of a whole typed case, registered by later stages
+
+
+def register_case_check(check: Callable) -> None:
+    """Add ``check(tables, settings) -> list[Problem]``, run on every case that has no errors."""
+    if check not in _CASE_CHECKS:
+        _CASE_CHECKS.append(check)
+
+
 def _lane_builder() -> Callable | None:
     """The registered lane builder, or None when the network stage is not imported."""
     return _LANE_BUILDER[0] if _LANE_BUILDER else None
@@ -126,6 +135,9 @@ def validate_and_coerce(
                 problems += unreachable_demand(typed, lanes)
                 if built is not None:
                     built["lanes"] = lanes
+    if not any(p.severity == "error" for p in problems):
+        for check in _CASE_CHECKS:
+            problems += check(typed, typed_settings)
     return typed, typed_settings, sort_problems(problems)
 
 
