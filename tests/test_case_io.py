@@ -274,15 +274,16 @@ def test_workbook_settings_problem_names_sheet_row_and_entry(tmp_path):
     find(info.value.warnings, "settings", None, "[nowhere]", "unknown section")
 
 
-def test_workbook_unknown_sheet_warns_and_schema_sheet_is_ignored(tmp_path):
+def test_workbook_unknown_sheet_warns_schema_sheet_is_ignored_and_scenarios_sheet_is_read(tmp_path):
     sheets = _tiny_sheets()
     sheets["custmers"] = [["customer"]]
     sheets["schema"] = [["table", "column"], ["x", "y"]]
-    sheets["scenarios"] = [["name"], ["a"]]
+    sheets["scenarios"] = [["scenario", "kind"], ["a", ""]]
     case = load_case(_workbook(tmp_path / "case.xlsx", sheets))
     w = find(case.warnings, "custmers", None, None, "unknown sheet")
     assert "customers" in w.message
     assert not [p for p in case.warnings if p.table in ("schema", "scenarios")]
+    assert case.scenarios == [{"name": "a", "change": []}]
 
 
 # --------------------------------------------------------------------------- writing and round trips

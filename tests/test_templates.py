@@ -77,7 +77,8 @@ def test_schema_markdown_documents_everything():
 
 def test_template_workbook_sheets_and_settings():
     sheets = _sheets(DATA_TEMPLATES / WORKBOOK_NAME)
-    assert list(sheets) == list(TABLES) + ["settings", "schema"]
+    assert list(sheets) == list(TABLES) + ["settings", "scenarios", "schema"]
+    assert sheets["scenarios"][0] == ["scenario", "description", "based_on", "resolve", "frontier_points", "kind"]
     for t in TABLES.values():
         assert sheets[t.name] == [t.column_names]
     st = sheets["settings"]

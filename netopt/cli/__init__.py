@@ -16,14 +16,14 @@ import sys
 from collections.abc import Callable
 from importlib.metadata import version as package_version
 
-from netopt.cli.case_verbs import add_check, add_template
+from netopt.cli.case_verbs import add_check, add_export, add_template
 from netopt.cli.common import EXIT_INVALID
 from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
 from netopt.data.case import CaseError
 
 # --------------------------------------------------------------------------- main
 
-VERBS: list[Callable] = [add_template, add_check, add_solve, add_run, add_stress, add_frontier]
+VERBS: list[Callable] = [add_template, add_check, add_export, add_solve, add_run, add_stress, add_frontier]
 """Functions that each add one verb's subparser (in the order shown by --help)."""
 
 

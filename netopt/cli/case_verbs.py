@@ -4,12 +4,14 @@ from __future__ import annotations
 
 import argparse
 import sys
+from pathlib import Path
 
 from netopt.cli.common import COMMON, EXIT_INVALID, EXIT_OK, print_warnings, say
 from netopt.data.case import Case
 from netopt.data.io import load_case
 from netopt.data.schema import TABLES
-from netopt.data.templates import write_blank_case
+from netopt.data.templates import write_blank_case, write_template_workbook
+from netopt.data.writing import write_case_csv, write_case_workbook
 from netopt.network.lanes import case_lanes
 from netopt.studies.scenarios import parse_scenarios, scenario_cases
 
@@ -25,11 +27,29 @@ def add_template(sub) -> None:
         "demand, modes, lanes, ...) with its header row, and settings.toml listing every setting "
         "at its default with its meaning and unit.  See data_templates/schema.md for every column.",
     )
-    p.add_argument("dir", metavar="DIR", help="folder to create (must not exist or be empty)")
+    p.add_argument(
+        "dir", metavar="DIR", help="folder to create (must not exist or be empty), or with --xlsx the workbook"
+    )
+    p.add_argument(
+        "--xlsx",
+        action="store_true",
+        help="write one workbook instead: a sheet per table (header notes give unit and meaning), settings, "
+        "scenarios and the schema",
+    )
     p.set_defaults(func=cmd_template)
 
 
 def cmd_template(args: argparse.Namespace) -> int:
+    if args.xlsx:
+        book = Path(args.dir if str(args.dir).lower().endswith(".xlsx") else f"{args.dir}.xlsx")
+        if book.exists():
+            print(f"error: {book} exists; choose a new name", file=sys.stderr)
+            return EXIT_INVALID
+        book.parent.mkdir(parents=True, exist_ok=True)
+        write_template_workbook(book)
+        say(args, f"blank case workbook written to {book}")
+        say(args, f"  fill in the sheets, then run: netopt check {book}")
+        return EXIT_OK
     try:
         out = write_blank_case(args.dir)
     except FileExistsError:
@@ -113,4 +133,37 @@ def cmd_check(args: argparse.Namespace) -> int:
         say(args, line)
     if scenarios:
         say(args, f"  scenarios   {len(scenarios)} checked (every change applied to a copy of the case)")
+    return EXIT_OK
+
+
+# --------------------------------------------------------------------------- export
+
+
+def add_export(sub) -> None:
+    p = sub.add_parser(
+        "export",
+        parents=[COMMON],
+        help="convert a case between a CSV folder and one workbook",
+        description="Load and check a case, then write it the other way: a CSV folder (with settings.toml and "
+        "scenarios.toml) as one .xlsx workbook (a sheet per table, settings, scenarios), or a workbook as a "
+        "CSV folder.  Nothing is written when the case has errors.",
+    )
+    p.add_argument("case", metavar="CASE", help="case folder or .xlsx workbook")
+    p.add_argument("--out", required=True, metavar="PATH", help="workbook (.xlsx) or folder to write; must not exist")
+    form = p.add_mutually_exclusive_group(required=True)
+    form.add_argument("--xlsx", action="store_true", help="write one workbook")
+    form.add_argument("--csv", action="store_true", help="write a CSV folder")
+    p.set_defaults(func=cmd_export)
+
+
+def cmd_export(args: argparse.Namespace) -> int:
+    case = load_case(args.case)
+    print_warnings(args, case)
+    try:
+        out = write_case_workbook(case, args.out) if args.xlsx else write_case_csv(case, args.out)
+    except FileExistsError:
+        print(f"error: {args.out} exists; choose a new name", file=sys.stderr)
+        return EXIT_INVALID
+    n = len(case.scenarios)
+    say(args, f"case written to {out}" + (f" with {n} scenario(s)" if n else ""))
     return EXIT_OK

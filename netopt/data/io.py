@@ -3,7 +3,8 @@
 A case folder holds ``settings.toml``, one ``<table>.csv`` per table and optionally
 ``scenarios.toml`` (its ``[[scenario]]`` entries are kept as given).  A case workbook
 (``.xlsx``) holds one sheet per table, a sheet ``settings`` with columns
-section, name, value, and optionally sheets ``scenarios`` and ``schema`` (ignored).
+section, name, value, optionally a ``scenarios`` sheet (:mod:`netopt.data.scenario_sheet`) and a
+``schema`` sheet (ignored).
 
 Every cell is read as text and then typed by the schema, so a wrong value becomes a
 :class:`~netopt.data.case.Problem` naming its table, row and column rather than an
@@ -27,6 +28,8 @@ from pathlib import Path
 import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
+from netopt.data.scenario_sheet import SHEET as SCENARIO_SHEET
+from netopt.data.scenario_sheet import scenarios_from_sheet
 from netopt.data.schema import TABLES
 from netopt.data.text import as_text, close_match_hint
 from netopt.data.validate import sort_problems, validate_and_coerce
@@ -34,7 +37,7 @@ from netopt.data.validate import sort_problems, validate_and_coerce
 SETTINGS_FILE = "settings.toml"
 SCENARIOS_FILE = "scenarios.toml"
 SETTINGS_SHEET = "settings"
-IGNORED_SHEETS = ("scenarios", "schema")
+IGNORED_SHEETS = ("schema",)
 
 
 # --------------------------------------------------------------------------- reading
@@ -230,6 +233,7 @@ def _read_workbook(path: Path):
     except Exception as e:  # openpyxl raises many kinds on a damaged or foreign file
         raise CaseError([Problem(path.name, None, None, f"cannot read the workbook: {e}")]) from None
     tables: dict[str, pd.DataFrame] = {}
+    scenarios: list[dict] = []
     sources: dict[str, str] = {"settings": SETTINGS_SHEET}
     settings: dict = {}
     rows: dict = {}
@@ -248,6 +252,12 @@ def _read_workbook(path: Path):
             if frame is not None:
                 settings, rows, probs = _settings_from_frame(frame, SETTINGS_SHEET)
                 problems += probs
+        elif sheet == SCENARIO_SHEET:
+            frame, probs = _frame_from_records(SCENARIO_SHEET, records)
+            problems += probs
+            if frame is not None:
+                scenarios, probs = scenarios_from_sheet(frame)
+                problems += probs
         elif sheet not in IGNORED_SHEETS:
             problems.append(
                 Problem(sheet, None, None, "unknown sheet (ignored)" + close_match_hint(sheet, TABLES), "warning")
@@ -256,7 +266,18 @@ def _read_workbook(path: Path):
         problems.append(
             Problem(SETTINGS_SHEET, None, None, "no settings sheet: every setting takes its default", "warning")
         )
-    return tables, settings, sources, rows, [], problems
+    beside = path.parent / SCENARIOS_FILE
+    if beside.exists():
+        problems.append(
+            Problem(
+                SCENARIOS_FILE,
+                None,
+                None,
+                f"{beside} is not read with the workbook {path.name}: a workbook case keeps its scenarios in its "
+                f"'{SCENARIO_SHEET}' sheet (netopt export converts a case folder with its scenarios.toml)",
+            )
+        )
+    return tables, settings, sources, rows, scenarios, problems
 
 
 def case_from_tables(

@@ -23,6 +23,8 @@ import sys
 from pathlib import Path
 
 from netopt.data.io import SETTINGS_FILE, SETTINGS_SHEET
+from netopt.data.scenario_sheet import SCENARIO_COLUMNS
+from netopt.data.scenario_sheet import SHEET as SCENARIO_SHEET
 from netopt.data.schema import INF, LEGS, TABLES, schema_frame
 from netopt.data.settings_schema import SETTINGS, setting_defaults, settings_frame
 from netopt.data.text import format_number
@@ -162,7 +164,7 @@ def write_blank_case(folder: str | os.PathLike) -> Path:
 
 
 def write_template_workbook(path: Path) -> None:
-    """The case workbook template: a sheet per table (header with notes), settings, schema."""
+    """The case workbook template: a sheet per table (header with notes), settings, scenarios, schema."""
     from openpyxl import Workbook
     from openpyxl.comments import Comment
     from openpyxl.styles import Font
@@ -185,12 +187,19 @@ def write_template_workbook(path: Path) -> None:
     for s in SETTINGS:
         value = s.default if s.type in ("float", "int", "bool") else format_setting(s.default, s.type)
         ws.append([s.section, s.name, value if value != "" else None, s.type, s.unit, s.meaning])
+    ws = wb.create_sheet(SCENARIO_SHEET)
+    ws.append([*SCENARIO_COLUMNS, "kind"])
+    ws.cell(row=1, column=1).comment = Comment(
+        "One row per change: the scenario's name, then its kind and one column per field of the change "
+        "(site, origin, destination, mode, factor, ...); add the columns you need.",
+        "netopt",
+    )
     ws = wb.create_sheet("schema")
     sf = schema_frame()
     ws.append(list(sf.columns))
     for rec in sf.itertuples(index=False):
         ws.append(list(rec))
-    for name in (SETTINGS_SHEET, "schema"):
+    for name in (SETTINGS_SHEET, SCENARIO_SHEET, "schema"):
         for cell in wb[name][1]:
             cell.font = bold
         wb[name].freeze_panes = "A2"

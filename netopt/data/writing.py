@@ -18,6 +18,8 @@ import pandas as pd
 
 from netopt.data.case import Case
 from netopt.data.io import SCENARIOS_FILE, SETTINGS_FILE, SETTINGS_SHEET
+from netopt.data.scenario_sheet import SHEET as SCENARIO_SHEET
+from netopt.data.scenario_sheet import scenarios_sheet
 from netopt.data.schema import INF, TABLES
 from netopt.data.settings_schema import SETTINGS
 from netopt.data.text import as_text, format_number, range_text
@@ -211,7 +213,7 @@ def write_case_workbook(case: Case, path: str | os.PathLike, overwrite: bool = F
 
     Numbers are written as numbers, text as text, "no limit" capacities as blank cells
     and lists of the settings joined with '|'.  Written to a temporary file and renamed.
-    Scenarios are not written (a workbook's ``scenarios`` sheet is not read yet).
+    The case's scenarios go to a ``scenarios`` sheet (one row per change).
 
     Raises:
         FileExistsError: ``path`` exists and ``overwrite`` is false.
@@ -238,6 +240,12 @@ def write_case_workbook(case: Case, path: str | os.PathLike, overwrite: bool = F
         value = case.settings.get(s.section, {}).get(s.name, s.default)
         cell = value if s.type in ("float", "int", "bool") else format_setting(value, s.type)
         _append_literal(ws, [s.section, s.name, cell if cell != "" else None])
+    if case.scenarios:
+        sheet = scenarios_sheet(case.scenarios)
+        ws = wb.create_sheet(SCENARIO_SHEET)
+        ws.append(list(sheet.columns))
+        for rec in sheet.itertuples(index=False):
+            _append_literal(ws, [None if v == "" else v for v in rec])
     final.parent.mkdir(parents=True, exist_ok=True)
     fd, tmp_name = tempfile.mkstemp(prefix=f".{final.name}.tmp-", suffix=".xlsx", dir=final.parent)
     os.close(fd)
