@@ -235,12 +235,9 @@ class HeldNetwork:
         t0 = time.perf_counter()
         info, values, _ = self.resolve(plan)
         resolve_s = time.perf_counter() - t0
-        res = Result(
-            case_name=name,
-            status=info.status,
-            objective=info.objective,
-            bound=info.bound,
-            gap=info.gap,
+        res = Result.of(
+            name,
+            info,
             timings={"highs": info.solver_seconds, "resolve": resolve_s},
             message=info.message + " (warm re-solve)",
         )

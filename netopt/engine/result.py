@@ -10,7 +10,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from netopt.engine.highs import HighsModel
+from netopt.engine.highs import HighsModel, SolveInfo
 from netopt.engine.verify import Verification
 from netopt.network.arcs import Network
 
@@ -34,6 +34,13 @@ class Result:
     network: Network | None = None
     highs_model: HighsModel | None = None
     lanes: pd.DataFrame | None = None
+
+    @classmethod
+    def of(cls, case_name: str, info: SolveInfo, **fields) -> Result:
+        """A result carrying the solver's outcome ``info`` (status, objective, bound, gap) and ``fields``."""
+        return cls(
+            case_name=case_name, status=info.status, objective=info.objective, bound=info.bound, gap=info.gap, **fields
+        )
 
     def __getattr__(self, item):
         tables = self.__dict__.get("tables", {})

@@ -111,12 +111,9 @@ def solve(
         info = hm.solve(time_limit=time_limit, mip_gap=mip_gap, threads=threads, progress=cb)
     timings["highs"] = info.solver_seconds
 
-    res = Result(
-        case_name=case.name,
-        status=info.status,
-        objective=info.objective,
-        bound=info.bound,
-        gap=info.gap,
+    res = Result.of(
+        case.name,
+        info,
         timings=timings,
         model_size=size,
         message=info.message,

@@ -198,12 +198,9 @@ def sweep(
         rows.append(row_)
         point_tables.append(tables)
         if k == 0:
-            cost_optimal = Result(
-                case_name=case.name,
-                status=info.status,
-                objective=info.objective,
-                bound=info.bound,
-                gap=info.gap,
+            cost_optimal = Result.of(
+                case.name,
+                info,
                 tables=tables,
                 verification=ver,
                 message=info.message + " (the frontier's cost-optimal point)",
