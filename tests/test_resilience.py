@@ -306,3 +306,21 @@ def test_stress_command_exit_codes(tiny_case_dir, tmp_path, capsys):
     bad = tmp_path / "bad"
     assert stress_command(str(tiny_case_dir), str(bad), workers=0, quiet=True) == 3
     assert not (bad / "spof_ranking.csv").exists()
+
+
+@pytest.mark.parametrize("rules", ["hard", "priced"])
+def test_the_same_outage_costs_the_same_in_run_and_stress(rules):
+    """A lane lost means the same change in both studies (close_lane on the held network): the scenario's
+    hold delta equals the sweep's recovery cost + lost value + rule relief (the sweep splits the same
+    number; a lane has no fixed cost of its own), and the lost units agree."""
+    case = random_case(11, n_dcs=5, n_customers=10, settings={"policy": {"allow_unmet_demand": True}})
+    base = solve(case, mip_gap=1e-9)
+    el = sweep_elements(case, base, ["lane"]).sort_values("base_units", ascending=False).iloc[0]
+    change = element_changes(el.to_dict())[0]
+    run = run_scenarios(case, base=base, scenarios=[Scenario("out", [change], resolve="hold")])
+    row = run.comparison.set_index("scenario").loc["out"]
+    swept = run_sweep(case, base, workers=0, progress=False, rules=rules, elements=[el["id"]])[0].iloc[0]
+    assert swept["rule_relief_cost"] == pytest.approx(0.0, abs=1e-6)  # no policy rule binds in this case
+    total = swept["recovery_cost"] + swept["lost_value"] + swept["rule_relief_cost"]
+    assert total == pytest.approx(row["delta_cost"], rel=1e-9, abs=1e-6)
+    assert swept["lost_units"] == pytest.approx(row["lost_units"], abs=1e-6)
