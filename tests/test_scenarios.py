@@ -466,3 +466,21 @@ def test_check_applies_every_scenario_and_names_each_bad_change(tmp_path, capsys
     assert "scenario 'typo', change 1 (site_out): unknown site 'NO_SUCH_SITE'" in err
     assert "scenario 'mode', change 1 (scale_cost): unknown mode 'hovercraft'" in err
     assert "Traceback" not in err
+
+
+def test_supplier_share_and_mode_mix_changes_match_each_result_s_tables(base_case, base):
+    scenarios = [sc("cap", {"kind": "policy", "max_supplier_share": 0.5})]
+    run = run_scenarios(base_case, base=base, scenarios=scenarios)
+    r = run.results["cap"]
+    ch = run.supplier_share_changes.set_index(["site", "product", "supplier"])
+    now = r.tables["supplier_shares"].set_index(["site", "product", "supplier"])["share"]
+    was = base.tables["supplier_shares"].set_index(["site", "product", "supplier"])["share"]
+    for key, row in ch.iterrows():
+        assert row["share"] == pytest.approx(float(now.get(key, 0.0)))
+        assert row["base_share"] == pytest.approx(float(was.get(key, 0.0)))
+        assert row["change"] == pytest.approx(row["share"] - row["base_share"])
+    assert set(now[now > 1e-9].index) | set(was[was > 1e-9].index) == set(ch.index)
+    assert (ch["share"] <= 0.5 + 1e-7).all()
+    mm = run.mode_mix_changes.set_index("mode")
+    tk = r.tables["mode_mix"].set_index("mode")["share_of_tonne_km"]
+    assert mm["share"].to_numpy() == pytest.approx(tk.reindex(mm.index).fillna(0.0).to_numpy())

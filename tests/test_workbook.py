@@ -188,7 +188,9 @@ def test_run_workbook_has_the_expected_sheets_and_keeps_the_site_name_as_text(se
     out = write_run(seeded_run, tmp_path / "run", report=False)
     path = out / "results.xlsx"
     wb = load_workbook(path)
-    expected = ["about", "comparison", "dc_decisions"] + [f"base_{k}" for k in seeded_run.base.tables]
+    expected = ["about", "comparison", "dc_decisions", "supplier_share_changes", "mode_mix_changes"] + [
+        f"base_{k}" for k in seeded_run.base.tables
+    ]
     assert wb.sheetnames[: len(expected)] == expected
     ws = wb["base_service"]
     head = [c.value for c in ws[1]]

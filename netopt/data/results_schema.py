@@ -48,6 +48,7 @@ from netopt.data.result_types import UNITS, Kpi, ResultColumn, ResultTable
 from netopt.data.result_types import result_column as _c
 
 RESULT_TABLES: dict[str, ResultTable] = {}
+DEARER = {"signed": True, "sense": 1}  # a signed change where up is worse
 
 
 def _table(name, meaning, written_by, *columns, aliases=()) -> ResultTable:
@@ -305,6 +306,31 @@ _table(
     _c("decision", "str", "text", "decision", "kept, closed, opened, not opened, or out (taken out by the scenario)"),
     _c("throughput", "float", "units/yr", "throughput units/yr", "Units into the DC"),
 )
+_SHARE_SIDE = (
+    _c("base_share", "float", "share", "base share", "The share in the base"),
+    _c("share", "float", "share", "share", "The share in this solve"),
+    _c("change", "float", "share", "change", "share − base share", signed=True),
+)
+_table(
+    "supplier_share_changes",
+    "Each solve's supplier shares against the base's: share of a site's supply of a material",
+    "netopt run",
+    _c("scenario", "str", "text", "scenario", "Scenario name"),
+    _c("resolve", "str", "text", "re-solve", "hold or redesign"),
+    _c("site", "str", "text", "site", "Receiving plant or DC"),
+    PRODUCT,
+    _c("supplier", "str", "text", "supplier", "Supplier"),
+    *_SHARE_SIDE,
+)
+_table(
+    "mode_mix_changes",
+    "Each solve's mode mix against the base's: share of all tonne-km by mode",
+    "netopt run",
+    _c("scenario", "str", "text", "scenario", "Scenario name"),
+    _c("resolve", "str", "text", "re-solve", "hold or redesign"),
+    MODE,
+    *_SHARE_SIDE,
+)
 _table(
     "dc_decision_matrix",
     "The DC decisions side by side: one row per DC, one column per solve of a run",
@@ -325,30 +351,17 @@ _table(
     TOTAL_COST,
     _c("delta_cost", "float", "currency/yr", "Δ vs base", "Total cost − the base's", signed=True, sense=1),
     _c("delta_pct", "float", "share", "Δ %", "delta_cost / the base's total cost", signed=True, sense=1),
-    _c(
-        "delta_penalty",
-        "float",
-        "currency/yr",
-        "Δ penalties",
-        "Change in penalties for rules not met (late delivery, lost demand)",
-        signed=True,
-        sense=1,
-    ),
+    _c("delta_penalty", "float", "currency/yr", "Δ penalties", "Change in penalties for rules not met", **DEARER),
     _c(
         "delta_operating",
         "float",
         "currency/yr",
         "Δ operating",
-        "Change in operating cost (supply, production, DCs, transport, inventory, carbon); + Δ penalties = Δ",
-        signed=True,
-        sense=1,
+        "Change in operating cost; + Δ penalties = Δ",
+        **DEARER,
     ),
     _c(
-        "gap_tolerance",
-        "float",
-        "currency/yr",
-        "gap tolerance",
-        "Largest Δ the optimality gaps of the base and this solve allow: (both gaps) × the larger total",
+        "gap_tolerance", "float", "currency/yr", "gap tolerance", "Largest Δ the gaps allow: (both gaps) × larger total"
     ),
     _c("within_gap", "bool", "flag", "within gap", "Δ vs base is within the optimality gaps: not a finding"),
     _c("cost_<component>", "float", "currency/yr", "<component> cost", "One cost component"),

@@ -128,7 +128,8 @@ def _label_folder(label: str) -> str:
 def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None = None, report: bool = True) -> Path:
     """Write a base-plus-scenarios run atomically.
 
-    Layout: ``comparison.csv``, ``comparison.md``, ``dc_decisions.csv`` (DC × solve), ``results.xlsx`` (comparison and the
+    Layout: ``comparison.csv``, ``comparison.md``, ``dc_decisions.csv`` (DC × solve), ``supplier_share_changes.csv`` and
+    ``mode_mix_changes.csv`` (each solve against the base), ``results.xlsx`` (comparison and the
     base's tables), ``summary.json``, ``base/`` and ``scenarios/<name>/`` with each
     solve's full results, and ``report.html`` when the report module is available.
     """
@@ -136,6 +137,8 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
     with atomic_folder(out) as tmp:
         run.comparison.to_csv(tmp / "comparison.csv", index=False)
         run.dc_decisions.to_csv(tmp / "dc_decisions.csv", index=False)
+        run.supplier_share_changes.to_csv(tmp / "supplier_share_changes.csv", index=False)
+        run.mode_mix_changes.to_csv(tmp / "mode_mix_changes.csv", index=False)
         (tmp / "comparison.md").write_text(
             f"# Scenario comparison: {run.base.case_name}\n\n"
             + markdown_table(comparison_view(run.comparison), "comparison", comparison_labels(run.comparison))
@@ -155,7 +158,12 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         }
         for name, df in frontiers.items():
             df.to_csv(tmp / f"{name}.csv", index=False)
-        sheets = {"comparison": run.comparison, "dc_decisions": run.dc_decisions}
+        sheets = {
+            "comparison": run.comparison,
+            "dc_decisions": run.dc_decisions,
+            "supplier_share_changes": run.supplier_share_changes,
+            "mode_mix_changes": run.mode_mix_changes,
+        }
         sheets.update(frontiers)
         sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
         sheets.update(extra_sheets or {})

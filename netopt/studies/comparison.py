@@ -143,3 +143,28 @@ def dc_decision_matrix(decisions: pd.DataFrame) -> pd.DataFrame:
     order = list(dict.fromkeys(d["scenario"]))
     m = d.pivot(index="dc", columns="scenario", values="cell").reindex(columns=order).fillna("–")
     return m.reset_index().rename_axis(columns=None)
+
+
+def share_changes(label: str, how: str, r, base) -> tuple[pd.DataFrame, pd.DataFrame]:
+    """Supplier shares and mode mix of one solve against the base's, side by side.
+
+    Returns (supplier share changes: scenario, resolve, site, product, supplier, base_share, share,
+    change; mode-mix changes: scenario, resolve, mode, base_share, share, change), shares of the
+    site's supply of the material and of all tonne-km; rows where either side is non-zero.
+    """
+    keys = ["site", "product", "supplier"]
+    sup_cols = ["scenario", "resolve", *keys, "base_share", "share", "change"]
+    mode_cols = ["scenario", "resolve", "mode", "base_share", "share", "change"]
+    if not (r.has_solution and base.has_solution):
+        return pd.DataFrame(columns=sup_cols), pd.DataFrame(columns=mode_cols)
+
+    def side_by_side(now: pd.DataFrame, was: pd.DataFrame, on: list[str], col: str) -> pd.DataFrame:
+        m = was[[*on, col]].rename(columns={col: "base_share"}).merge(now[[*on, col]], on=on, how="outer")
+        m = m.rename(columns={col: "share"}).fillna({"base_share": 0.0, "share": 0.0})
+        m["change"] = m["share"] - m["base_share"]
+        m = m[(m["base_share"].abs() > 1e-9) | (m["share"].abs() > 1e-9)].sort_values(on)
+        return m.assign(scenario=label, resolve=how)
+
+    sup = side_by_side(r.tables["supplier_shares"], base.tables["supplier_shares"], keys, "share")
+    mode = side_by_side(r.tables["mode_mix"], base.tables["mode_mix"], ["mode"], "share_of_tonne_km")
+    return sup[sup_cols].reset_index(drop=True), mode[mode_cols].reset_index(drop=True)

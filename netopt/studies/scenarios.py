@@ -42,7 +42,7 @@ from netopt.engine.result import Result
 from netopt.engine.solve import solve
 from netopt.studies.case_edit import CaseEdit, site_kinds
 from netopt.studies.changes import CHANGE_KINDS, resolve_held
-from netopt.studies.comparison import comparison_row, dc_decisions
+from netopt.studies.comparison import comparison_row, dc_decisions, share_changes
 from netopt.studies.frontier import scenario_frontier
 
 RESOLVE = ("redesign", "hold", "both")
@@ -235,10 +235,10 @@ class ScenarioRun:
     results: dict[str, Result] = field(default_factory=dict)
     comparison: pd.DataFrame = field(default_factory=pd.DataFrame)
     scenarios: list[Scenario] = field(default_factory=list)
-    frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)
-    dc_decisions: pd.DataFrame = field(
-        default_factory=pd.DataFrame
-    )  # DC × solve: decision, throughput  # scenario → cost–CO2 frontier table
+    frontiers: dict[str, pd.DataFrame] = field(default_factory=dict)  # scenario → cost–CO2 frontier table
+    dc_decisions: pd.DataFrame = field(default_factory=pd.DataFrame)  # DC × solve: decision, throughput
+    supplier_share_changes: pd.DataFrame = field(default_factory=pd.DataFrame)  # each solve against the base
+    mode_mix_changes: pd.DataFrame = field(default_factory=pd.DataFrame)  # each solve against the base
 
 
 def solve_or_lose(case: Case, **kw) -> Result:
@@ -303,6 +303,7 @@ def run_scenarios(
     run.results["base"] = base
     rows = [comparison_row("base", "", "design", base, base, "mip", time.perf_counter() - t0, "the base case")]
     decisions = [dc_decisions("base", "design", base, case, case)]
+    shares: list[tuple[pd.DataFrame, pd.DataFrame]] = []
     held: HeldNetwork | None = None
     for s in chosen:
         sc_case = cases[s.name]
@@ -330,6 +331,7 @@ def run_scenarios(
             run.results[label] = r
             rows.append(comparison_row(label, s.based_on, how, r, base, method, sec, s.description))
             decisions.append(dc_decisions(label, how, r, sc_case, case))
+            shares.append(share_changes(label, how, r, base))
             say("done", {"name": label, "status": r.status, "seconds": sec})
         if s.frontier_points:
             say("frontier_start", {"name": s.name, "points": s.frontier_points})
@@ -338,4 +340,7 @@ def run_scenarios(
             say("frontier_done", {"name": s.name, "points": s.frontier_points, "seconds": time.perf_counter() - t1})
     run.comparison = pd.DataFrame(rows)
     run.dc_decisions = pd.concat(decisions, ignore_index=True)
+    if shares:
+        run.supplier_share_changes = pd.concat([s for s, _ in shares], ignore_index=True)
+        run.mode_mix_changes = pd.concat([m for _, m in shares], ignore_index=True)
     return run
