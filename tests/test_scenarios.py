@@ -2,12 +2,14 @@
 
 from __future__ import annotations
 
+import pandas as pd
 import pytest
 from randcase import lane_loss_case, random_case
 
 from netopt.api import solve
 from netopt.data.case import CaseError
 from netopt.engine.held import HeldNetwork
+from netopt.present.labels import comparison_notes
 from netopt.studies.changes import resolve_held
 from netopt.studies.scenarios import Scenario, apply_changes, parse_scenarios, run_scenarios
 
@@ -301,18 +303,44 @@ def test_warm_hold_reports_lp_bound_and_zero_gap(base_case, base):
     assert warm.status == "optimal" and warm.gap == 0.0 and warm.bound == pytest.approx(warm.objective)
 
 
-def test_a_warm_hold_that_loses_demand_says_so(base_case, base):
-    """A held network may lose demand (it cannot open anything); when the settings forbid lost demand,
-    the comparison row and the result's summary say it was allowed (never substituted silently)."""
+def test_a_scenario_infeasible_as_asked_is_marked_and_its_priced_alternative_stands_beside_it(base_case, base):
+    """The settings forbid lost demand and F is the only plant: with F out, hold and redesign are each an
+    infeasible row with the diagnosis, followed by their priced alternative (lost demand allowed at the
+    penalty) as a row of its own, never substituted.  Hand check: the alternative loses all demand, Σ
+    demand of the case's demand table."""
     assert not base_case.settings["policy"]["allow_unmet_demand"]
     run = run_scenarios(
-        base_case, base=base, scenarios=[sc("plant_out", {"kind": "site_out", "site": "F"}, resolve="hold")]
+        base_case, base=base, scenarios=[sc("plant_out", {"kind": "site_out", "site": "F"}, resolve="both")]
     )
-    row = run.comparison.set_index("scenario").loc["plant_out"]
-    assert row["method"] == "warm LP (lost demand allowed)"
-    assert row["lost_units"] > 0
-    assert run.results["plant_out"].summary()["lost_demand_allowed"] is True
+    comp = run.comparison.set_index("scenario")
+    total_demand = float(base_case.tables["demand"]["quantity"].sum())
+    notes = comparison_notes(run.comparison)
+    for how in ("hold", "redesign"):
+        label, alt_label = f"plant_out [{how}]", f"plant_out [{how}, lost demand priced]"
+        row = comp.loc[label]
+        assert row["status"] == "infeasible" and pd.isna(row["total_cost"])
+        assert "demand_met" in row["diagnosis"]
+        assert not run.results[label].has_solution
+        alt = comp.loc[alt_label]
+        assert alt["alternative_to"] == label and alt["status"] == "optimal" and alt["verified"]
+        assert alt["lost_units"] == pytest.approx(total_demand, rel=1e-9)
+        assert alt["method"].endswith("(lost demand allowed)")
+        assert run.results[alt_label].summary()["lost_demand_allowed"] is True
+        dec = run.dc_decisions[run.dc_decisions["scenario"] == label]
+        assert len(dec) == len(base_case.tables["dcs"]) and (dec["decision"] == "no plan").all()
+        assert any(n.startswith(f"{label}: infeasible as asked") and alt_label in n for n in notes)
     assert run.results["base"].summary()["lost_demand_allowed"] is False
+
+
+def test_lost_demand_the_settings_allow_is_said_in_the_notes_without_an_alternative(base_case, base):
+    """With lost demand allowed by the scenario itself the row has a plan, loses units, and the notes say
+    the settings allow it; no priced alternative row is added."""
+    s = sc("plant_out", {"kind": "site_out", "site": "F"}, {"kind": "policy", "allow_unmet_demand": True})
+    run = run_scenarios(base_case, base=base, scenarios=[s])
+    assert list(run.comparison["scenario"]) == ["base", "plant_out"]
+    row = run.comparison.set_index("scenario").loc["plant_out"]
+    assert row["status"] == "optimal" and row["lost_units"] > 0 and row["alternative_to"] == ""
+    assert any("the settings allow lost demand" in n for n in comparison_notes(run.comparison))
 
 
 def test_deltas_split_into_operating_and_penalties_from_each_result_s_cost_table(base_case, base):

@@ -34,27 +34,20 @@ from netopt.data.result_columns import (
     PIPELINE_COST,
     PRODUCT,
     QUANTITY,
-    RANK,
     REGION,
     STATUS,
     TOTAL_COST,
     TRANSIT,
-    TYPE,
     UTILISATION,
     VERIFIED,
     WITHIN,
 )
-from netopt.data.result_types import UNITS, Kpi, ResultColumn, ResultTable
+from netopt.data.result_registry import RESULT_TABLES, column_of, label_of, result_table
+from netopt.data.result_registry import declare_table as _table
+from netopt.data.result_types import UNITS, Kpi, ResultColumn
 from netopt.data.result_types import result_column as _c
 
-RESULT_TABLES: dict[str, ResultTable] = {}
 DEARER = {"signed": True, "sense": 1}  # a signed change where up is worse
-
-
-def _table(name, meaning, written_by, *columns, aliases=()) -> ResultTable:
-    t = ResultTable(name, meaning, written_by, tuple(columns), tuple(aliases))
-    RESULT_TABLES[name] = t
-    return t
 
 
 _table(
@@ -120,7 +113,13 @@ _table(
     REGION,
     QUANTITY,
     _c("share", "float", "share", "share", "The supplier's share of the site's inflow of the material"),
-    _c("max_share", "float", "share", "max share", "The policy's cap on one supplier's share"),
+    _c(
+        "max_share",
+        "float",
+        "share",
+        "max share",
+        "This supplier's cap at this site: the smallest of the policy's, the supplier's own and the site's own",
+    ),
 )
 _table(
     "mode_mix",
@@ -303,8 +302,14 @@ _table(
     _c("scenario", "str", "text", "scenario", "Scenario name (base, or with [hold] / [redesign])"),
     _c("resolve", "str", "text", "re-solve", "design (the base), hold or redesign"),
     DC,
-    _c("decision", "str", "text", "decision", "kept, closed, opened, not opened, or out (taken out by the scenario)"),
-    _c("throughput", "float", "units/yr", "throughput units/yr", "Units into the DC"),
+    _c(
+        "decision",
+        "str",
+        "text",
+        "decision",
+        "kept, closed, opened, not opened, out (taken out by the scenario), or no plan (the solve is infeasible)",
+    ),
+    _c("throughput", "float", "units/yr", "throughput units/yr", "Units into the DC (blank without a plan)"),
 )
 _SHARE_SIDE = (
     _c("base_share", "float", "share", "base share", "The share in the base"),
@@ -374,9 +379,17 @@ _table(
     MODE_MIX,
     LOST_UNITS,
     LOST_VALUE,
+    _c("lost_where", "str", "text", "lost at", "The customers losing most demand: customer units/yr; …"),
     _c("co2e_tonnes", "float", "t CO2e/yr", "CO2e t/yr", "Transport CO2e", sense=1),
     VERIFIED,
     _c("method", "str", "text", "method", "How it was solved (warm re-solve, rebuild, …)"),
+    _c(
+        "alternative_to",
+        "str",
+        "text",
+        "priced alternative to",
+        "For a row solved with lost demand allowed at the penalty: the infeasible row it stands beside",
+    ),
     _c(
         "diagnosis",
         "str",
@@ -407,90 +420,14 @@ _table(
     MODE_MIX,
     VERIFIED,
 )
-_table(
-    "spof_ranking",
-    "Single points of failure: each element out on its own, the network re-solved holding the base's DCs",
-    "netopt stress",
-    RANK,
-    _c("element", "str", "text", "element", "The supplier, plant, DC or lane taken out"),
-    TYPE,
-    _c("base_units", "float", "units/yr", "base units/yr", "Units through it in the base"),
-    _c("recovery_cost", "float", "currency/yr", "recovery cost", "Change in landed cost per year of outage"),
-    LOST_UNITS,
-    LOST_VALUE,
-    _c("impact", "float", "currency/yr", "impact", "recovery cost + lost value + rule relief cost"),
-    _c("customers_affected", "int", "count", "customers affected", "Customers short or served differently"),
-    _c("customers_short", "int", "count", "customers short", "Customers short of demand"),
-    _c("took_over", "str", "text", "took over", "Elements of the same kind whose volume rose most"),
-    _c("took_over_units", "float", "units/yr", "took over units/yr", "Their added units/yr"),
-    _c("rules_bent", "str", "text", "rules bent", "Rules exceeded in the disruption, at base shadow prices"),
-    _c("rule_relief_units", "float", "units/yr", "rule relief units", "Units beyond the rules"),
-    _c("rule_relief_cost", "float", "currency/yr", "rule relief cost", "Those units at the rules' shadow prices"),
-    _c("total_cost", "float", "currency/yr", "total cost", "Landed cost of the disrupted network"),
-    _c("delta_objective", "float", "currency/yr", "Δ objective", "Objective change", signed=True),
-    STATUS,
-    _c("id", "str", "text", "id", "Element id (type:code)"),
-    _c("redesign_status", "str", "text", "redesign status", "Status of the redesign re-solve (--redesign)"),
-    _c("redesign_total_cost", "float", "currency/yr", "redesign total cost", "Landed cost when redesigned"),
-    _c("redesign_recovery_cost", "float", "currency/yr", "redesign recovery cost", "Recovery cost when redesigned"),
-    _c("redesign_lost_units", "float", "units/yr", "redesign lost units/yr", "Lost units when redesigned"),
-    _c("redesign_lost_value", "float", "currency/yr", "redesign lost value", "Lost value when redesigned"),
-    _c("redesign_dc_changes", "str", "text", "redesign DC changes", "DCs opened or closed by the redesign"),
-    aliases=("spof",),
-)
-_table(
-    "exposure",
-    "Per supplier, plant and open DC: time to survive against time to recover, and the demand lost",
-    "netopt stress",
-    RANK,
-    _c("node", "str", "text", "node", "Supplier, plant or DC"),
-    _c("type", "str", "text", "type", "supplier, plant or dc"),
-    _c("ttr_days", "float", "days", "TTR days", "Time to recover: how long the node stays down"),
-    _c("tts_days", "float", "days", "TTS days", "Time to survive: how long all demand is still met"),
-    _c("tts_capped", "bool", "flag", "TTS capped", "TTS reached the horizon (the loss never hurts)"),
-    _c("lost_units", "float", "units", "lost units", "Units lost over the TTR"),
-    _c("lost_value", "float", "currency", "lost value", "Value lost over the TTR"),
-    _c("rei", "float", "ratio", "REI", "Risk-exposure index: lost value / the largest lost value"),
-    _c("customers_short", "int", "count", "customers short", "Customers short of demand"),
-    _c("shortage_days", "float", "days", "shortage days", "max(TTR − TTS, 0)"),
-    _c("tts_below_ttr", "bool", "flag", "at risk", "TTS shorter than TTR: needs mitigation"),
-    _c("stock_units", "float", "units", "stock units", "Stock held at or travelling into the node"),
-)
-_table(
-    "stress_run",
-    "Facts of a stress run (key, value as text)",
-    "netopt stress",
-    _c("key", "str", "text", "fact", "Name of the fact"),
-    _c("value", "str", "text", "value", "Its value, as text"),
-    aliases=("run", "info"),
-)
-
-
-def result_table(name: str) -> ResultTable | None:
-    """The declaration of a table written as ``name`` (its name or an alias), or None."""
-    if name in RESULT_TABLES:
-        return RESULT_TABLES[name]
-    return next((t for t in RESULT_TABLES.values() if name in t.aliases), None)
-
-
-def column_of(table: str, column: str) -> ResultColumn | None:
-    """The declaration of ``column`` of the table written as ``table``, or None."""
-    t = result_table(table)
-    return t.find(column) if t is not None else None
-
-
-def label_of(table: str, column: str) -> str:
-    """The short label of a column (the name with spaces for an undeclared one)."""
-    c = column_of(table, column)
-    return c.label_for(column) if c is not None else str(column).replace("_", " ")
-
+# The stress study's tables, registered after the run tables (the order of docs/outputs.md).
+from netopt.data import stress_schema  # noqa: E402, F401
 
 __all__ = [
     "RESULT_TABLES",
     "UNITS",
     "Kpi",
     "ResultColumn",
-    "ResultTable",
     "column_of",
     "label_of",
     "result_table",

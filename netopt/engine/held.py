@@ -3,8 +3,10 @@
 Holding the network (short-term recovery) keeps the base's openings and re-routes only.
 With the openings fixed the model is a linear program; it is built once, solved once
 cold, and every later re-solve changes bounds (a :class:`BoundPlan`) and starts from the
-previous basis.  Lost demand is always allowed here, at the penalty, so a disruption is
-reported as lost units rather than as an infeasible run.
+previous basis.  The model always carries lost-demand columns (at the penalty); a re-solve
+bounds them to zero unless the scenario's settings allow lost demand or the caller asks for
+the priced alternative (``lost_demand=True``), so a held disruption that cannot serve all demand
+is reported infeasible, never served silently by losing units.
 
 Safety stock is priced on one line per curve at the base throughput (not the curve's
 binaries, see ``netopt.model.safety_stock.held_lines``), so the held model stays a
@@ -226,12 +228,20 @@ class HeldNetwork:
                 h.changeRowsBounds(len(ri), ri, self.row_lo[ri], self.row_hi[ri])  # type: ignore[attr-defined]
         return info, values, x
 
-    def result(self, sc_case: Case, plan: BoundPlan, name: str = "") -> Result:
+    def result(self, sc_case: Case, plan: BoundPlan, name: str = "", lost_demand: bool | None = None) -> Result:
         """Warm re-solve of scenario case ``sc_case`` under ``plan``: a full, verified :class:`Result`.
 
         The tables come from the scenario's own network (its capacities, demand and costs),
         the held model's values mapped onto it by key, and are verified against ``sc_case``.
+        ``lost_demand``: allow lost demand at the penalty (None: as the scenario's settings say);
+        when it is not allowed and the held network cannot serve all demand, the result is
+        infeasible (no tables).
         """
+        allowed = bool(sc_case.settings["policy"]["allow_unmet_demand"]) if lost_demand is None else lost_demand
+        if not allowed:
+            hard = BoundPlan(dict(plan.cols), dict(plan.rows))
+            hard.set_cols(self.hm.col_of.get("unmet", NO_INDEX), 0.0, 0.0)
+            plan = hard
         t0 = time.perf_counter()
         info, values, _ = self.resolve(plan)
         resolve_s = time.perf_counter() - t0
@@ -262,9 +272,9 @@ class HeldNetwork:
         res.tables, res.verification = out.tables, out.verification
         res.timings.update(out.seconds)
         lost = float(res.tables["unmet"]["lost_units"].sum()) if len(res.tables["unmet"]) else 0.0
-        if lost > 0 and not bool(sc_case.settings["policy"]["allow_unmet_demand"]):
+        if allowed and not bool(sc_case.settings["policy"]["allow_unmet_demand"]):
             res.lost_demand_allowed = True
-            res.message += f"; {lost:,.0f} units/yr of demand lost at the penalty (a held network may lose demand)"
+            res.message += f"; lost demand allowed at the penalty: {lost:,.0f} units/yr lost"
         res.lanes = lanes
         res.network = sc_net
         return res

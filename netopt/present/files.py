@@ -21,7 +21,7 @@ import pandas as pd
 from netopt.data.result_views import COMPARISON_VIEW
 from netopt.data.results_schema import label_of
 from netopt.present.formats import cell_text, column_kind
-from netopt.present.labels import DISCLAIMER
+from netopt.present.labels import DISCLAIMER, comparison_notes
 from netopt.present.report import write_report
 from netopt.present.workbook import safe_text, write_workbook
 from netopt.studies.comparison import dc_decision_matrix
@@ -142,7 +142,8 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         (tmp / "comparison.md").write_text(
             f"# Scenario comparison: {run.base.case_name}\n\n"
             + markdown_table(comparison_view(run.comparison), "comparison", comparison_labels(run.comparison))
-            + "\n"
+            + "".join(f"\n- **{note}**" for note in comparison_notes(run.comparison))
+            + "\n\n"
             + DISCLAIMER
             + "\n"
         )

@@ -13,6 +13,7 @@ import pandas as pd
 from netopt.data.result_views import KPIS, TERMINAL_VIEW
 from netopt.data.results_schema import label_of
 from netopt.present.formats import cell_text, column_kind, kpi_kind, kpi_label, unit_text
+from netopt.present.labels import comparison_notes
 
 
 def new_console():
@@ -146,6 +147,8 @@ def print_comparison(comparison, console=None) -> None:
     for cells in rows:
         t.add_row(*cells)
     con.print(t)
+    for note in comparison_notes(comparison):
+        con.print(f"[yellow]![/yellow] {escape(note)}")
 
 
 def print_frontier(table, console=None) -> None:

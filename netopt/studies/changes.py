@@ -28,6 +28,12 @@ from netopt.engine.held import BoundPlan, HeldNetwork
 from netopt.engine.result import Result
 from netopt.network.lanes import build_lanes
 from netopt.studies.case_edit import CaseEdit, append_row
+from netopt.studies.change_costs import (
+    edit_scale_cost,
+    edit_set_capacity,
+    edit_share_cap,
+    held_set_capacity,
+)
 
 Change = dict  # one change: {"kind": ..., field: value, ...}
 
@@ -306,107 +312,6 @@ def _held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPla
     return plan
 
 
-# ---------------------------------------------------------------------------------- costs and capacities
-
-COST_TARGETS = ("mode_rate", "supplier_price", "dc_fixed_cost", "production_cost", "handling_cost")
-
-
-def _edit_scale_cost(ed: CaseEdit, ch: Change) -> None:
-    f = ed.number(ch, "factor")
-    t = ed.tables
-    target = ed.text(ch, "target")
-    if target == "mode_rate":
-        mode = ed.text(ch, "mode")
-        if mode not in ed.modes:
-            ed.errors.append(f"unknown mode '{mode}'")
-        elif f is not None:
-            mm = t["modes"]["mode"] == mode
-            t["modes"].loc[mm, "cost_per_tonne_km"] *= f
-            t["modes"].loc[mm, "fixed_cost_per_unit"] *= f
-            ex = t["lanes"]
-            em = (ex["mode"] == mode) & ex["cost_per_unit"].notna()
-            ex.loc[em, "cost_per_unit"] = ex.loc[em, "cost_per_unit"] * f
-            ed.lanes_changed = True
-    elif target == "supplier_price":
-        sp = t["suppliers"]
-        mask = sp["supplier"] == ed.text(ch, "supplier")
-        if ed.text(ch, "product"):
-            mask &= sp["product"] == ed.text(ch, "product")
-        if not mask.any():
-            what = f"'{ed.text(ch, 'supplier')}'" + (f" / '{ed.text(ch, 'product')}'" if ed.text(ch, "product") else "")
-            ed.errors.append(f"no supplier offer for {what}")
-        elif f is not None:
-            sp.loc[mask, "unit_cost"] *= f
-    elif target in ("dc_fixed_cost", "handling_cost"):
-        col = "fixed_cost" if target == "dc_fixed_cost" else "handling_cost"
-        dc = ed.text(ch, "dc")
-        mask = (t["dcs"]["dc"] == dc) if dc else pd.Series(True, index=t["dcs"].index)
-        if dc and ed.sites.get(dc) != "dc":
-            ed.errors.append(f"'{dc}' is not a DC")
-        elif f is not None:
-            t["dcs"].loc[mask, col] *= f
-            if target == "dc_fixed_cost" and len(t["dc_sizes"]):
-                sm = (t["dc_sizes"]["dc"] == dc) if dc else slice(None)
-                t["dc_sizes"].loc[sm, "fixed_cost"] *= f
-    elif target == "production_cost":
-        pl = t["plants"]
-        mask = pd.Series(True, index=pl.index)
-        if ed.text(ch, "plant"):
-            mask &= pl["plant"] == ed.text(ch, "plant")
-        if ed.text(ch, "product"):
-            mask &= pl["product"] == ed.text(ch, "product")
-        if not mask.any():
-            ed.errors.append("no plant row matches")
-        elif f is not None:
-            pl.loc[mask, "unit_cost"] *= f
-    else:
-        ed.errors.append(f"target must be {', '.join(COST_TARGETS)}, not '{target}'")
-
-
-def _capacity_rows(ed: CaseEdit, ch: Change) -> tuple[pd.DataFrame | None, pd.Series | None]:
-    site = ed.text(ch, "site")
-    table, col = {"supplier": ("suppliers", "supplier"), "plant": ("plants", "plant"), "dc": ("dcs", "dc")}.get(
-        ed.sites.get(site, ""), ("", "")
-    )
-    if not table:
-        ed.errors.append(f"'{site}' is not a supplier, plant or DC")
-        return None, None
-    df = ed.tables[table]
-    mask = df[col] == site
-    if ed.text(ch, "product") and table != "dcs":
-        mask &= df["product"] == ed.text(ch, "product")
-    if not mask.any():
-        ed.errors.append("no row matches")
-    return df, mask
-
-
-def _edit_set_capacity(ed: CaseEdit, ch: Change) -> None:
-    df, mask = _capacity_rows(ed, ch)
-    if "capacity" in ch:
-        v = ed.number(ch, "capacity")
-        if df is not None and not ed.errors:
-            df.loc[mask, "capacity"] = v
-    elif "factor" in ch:
-        v = ed.number(ch, "factor")
-        if df is not None and not ed.errors:
-            df.loc[mask, "capacity"] = df.loc[mask, "capacity"] * v
-    else:
-        ed.errors.append("give capacity or factor")
-
-
-def _held_set_capacity(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
-    """A plant's capacity is its production bounds; supplier and DC capacities are rows (rebuild)."""
-    site, product = str(ch.get("site", "")).strip(), str(ch.get("product", "")).strip()
-    rows = held.make_rows(site, product)
-    if not len(rows):
-        return None
-    cap = sc_case.tables["plants"].set_index(["plant", "product"])["capacity"]
-    plan = BoundPlan()
-    for k in rows.tolist():
-        plan.set_cols(held.cols("make", np.array([k])), 0.0, float(cap.loc[(site, held.net.make["product"].iloc[k])]))
-    return plan
-
-
 # ---------------------------------------------------------------------------------- the registry
 
 CHANGE_KINDS: dict[str, ChangeKind] = {
@@ -456,13 +361,19 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             "scale_cost",
             "Scale a cost: factor and target = mode_rate (mode) | supplier_price (supplier, product) | "
             "dc_fixed_cost (dc) | production_cost (plant, product) | handling_cost (dc)",
-            _edit_scale_cost,
+            edit_scale_cost,
+        ),
+        ChangeKind(
+            "share_cap",
+            "Cap one supplier's share: supplier (optional product) for its cap at every site, or site (plant "
+            "or DC) for that site's cap on any one supplier; max_share (share); the policy's cap still applies",
+            edit_share_cap,
         ),
         ChangeKind(
             "set_capacity",
             "Change a capacity: site (supplier, plant or DC), optional product, capacity or factor",
-            _edit_set_capacity,
-            _held_set_capacity,
+            edit_set_capacity,
+            held_set_capacity,
         ),
     )
 }
@@ -489,8 +400,11 @@ def element_changes(el: dict) -> list[Change]:
     return [{"kind": "site_out", "site": el["origin"]}]
 
 
-def resolve_held(held: HeldNetwork, sc_case: Case, changes: list[Change], name: str = "") -> Result | None:
+def resolve_held(
+    held: HeldNetwork, sc_case: Case, changes: list[Change], name: str = "", lost_demand: bool | None = None
+) -> Result | None:
     """Warm re-solve of scenario case ``sc_case`` (made by ``changes``) on ``held``; None when a
-    change is not a bound change (the hold must then be rebuilt with the openings fixed)."""
+    change is not a bound change (the hold must then be rebuilt with the openings fixed).
+    ``lost_demand``: as :meth:`HeldNetwork.result` (None: as the scenario's settings say)."""
     plan = held_plan(held, changes, sc_case)
-    return None if plan is None else held.result(sc_case, plan, name=name)
+    return None if plan is None else held.result(sc_case, plan, name=name, lost_demand=lost_demand)

@@ -33,6 +33,16 @@ def diagnosis_text(diagnosis: pd.DataFrame | None, most: int = 4) -> str:
     return " | ".join(parts[:most]) + (f" | +{len(parts) - most} more rules" if len(parts) > most else "")
 
 
+def lost_where(unmet: pd.DataFrame, most: int = 3) -> str:
+    """The customers losing most demand in one line: ``customer units; …`` (units/yr), largest first."""
+    if unmet.empty:
+        return ""
+    by = unmet.groupby("customer")["lost_units"].sum().sort_values(ascending=False)
+    by = by[by > 0.5]
+    text = "; ".join(f"{c} {v:,.0f}" for c, v in by.head(most).items())
+    return text + (f"; +{len(by) - most} more customers" if len(by) > most else "")
+
+
 def comparison_row(
     name: str,
     based_on: str,
@@ -93,6 +103,7 @@ def comparison_row(
     un = r.tables["unmet"]
     row["lost_units"] = float(un["lost_units"].sum()) if len(un) else 0.0
     row["lost_value"] = float(un["value"].sum()) if len(un) else 0.0
+    row["lost_where"] = lost_where(un)
     row["co2e_tonnes"] = k.get("co2e_tonnes")
     row["verified"] = bool(r.verification.passed) if r.verification else False
     row["method"] = method + (" (lost demand allowed)" if r.lost_demand_allowed else "")
@@ -108,13 +119,16 @@ DC_DECISION_WORDS = {
 }
 """A DC's decision in a solve, from its status and whether it is open; ``out`` where the scenario
 takes it out (or forces it closed) and the base case does not."""
+NO_PLAN = "no plan"
+"""Every DC's decision in a solve that found no plan (infeasible as asked)."""
 
 
 def dc_decisions(label: str, how: str, r, sc_case, base_case) -> pd.DataFrame:
     """One row per DC of one solve: scenario, resolve, dc, decision, throughput (units/yr)."""
     cols = ["scenario", "resolve", "dc", "decision", "throughput"]
     if not r.has_solution:
-        return pd.DataFrame(columns=cols)
+        dcs = sc_case.tables["dcs"]["dc"].to_numpy()
+        return pd.DataFrame({"scenario": label, "resolve": how, "dc": dcs, "decision": NO_PLAN, "throughput": np.nan})
     d = r.tables["dcs"]
     forced_now = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
     forced_base = base_case.tables["dcs"].set_index("dc")["force"].astype(str)
@@ -139,7 +153,8 @@ def dc_decision_matrix(decisions: pd.DataFrame) -> pd.DataFrame:
     ``decision · throughput`` (units/yr), solves in run order."""
     if decisions.empty:
         return pd.DataFrame(columns=["dc"])
-    d = decisions.assign(cell=decisions["decision"] + " · " + decisions["throughput"].map(lambda v: f"{v:,.0f}"))
+    cell = decisions["decision"] + " · " + decisions["throughput"].map(lambda v: f"{v:,.0f}")
+    d = decisions.assign(cell=cell.where(decisions["decision"] != NO_PLAN, NO_PLAN))
     order = list(dict.fromkeys(d["scenario"]))
     m = d.pivot(index="dc", columns="scenario", values="cell").reindex(columns=order).fillna("–")
     return m.reset_index().rename_axis(columns=None)

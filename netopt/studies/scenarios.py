@@ -22,14 +22,16 @@ site_out, policy, setting, scale_demand, scale_cost, set_capacity.
 recovery); DCs taken out are closed.  With openings fixed the model is a linear
 program, re-solved warm from the base basis in one kept HiGHS instance whenever the
 scenario's changes are bound changes; other changes rebuild with the openings held.
-*Redesign* re-optimises openings too (the long-term answer).  When a scenario cannot
-serve all demand it is re-solved with lost demand allowed at the penalty and
-reported as lost units and value, never as a failed run.
+*Redesign* re-optimises openings too (the long-term answer).  Lost demand is allowed
+only where the scenario's settings allow it.  A scenario that cannot serve all demand
+without it is reported *infeasible*, with the diagnosis (which rules, where, how much),
+and its priced alternative — the same solve with lost demand allowed at the penalty — is
+a comparison row of its own beside it (labelled :data:`PRICED_SUFFIX`, ``alternative_to``
+naming the infeasible row), never substituted for it.
 """
 
 from __future__ import annotations
 
-import copy
 import time
 from dataclasses import dataclass, field
 
@@ -37,7 +39,7 @@ import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
 from netopt.data.validate import validate_and_coerce
-from netopt.engine.held import HeldNetwork, held_decisions
+from netopt.engine.held import HeldNetwork, held_decisions, settings_with_lost_demand
 from netopt.engine.result import Result
 from netopt.engine.solve import solve
 from netopt.studies.case_edit import CaseEdit, site_kinds
@@ -241,19 +243,84 @@ class ScenarioRun:
     mode_mix_changes: pd.DataFrame = field(default_factory=pd.DataFrame)  # each solve against the base
 
 
+PRICED_SUFFIX = "lost demand priced"
+"""Label part of the priced alternative's row: ``name [hold, lost demand priced]``."""
+
+
+def priced_label(label: str) -> str:
+    """The comparison label of the priced alternative beside infeasible row ``label``."""
+    if label.endswith("]"):
+        return f"{label[:-1]}, {PRICED_SUFFIX}]"
+    return f"{label} [{PRICED_SUFFIX}]"
+
+
+def _infeasible(r: Result) -> bool:
+    return not r.has_solution and r.status in ("infeasible", "unbounded")
+
+
+def priced(r: Result) -> Result:
+    """Mark ``r`` as the priced alternative: lost demand allowed at the penalty although the settings do not."""
+    lost = float(r.tables["unmet"]["lost_units"].sum()) if r.has_solution and len(r.tables["unmet"]) else 0.0
+    r.lost_demand_allowed = True
+    note = f"priced alternative: lost demand allowed at the penalty ({lost:,.0f} units/yr lost)"
+    r.message = f"{r.message}; {note}".strip("; ") if note not in r.message else r.message
+    return r
+
+
 def solve_or_lose(case: Case, **kw) -> Result:
-    """Solve; if infeasible, solve again with lost demand allowed at the penalty (``Result.lost_demand_allowed``)."""
+    """Solve; if infeasible, solve again with lost demand allowed at the penalty (``Result.lost_demand_allowed``).
+
+    For studies that measure lost demand by design (the stress sweep's redesigns); a scenario
+    run keeps the infeasible answer and shows this one beside it (:func:`solve_as_asked`).
+    """
     r = solve(case, diagnose=False, **kw)
-    if r.has_solution or r.status not in ("infeasible", "unbounded"):
+    if not _infeasible(r):
         return r
-    c2 = Case(case.name, case.tables, copy.deepcopy(case.settings), case.path)
-    c2.settings["policy"]["allow_unmet_demand"] = True
-    r2 = solve(c2, **kw)
-    r2.message = (r2.message + "; infeasible without lost demand, so re-solved with lost demand at the penalty").strip(
-        "; "
-    )
-    r2.lost_demand_allowed = True
-    return r2
+    return priced(solve(settings_with_lost_demand(case), **kw))
+
+
+def solve_as_asked(
+    sc_case: Case,
+    how: str,
+    base: Result,
+    held: HeldNetwork | None,
+    changes: list[dict],
+    label: str,
+    warm: bool = True,
+) -> list[tuple[str, Result, str, str]]:
+    """One scenario solve as its settings ask: rows of (label, result, method, alternative_to).
+
+    Hold: warm on ``held`` where the changes are bound changes, else rebuilt with the openings
+    fixed.  Redesign: a MIP started from the hold's plan (the base's DCs less those the scenario
+    closes), so a redesign is never dearer than holding the network (up to the gap).  An
+    infeasible result carries its diagnosis (from the full model, rebuilt if the warm re-solve
+    was infeasible), and is followed by its priced alternative, solved the same way.
+    """
+    if not changes and base.has_solution:
+        return [(label, base, "the base (no changes)", "")]  # the same case: its solve is the base's
+    hold = held_decisions(base.held_openings(), sc_case) if base.has_solution else {}
+    strict = not bool(sc_case.settings["policy"]["allow_unmet_demand"])
+    alt: Result | None = None
+    if how == "hold":
+        r = resolve_held(held, sc_case, changes, name=label) if warm and held is not None else None
+        method = "warm LP" if r is not None else "rebuilt"
+        if r is not None and _infeasible(r):
+            method = "warm LP infeasible; diagnosed on a rebuild"
+        if r is None or _infeasible(r):
+            r = solve(sc_case, hold=hold, diagnose=True)
+        if _infeasible(r) and strict:
+            alt = resolve_held(held, sc_case, changes, name=label, lost_demand=True) if held is not None else None
+            alt_method = "warm LP" if alt is not None else "rebuilt"
+            alt = alt if alt is not None else solve(settings_with_lost_demand(sc_case), hold=hold)
+    else:
+        method = alt_method = "mip"
+        r = solve(sc_case, start=hold or None, diagnose=True)
+        if _infeasible(r) and strict:
+            alt = solve(settings_with_lost_demand(sc_case), start=hold or None)
+    rows = [(label, r, method, "")]
+    if alt is not None:
+        rows.append((priced_label(label), priced(alt), alt_method, label))
+    return rows
 
 
 def run_scenarios(
@@ -301,7 +368,12 @@ def run_scenarios(
     say("done", {"name": "base", "status": base.status, "seconds": time.perf_counter() - t0})
     run = ScenarioRun(base=base, scenarios=chosen)
     run.results["base"] = base
-    rows = [comparison_row("base", "", "design", base, base, "mip", time.perf_counter() - t0, "the base case")]
+    rows = [
+        {
+            **comparison_row("base", "", "design", base, base, "mip", time.perf_counter() - t0, "the base case"),
+            "alternative_to": "",
+        }
+    ]
     decisions = [dc_decisions("base", "design", base, case, case)]
     shares: list[tuple[pd.DataFrame, pd.DataFrame]] = []
     held: HeldNetwork | None = None
@@ -312,31 +384,23 @@ def run_scenarios(
             label = s.name if len(modes) == 1 else f"{s.name} [{how}]"
             say("start", {"name": label, "resolve": how})
             t1 = time.perf_counter()
-            if how == "hold":
-                r = None
-                if warm and base.has_solution:
-                    if held is None:
-                        held = HeldNetwork(case, base)
-                    r = resolve_held(held, sc_case, all_changes(scenarios, s.name), name=label)
-                    method = "warm LP"
-                if r is None:
-                    r = solve_or_lose(sc_case, hold=held_decisions(base.held_openings(), sc_case))
-                    method = "rebuilt"
-            else:
-                # Started from the hold's plan (the base's DCs less those the scenario closes), so a
-                # redesign is never dearer than holding the network (up to the gap).
-                r = solve_or_lose(sc_case, start=held_decisions(base.held_openings(), sc_case))
-                method = "mip"
+            if how == "hold" and warm and base.has_solution and held is None:
+                held = HeldNetwork(case, base)
+            solved = solve_as_asked(sc_case, how, base, held, all_changes(scenarios, s.name), label, warm)
             sec = time.perf_counter() - t1
-            run.results[label] = r
-            rows.append(comparison_row(label, s.based_on, how, r, base, method, sec, s.description))
-            decisions.append(dc_decisions(label, how, r, sc_case, case))
-            shares.append(share_changes(label, how, r, base))
-            say("done", {"name": label, "status": r.status, "seconds": sec})
+            for lab, res, method, alternative_to in solved:
+                run.results[lab] = res
+                row = comparison_row(lab, s.based_on, how, res, base, method, sec, s.description)
+                rows.append({**row, "alternative_to": alternative_to})
+                decisions.append(dc_decisions(lab, how, res, sc_case, case))
+                shares.append(share_changes(lab, how, res, base))
+            say("done", {"name": label, "status": solved[0][1].status, "seconds": sec})
         if s.frontier_points:
             say("frontier_start", {"name": s.name, "points": s.frontier_points})
             t1 = time.perf_counter()
-            run.frontiers[s.name] = scenario_frontier(sc_case, s)
+            # Point 0 is this scenario's own redesign row (the base itself when nothing changes).
+            own = run.results.get(s.name if s.resolve == "redesign" else f"{s.name} [redesign]")
+            run.frontiers[s.name] = scenario_frontier(sc_case, s, cost_optimal=own if s.resolve != "hold" else None)
             say("frontier_done", {"name": s.name, "points": s.frontier_points, "seconds": time.perf_counter() - t1})
     run.comparison = pd.DataFrame(rows)
     run.dc_decisions = pd.concat(decisions, ignore_index=True)
