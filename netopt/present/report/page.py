@@ -20,7 +20,7 @@ import pandas as pd
 from netopt.data.result_views import KPIS
 from netopt.data.results_schema import result_table
 from netopt.present.formats import cell_text, kpi_kind, kpi_label, unit_text
-from netopt.present.labels import DISCLAIMER
+from netopt.present.labels import DISCLAIMER, comparison_notes
 from netopt.present.report.charts import (
     cost_bars_svg,
     dc_utilisation_svg,
@@ -31,7 +31,7 @@ from netopt.present.report.charts import (
     transit_histogram_svg,
     waterfall_svg,
 )
-from netopt.present.report.map import network_map_svg
+from netopt.present.report.map import difference_map_svg, land_layer_svg, network_map_svg, run_layout
 from netopt.present.report.style import mode_colours, short_number
 from netopt.present.report.tables import (
     MAX_TABLE_ROWS,
@@ -243,6 +243,60 @@ def _extra_sections(tables: dict[str, pd.DataFrame], currency: str) -> list[dict
     return out
 
 
+TIE_NOTE = (
+    "This solve costs the same as the base within the optimality gaps: flows that moved may be an "
+    "equally cheap alternative (a tie), not an effect of the scenario."
+)
+
+
+def land_symbol(svg: str, symbol_id: str) -> tuple[str, str]:
+    """An inline SVG drawn once as a ``<symbol>``, and the ``<svg><use …></svg>`` that shows it
+    under each map of the same size."""
+    view = re.search(r'viewBox="([^"]+)"', svg)
+    style = re.search(r'style="([^"]+)"', svg[: svg.index(">")])
+    box = view.group(1) if view else "0 0 100 100"
+    inner = svg[svg.index(">", svg.index("<svg")) + 1 : svg.rindex("</svg>")]
+    symbol = f'<symbol id="{symbol_id}" viewBox="{box}">{inner}</symbol>'
+    use = (
+        f'<svg class="land" viewBox="{box}" style="{style.group(1) if style else ""}" aria-hidden="true">'
+        f'<use href="#{symbol_id}" width="100%" height="100%"/></svg>'
+    )
+    return symbol, use
+
+
+def scenario_maps(run, colours: dict[str, str]) -> tuple[tuple[str, str], list[dict]]:
+    """Per solve of a run (base aside) with a plan: its network map and its map against the base,
+    all in one frame over one land layer (drawn once, as a symbol).
+
+    Returns:
+        ((the land symbol, the element that shows it), one dict per solve: id, label, delta,
+        map, diff and their captions).
+    """
+    solved = [(lab, r) for lab, r in run.results.items() if lab != "base" and r.has_solution]
+    if not solved or not run.base.has_solution:
+        return ("", ""), []
+    lay = run_layout([run.base] + [r for _, r in solved])
+    rows = run.comparison.set_index("scenario")
+    out = []
+    for k, (lab, r) in enumerate(solved):
+        delta = rows["delta_cost"].get(lab, np.nan) if "delta_cost" in rows else np.nan
+        tie = bool(rows["within_gap"].get(lab, False)) if "within_gap" in rows else False
+        net, net_caption = network_map_svg(r, colours, layout=lay, compact=True, land=False)
+        diff, diff_caption = difference_map_svg(run.base, r, layout=lay, compact=True, land=False)
+        out.append(
+            {
+                "id": f"scenario-map-{k + 1}",
+                "label": lab,
+                "delta": f"{delta:+,.0f}" if np.isfinite(delta) else "",
+                "map": net,
+                "map_caption": net_caption,
+                "diff": diff,
+                "diff_caption": (TIE_NOTE + " " if tie else "") + diff_caption,
+            }
+        )
+    return land_symbol(land_layer_svg(lay, compact=True), "scenario-land"), out
+
+
 def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, created: datetime | None = None) -> str:
     """The report page as one HTML string (see :func:`write_report`)."""
     import jinja2
@@ -283,6 +337,7 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
                     for m in r.tables["mode_mix"]["mode"]:
                         colours.setdefault(m, mode_colours(list(colours) + [m])[m])
             ctx["comparison"] = comparison_table(run.comparison)
+            ctx["comparison_notes"] = comparison_notes(run.comparison)
             ctx["comparison_tol"] = money_tolerance(run.comparison, run.comparison.iloc[0])
             ctx["cost_bars"] = cost_bars_svg(
                 labels, [run.results[lab].cost for lab in labels], currency, tol=ctx["comparison_tol"]
@@ -295,6 +350,7 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
             ctx["scenario_notes"] = (
                 table(desc, "comparison", tid="scenario-notes", max_rows=None) if desc is not None else None
             )
+            (ctx["scenario_land"], ctx["land_use"]), ctx["scenario_maps"] = scenario_maps(run, colours)
         ctx["kpis"] = _kpi_tiles(base, currency)
         ctx["map"], ctx["map_caption"] = network_map_svg(base, colours)
         ctx["waterfall"] = waterfall_svg(base.cost, currency)

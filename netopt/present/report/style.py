@@ -28,7 +28,13 @@ SITE_STYLE = {
     "dc_close": ("X", BAD, "white", 120, "DC closed"),
     "dc_idle": ("H", "none", "#8d979e", 150, "candidate DC, not opened"),
     "customer": ("o", "#5f86ab", "white", None, "customer (area ∝ demand)"),
+    # against the base (difference maps)
+    "dc_gained": ("H", "#e3a21a", INK, 190, "DC open here, not in the base"),
+    "dc_lost": ("X", BAD, "white", 120, "DC open in the base, not here"),
+    "dc_both": ("H", ACCENT, "white", 190, "DC open in both"),
+    "customer_short": ("o", "#f3cfca", BAD, None, "customer losing demand"),
 }
+FLOW_GAINED, FLOW_LOST, FLOW_SAME = "#2f6fb3", "#d4622a", "#b8c0c5"  # difference maps: more, less, unchanged flow
 
 MODE_HINTS = [  # (name fragment, colour): common mode names get familiar colours
     ("ltl", "#e1a82c"),
@@ -86,6 +92,8 @@ def chart_rc():
 
 
 _svg_counter = itertools.count(1)
+_PATH_D = re.compile(r'\sd="[^"]*"')
+_LONG_NUMBER = re.compile(r"-?\d+\.\d{3,}")
 
 
 def to_svg(fig) -> str:
@@ -94,6 +102,9 @@ def to_svg(fig) -> str:
     fig.savefig(buf, format="svg", facecolor="none", edgecolor="none", metadata={"Date": None})
     text = buf.getvalue()
     text = text[text.index("<svg") :]
+    # Path coordinates in points to 2 decimals (matplotlib writes 6): a hundredth of a point is
+    # far below what a screen or printer shows, and map outlines shrink by a third.
+    text = _PATH_D.sub(lambda m: _LONG_NUMBER.sub(lambda n: f"{float(n.group()):.2f}", m.group()), text)
     pre = f"f{next(_svg_counter)}-"
     text = re.sub(r'\bid="', f'id="{pre}', text)
     text = re.sub(r"url\(#", f"url(#{pre}", text)
