@@ -105,8 +105,28 @@ def test_scenario_file_asks_for_a_frontier():
     assert set(run.frontiers) == {"greener"}
     table = run.frontiers["greener"]
     assert len(table) == 3 and table["verified"].all()
-    # The scenario's own redesign solve is the frontier's cost-optimal end.
-    assert table["total_cost"].iloc[0] == pytest.approx(run.results["greener"].objective, rel=REL)
+    # The scenario's own redesign solve is the frontier's cost-optimal end: the same figures, not a re-solve.
+    row = run.comparison.set_index("scenario").loc["greener"]
+    assert table["total_cost"].iloc[0] == pytest.approx(row["total_cost"], rel=1e-9)
+    assert table["co2_t"].iloc[0] == pytest.approx(row["co2e_tonnes"], rel=1e-9)
+
+
+@pytest.mark.parametrize("seed", [0, 3])
+def test_a_frontier_of_the_base_starts_at_the_base(seed):
+    """A scenario with no changes asks for the base's frontier: its row is the base and the frontier's first
+    point is the base's cost and CO2e to 1e-9; costs never fall as the cap tightens (up to the gap)."""
+    case = random_case(seed)
+    case.scenarios = [{"name": "base_frontier", "frontier_points": 3, "change": []}]
+    run = run_scenarios(case)
+    comp = run.comparison.set_index("scenario")
+    table = run.frontiers["base_frontier"]
+    assert comp.loc["base_frontier", "total_cost"] == comp.loc["base", "total_cost"]
+    assert table["total_cost"].iloc[0] == pytest.approx(comp.loc["base", "total_cost"], rel=1e-9)
+    assert table["co2_t"].iloc[0] == pytest.approx(comp.loc["base", "co2e_tonnes"], rel=1e-9)
+    cost = table["total_cost"].to_numpy(float)
+    gap = float(case.settings["solver"]["mip_gap"])
+    assert np.all(np.diff(cost) >= -gap * cost[:-1] - 1e-6)
+    assert table["verified"].all()
 
 
 @pytest.mark.parametrize("bad", [1, "3", 2.5, True])

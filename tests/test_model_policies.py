@@ -16,7 +16,10 @@ import pandas as pd
 import pytest
 
 from netopt.api import solve
+from netopt.data.case import CaseError
 from netopt.data.frames import make_case
+from netopt.engine.verify import verify
+from netopt.studies.scenarios import Scenario, apply_changes
 
 
 def lane(o, d, cost=None, mode="m", days=0.0, km=0.0, **kw):
@@ -126,6 +129,71 @@ def test_region_share_respected():
     by_region = sh.groupby(["site", "product", "region"])["share"].sum()
     assert (by_region <= 0.6 + 1e-7).all()
     assert by_region.xs("south", level="region").to_numpy() == pytest.approx([0.4, 0.4])
+
+
+def _with(case, table: str, key: str, code: str, column: str, value: float):
+    t = case.tables[table]
+    t.loc[t[key] == code, column] = value
+    return case
+
+
+@pytest.mark.parametrize(
+    "policy,own,unit",
+    [
+        (1.0, 0.5, 0.5 * 1 + 0.5 * 2),  # S1's own cap binds: half from S1 (1), half from S2 (2)
+        (0.7, 0.8, 0.7 * 1 + 0.3 * 2),  # the policy's 0.7 is the smaller and counts
+        (0.6, 0.3, 0.3 * 1 + 0.6 * 2 + 0.1 * 4),  # own 0.3 for S1, policy 0.6 for S2, rest from S3
+    ],
+)
+def test_a_suppliers_own_share_cap_beside_the_policy(policy, own, unit):
+    """suppliers.max_share caps that supplier at every site; the smaller of it and the policy counts.
+    Hand computation: supply cost = 300 units of steel × the unit price of the cheapest split."""
+    case = _with(sourcing_case(max_supplier_share=policy), "suppliers", "supplier", "S1", "max_share", own)
+    res = solve(case)
+    assert res.status == "optimal" and res.verification.passed
+    assert res.cost["supply"] == pytest.approx(300.0 * unit, rel=1e-7)
+    sh = res.tables["supplier_shares"].set_index(["site", "supplier"])
+    for site_ in ("PA", "PB"):
+        assert sh.loc[(site_, "S1"), "share"] == pytest.approx(min(own, policy), abs=1e-7)
+        assert sh.loc[(site_, "S1"), "max_share"] == pytest.approx(min(own, policy))
+        assert sh.loc[(site_, "S2"), "max_share"] == pytest.approx(policy)
+
+
+def test_a_sites_own_share_cap_binds_at_that_site_only():
+    """plants.max_supplier_share = 0.5 at PA: PA buys 200 steel half from S1, half from S2 (1.5/unit);
+    PB keeps its 100 all from S1 (1/unit): 300 + 100 = 400."""
+    case = _with(sourcing_case(), "plants", "plant", "PA", "max_supplier_share", 0.5)
+    res = solve(case)
+    assert res.status == "optimal" and res.verification.passed
+    assert res.cost["supply"] == pytest.approx(400.0, rel=1e-7)
+    sh = res.tables["supplier_shares"].set_index(["site", "supplier"])
+    assert sh.loc[("PA", "S1"), "share"] == pytest.approx(0.5, abs=1e-7)
+    assert sh.loc[("PB", "S1"), "share"] == pytest.approx(1.0, abs=1e-7)
+    assert set(sh.xs("PA", level="site")["max_share"]) == {0.5}
+
+
+def test_the_independent_check_reads_the_own_caps():
+    """A plan made without S1's own cap breaks it: the check of that plan against the capped case fails."""
+    free = solve(sourcing_case())
+    capped = _with(sourcing_case(), "suppliers", "supplier", "S1", "max_share", 0.5)
+    v = verify(capped, free.lanes, free.tables, free.objective)
+    assert not v.passed and v.largest_violation_rule == "max supplier share"
+
+
+def test_share_caps_as_scenario_changes():
+    """kind = "share_cap" sets a supplier's own cap (supplier=) or a site's (site=): the same hand figures."""
+    base = sourcing_case()
+    by_supplier = apply_changes(base, Scenario("s1", [{"kind": "share_cap", "supplier": "S1", "max_share": 0.5}]))
+    assert solve(by_supplier).cost["supply"] == pytest.approx(450.0, rel=1e-7)
+    by_site = apply_changes(base, Scenario("pb", [{"kind": "share_cap", "site": "PB", "max_share": 0.4}]))
+    # PB: 0.4 × 1 + 0.4 × 2 + 0.2 × 4 = 2.0/unit × 100; PA 200 × 1.
+    assert solve(by_site).cost["supply"] == pytest.approx(400.0, rel=1e-7)
+    with pytest.raises(CaseError) as e:
+        apply_changes(base, Scenario("bad", [{"kind": "share_cap", "site": "S1", "max_share": 1.5}]))
+    assert "max_share" in str(e.value)
+    with pytest.raises(CaseError) as e:
+        apply_changes(base, Scenario("bad", [{"kind": "share_cap", "site": "S1", "max_share": 0.5}]))
+    assert "not a plant or DC" in str(e.value)
 
 
 @pytest.mark.parametrize("k,min_share,unit", [(2, 0.1, 0.9 * 1 + 0.1 * 2), (3, 0.2, 0.6 * 1 + 0.2 * 2 + 0.2 * 4)])

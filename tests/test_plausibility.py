@@ -10,6 +10,7 @@ from pathlib import Path
 import pandas as pd
 
 from netopt.api import load_case
+from netopt.network.plausibility import coordinate_warnings, plausibility_warnings
 
 DEMO = Path(__file__).resolve().parents[1] / "cases" / "brackenholt"
 
@@ -43,3 +44,42 @@ def test_swapped_and_sign_lost_coordinates_and_a_28_t_unit_are_flagged_in_one_pa
     rows = {w.row for w in warnings if w.table == "customers"}
     c = pd.read_csv(tmp_path / "case" / "customers.csv")
     assert rows == {int(c.index[c["customer"] == n][0]) + 2 for n in ("C_STOCKHOLM", "C_MADRID")}  # CSV lines
+
+
+CITIES = {  # real city coordinates (lat, lon), from memory; region as an analyst would tag them
+    "C_TOKYO": (35.68, 139.69, "east_asia"),
+    "C_SEOUL": (37.57, 126.98, "east_asia"),
+    "C_SHANGHAI": (31.23, 121.47, "east_asia"),
+    "C_MELBOURNE": (-37.81, 144.96, "oceania"),
+    "C_BRISBANE": (-27.47, 153.03, "oceania"),
+    "C_PERTH": (-31.95, 115.86, "oceania"),
+    "C_AUCKLAND": (-36.85, 174.76, "oceania"),
+    "C_SYDNEY": (-33.87, 151.21, "oceania"),
+    "C_LONDON": (51.51, -0.13, "uk"),  # the UK straddles the prime meridian: no warning
+    "C_BRISTOL": (51.45, -2.59, "uk"),
+    "C_CAMBRIDGE": (52.21, 0.12, "uk"),
+    "C_LEEDS": (53.80, -1.55, "uk"),
+}
+
+
+def _site_tables(**changed) -> dict[str, pd.DataFrame]:
+    rows = []
+    for code, (lat, lon, region) in CITIES.items():
+        lat, lon = changed.get(code, (lat, lon))
+        rows.append({"customer": code, "lat": lat, "lon": lon, "region": region})
+    return {"customers": pd.DataFrame(rows, index=range(2, 2 + len(rows)))}
+
+
+def test_a_site_across_the_equator_from_the_rest_of_its_region_is_flagged():
+    """Sydney typed without its minus sign lands near Tokyo (about 1,100 km away), so it is not far from
+    every site; but every other site of region 'oceania' is south of the equator."""
+    tables = _site_tables(C_SYDNEY=(33.87, 151.21))
+    assert not coordinate_warnings(tables)  # not far from every site: the first check cannot see it
+    w = plausibility_warnings(tables, {})
+    assert [(p.row, p.column) for p in w] == [(9, "lat")]
+    assert "'C_SYDNEY' (region 'oceania') is north of the equator" in w[0].message
+
+
+def test_regions_on_both_sides_of_a_line_raise_nothing():
+    """As given, no site is across a line from all of its region (the UK straddles the prime meridian)."""
+    assert not plausibility_warnings(_site_tables(), {})

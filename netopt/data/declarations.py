@@ -6,7 +6,10 @@ The declarations themselves are in :mod:`netopt.data.schema` (tables) and
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
+
+INF = math.inf  # a float column default meaning "no limit" when left blank
 
 
 @dataclass(frozen=True)
@@ -72,3 +75,8 @@ class Setting:
     meaning: str
     min: float | None = None
     max: float | None = None
+
+
+def column(name, type_, unit, required, default, meaning, **kw) -> Column:
+    """A :class:`Column`, positional in the order every table declaration reads."""
+    return Column(name, type_, unit, required, default, meaning, **kw)

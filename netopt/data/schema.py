@@ -12,21 +12,12 @@ Types: ``str`` (text), ``float`` (number), ``int`` (whole number), ``bool``
 
 from __future__ import annotations
 
-import math
-
-from netopt.data.declarations import Column, Reference, Table
-from netopt.data.emission_factors import schema_note as emission_schema_note
-
-INF = math.inf
-
-
-def _c(name, type_, unit, required, default, meaning, **kw) -> Column:
-    return Column(name, type_, unit, required, default, meaning, **kw)
-
+from netopt.data.declarations import INF, Reference, Table
+from netopt.data.declarations import column as _c
+from netopt.data.schema_transport import LANES, LEGS, MODES, ROAD_EDGES
 
 LAT = _c("lat", "float", "degrees", True, None, "Latitude, WGS84, north positive", min=-90, max=90)
 LON = _c("lon", "float", "degrees", True, None, "Longitude, WGS84, east positive", min=-180, max=180)
-LEGS = ("supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer", "dc-dc")
 
 TABLES: dict[str, Table] = {}
 
@@ -124,6 +115,17 @@ _table(
                 "blank = settings' resilience.time_to_recover_days",
                 min=0,
             ),
+            _c(
+                "max_share",
+                "float",
+                "share",
+                False,
+                1.0,
+                "Most this supplier may provide of any one site's supply of the product, beside the "
+                "policy's max_supplier_share (the smaller counts); blank = 1, no cap of its own",
+                min=0,
+                max=1,
+            ),
         ),
         key=("supplier", "product"),
         references=(Reference("product", "products", "product"),),
@@ -166,6 +168,17 @@ _table(
                 "Days to restore this plant after a disruption (rows of one plant: the longest counts); "
                 "blank = settings' resilience.time_to_recover_days",
                 min=0,
+            ),
+            _c(
+                "max_supplier_share",
+                "float",
+                "share",
+                False,
+                1.0,
+                "Most any one supplier may provide of this plant's supply of a material, beside the policy's "
+                "max_supplier_share (the smaller counts; rows of one plant: the smallest); blank = 1, none",
+                min=0,
+                max=1,
             ),
         ),
         key=("plant", "product"),
@@ -251,6 +264,17 @@ _table(
                 None,
                 "Days to restore this DC after a disruption; blank = settings' resilience.time_to_recover_days",
                 min=0,
+            ),
+            _c(
+                "max_supplier_share",
+                "float",
+                "share",
+                False,
+                1.0,
+                "Most any one supplier may provide of this DC's supply of a product, beside the policy's "
+                "max_supplier_share (the smaller counts); blank = 1, none",
+                min=0,
+                max=1,
             ),
         ),
         key=("dc",),
@@ -351,127 +375,9 @@ _table(
     )
 )
 
-_table(
-    Table(
-        "modes",
-        "Transport modes with their rates, speeds and emission factors.",
-        (
-            _c("mode", "str", "", True, None, "Mode name (e.g. road, rail, ocean, air)"),
-            _c("cost_per_tonne_km", "float", "currency/(t·km)", True, None, "Freight rate per tonne-kilometre", min=0),
-            _c(
-                "fixed_cost_per_unit",
-                "float",
-                "currency/unit",
-                False,
-                0.0,
-                "Per-unit charge independent of distance",
-                min=0,
-            ),
-            _c("speed_km_per_day", "float", "km/day", True, None, "Door-to-door travelling speed", min=1e-9),
-            _c(
-                "handling_days",
-                "float",
-                "days",
-                False,
-                0.0,
-                "Days added per shipment for loading, transfer, customs",
-                min=0,
-            ),
-            _c("circuity", "float", "ratio", False, 1.0, "Route km per great-circle km", min=1),
-            _c(
-                "co2_kg_per_tonne_km",
-                "float",
-                "kg CO2e/(t·km)",
-                False,
-                0.0,
-                "Emission factor per tonne-km of route distance (CO2e = tonnes × km × factor); blank = 0. "
-                + emission_schema_note(),
-                min=0,
-            ),
-            _c("min_km", "float", "km", False, 0.0, "Shortest lane this mode is used on", min=0),
-            _c("max_km", "float", "km", False, INF, "Longest lane this mode is used on", min=0),
-            _c(
-                "generate_lanes",
-                "bool",
-                "",
-                False,
-                True,
-                "true: lanes of this mode are generated from coordinates; false: only explicit lanes",
-            ),
-            _c(
-                "legs",
-                "str",
-                "",
-                False,
-                "",
-                "Legs the mode may serve, separated by |, from: "
-                + ", ".join(LEGS)
-                + "; blank = the settings' lanes.legs",
-            ),
-        ),
-        key=("mode",),
-    )
-)
-
-_table(
-    Table(
-        "lanes",
-        "Explicit lanes (optional): add to or override the lanes generated from coordinates.",
-        (
-            _c("origin", "str", "", True, None, "Origin site (supplier, plant or DC)"),
-            _c("destination", "str", "", True, None, "Destination site (plant, DC or customer)"),
-            _c("mode", "str", "", True, None, "Transport mode"),
-            _c("product", "str", "", False, "", "Product this row applies to; blank = every product"),
-            _c("distance_km", "float", "km", False, None, "Route distance; blank = great-circle × circuity", min=0),
-            _c(
-                "cost_per_unit",
-                "float",
-                "currency/unit",
-                False,
-                None,
-                "Freight cost per unit; blank = from distance, weight and rate",
-                min=0,
-            ),
-            _c(
-                "transit_days",
-                "float",
-                "days",
-                False,
-                None,
-                "Transit time; blank = distance / speed + handling days",
-                min=0,
-            ),
-            _c(
-                "capacity",
-                "float",
-                "units/year",
-                False,
-                INF,
-                "Most units per year on this lane and mode (all products)",
-                min=0,
-            ),
-            _c("available", "bool", "", False, True, "false removes the lane (also a generated one)"),
-        ),
-        key=("origin", "destination", "mode", "product"),
-        required=False,
-        references=(Reference("mode", "modes", "mode"), Reference("product", "products", "product", allow_blank=True)),
-    )
-)
-
-_table(
-    Table(
-        "road_edges",
-        "Road or rail network edges (optional): distances become shortest paths over this graph.",
-        (
-            _c("from_node", "str", "", True, None, "A site code or a junction name"),
-            _c("to_node", "str", "", True, None, "A site code or a junction name"),
-            _c("km", "float", "km", True, None, "Edge length", min=0),
-            _c("mode", "str", "", False, "", "Mode using this edge; blank = every generated mode"),
-        ),
-        key=("from_node", "to_node", "mode"),
-        required=False,
-    )
-)
+_table(MODES)
+_table(LANES)
+_table(ROAD_EDGES)
 
 
 def schema_frame():
@@ -495,3 +401,6 @@ def schema_frame():
                 }
             )
     return pd.DataFrame(rows)
+
+
+__all__ = ["INF", "LAT", "LEGS", "LON", "TABLES", "schema_frame"]

@@ -12,6 +12,7 @@ from netopt.data.results_schema import RESULT_TABLES
 from netopt.engine.inventory_report import inventory_kpis, pipeline_table, safety_stock_table
 from netopt.engine.mode_economics import mode_economics
 from netopt.network.arcs import Network
+from netopt.network.sourcing_caps import share_caps
 
 TABLE_DOCS = {name: t.meaning for name, t in RESULT_TABLES.items()}
 """Each result table's meaning, from the declared output schema (:mod:`netopt.data.results_schema`)."""
@@ -118,7 +119,9 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
         region = net.suppliers.drop_duplicates("supplier").set_index("supplier")["region"]
         g["region"] = g["origin"].map(region)
         g = g.rename(columns={"destination": "site", "destination_kind": "site_kind", "origin": "supplier"})
-        g["max_share"] = float(net.settings["policy"]["max_supplier_share"])
+        g["max_share"] = share_caps(
+            float(net.settings["policy"]["max_supplier_share"]), net.suppliers, net.site_share_caps, g
+        )
         t["supplier_shares"] = g[
             ["site", "site_kind", "product", "supplier", "region", "quantity", "share", "max_share"]
         ]

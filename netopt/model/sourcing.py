@@ -1,7 +1,9 @@
 """Sourcing: supplier splits and diversification.
 
 Rules per receiving site (plant or DC) and material/product bought from suppliers:
-- no one supplier above ``policy.max_supplier_share`` of the site's supplier inflow;
+- no one supplier above its cap of the site's supplier inflow: the smallest of
+  ``policy.max_supplier_share``, the supplier's own ``suppliers.max_share`` and the site's own
+  ``max_supplier_share`` (:mod:`netopt.network.sourcing_caps`);
 - no one supplier region above ``policy.max_region_share``;
 - at least ``policy.min_active_suppliers`` suppliers active, an active supplier
   delivering at least ``policy.min_share_when_active`` of that inflow (binary ``supplier_active``; the block is not
@@ -15,25 +17,34 @@ import numpy as np
 import pandas as pd
 
 from netopt.model.core import Builder, Term, group_index
+from netopt.network.sourcing_caps import share_caps
 
 
-def _share_rows(b: Builder, name: str, si: np.ndarray, by: list[str], share: float) -> None:
-    """Σ flow of each group (site, product, *by) − share × Σ flow of (site, product) ≤ 0."""
+def _share_rows(b: Builder, name: str, si: np.ndarray, by: list[str], share) -> None:
+    """Σ flow of each group (site, product, *by) − share_g × Σ flow of (site, product) ≤ 0, for the
+    groups whose share is below 1.  ``share``: one share for every group, or a function of the
+    groups table (columns site, product, *by) giving one share per group."""
     arcs = b.net.arcs.iloc[si]
     groups, g = group_index(arcs, ["destination", "product"] + by)
+    labels = groups.rename(columns={"destination": "site"}).reset_index(drop=True)
+    caps = np.asarray(share(labels), dtype=float) if callable(share) else np.full(len(groups), float(share))
+    keep = caps < 1.0 - 1e-12
+    if not keep.any():
+        return
+    row_of = np.cumsum(keep) - 1  # group → kept row number
     _sites, s_of_arc = group_index(arcs, ["destination", "product"])
     # Every group row also carries −share × every arc of its site/product.
     g_site = pd.Series(s_of_arc).groupby(g).first().to_numpy(int)
     arc_tab = pd.DataFrame({"site": s_of_arc, "arc": si})
-    grp_tab = pd.DataFrame({"site": g_site, "row": np.arange(len(groups))})
+    grp_tab = pd.DataFrame({"site": g_site[keep], "row": row_of[keep], "cap": caps[keep]})
     cross = grp_tab.merge(arc_tab, on="site")
-    labels = groups.rename(columns={"destination": "site"})
+    own = keep[g]
     b.add_rows(
         name,
-        labels,
+        labels[keep].reset_index(drop=True),
         [
-            Term("flow", si, np.ones(len(si)), g),
-            Term("flow", cross["arc"].to_numpy(int), -share * np.ones(len(cross)), cross["row"].to_numpy(int)),
+            Term("flow", si[own], np.ones(int(own.sum())), row_of[g[own]]),
+            Term("flow", cross["arc"].to_numpy(int), -cross["cap"].to_numpy(float), cross["row"].to_numpy(int)),
         ],
         "<=",
         0.0,
@@ -47,7 +58,7 @@ def add(b: Builder) -> None:
     from supplier s, A_S(j,p,R) those from suppliers of region R.  Share rows exist only when
     the share is below 1; the active-supplier rows only when k ≥ 2.
 
-        max_supplier_share:         Σ_{a ∈ A_S(j,p,s)} x_a − σ Σ_{a ∈ A_S(j,p)} x_a ≤ 0                 ∀ (j, p, s)
+        max_supplier_share:         Σ_{a ∈ A_S(j,p,s)} x_a − σ_{j,p,s} Σ_{a ∈ A_S(j,p)} x_a ≤ 0         ∀ (j, p, s): σ_{j,p,s} < 1
         max_region_share:           Σ_{a ∈ A_S(j,p,R)} x_a − ρ Σ_{a ∈ A_S(j,p)} x_a ≤ 0                 ∀ (j, p, R)
         active_supplier_link:       Σ_{a ∈ A_S(j,p,s)} x_a − M_{j,p,s} z_{j,p,s} ≤ 0                    ∀ (j, p, s)
         active_supplier_min_share:  Σ_{a ∈ A_S(j,p,s)} x_a − μ Σ_{a ∈ A_S(j,p)} x_a − N_p z_{j,p,s} ≥ −N_p  ∀ (j, p, s)
@@ -62,7 +73,10 @@ def add(b: Builder) -> None:
 
     | symbol | meaning | unit | name in code |
     |---|---|---|---|
+    | σ_{j,p,s} | most supplier s may provide of site j's supplier inflow of p: min(σ, σ_{s,p}, σ_j) | share | ``netopt.network.sourcing_caps.share_caps`` |
     | σ | most one supplier may provide of a site's supplier inflow | share | setting ``policy.max_supplier_share`` |
+    | σ_{s,p} | supplier s's own cap | share | ``suppliers.max_share`` |
+    | σ_j | site j's own cap | share | ``plants.max_supplier_share``, ``dcs.max_supplier_share`` |
     | ρ | most one supplier region may provide | share | setting ``policy.max_region_share``; ``suppliers.region`` |
     | k | least number of active suppliers per site and product | suppliers | setting ``policy.min_active_suppliers`` |
     | μ | least share of an active supplier | share | setting ``policy.min_share_when_active`` |
@@ -80,8 +94,13 @@ def add(b: Builder) -> None:
     if not len(si):
         return
     share = float(pol["max_supplier_share"])
-    if share < 1.0:
-        _share_rows(b, "max_supplier_share", si, ["origin"], share)
+    _share_rows(
+        b,
+        "max_supplier_share",
+        si,
+        ["origin"],
+        lambda g: share_caps(share, net.suppliers, net.site_share_caps, g.rename(columns={"origin": "supplier"})),
+    )
     rshare = float(pol["max_region_share"])
     if rshare < 1.0:
         region = net.suppliers.drop_duplicates("supplier").set_index("supplier")["region"]

@@ -15,6 +15,7 @@ import pandas as pd
 
 from netopt.data.case import Case
 from netopt.network.lanes import case_lanes
+from netopt.network.sourcing_caps import site_share_caps
 
 
 @dataclass
@@ -50,6 +51,7 @@ class Network:
     dcs: pd.DataFrame
     products: pd.DataFrame
     suppliers: pd.DataFrame
+    site_share_caps: pd.Series  # σ_j: receiving site → its own supplier share cap (netopt.network.sourcing_caps)
     settings: dict
     pruned: dict = field(default_factory=dict)
     arcs_all: pd.DataFrame | None = None
@@ -278,6 +280,7 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
         dcs=dcs,
         products=products.reset_index(drop=True),
         suppliers=t["suppliers"].reset_index(drop=True),
+        site_share_caps=site_share_caps(t),
         settings=s,
         pruned=pruned,
         arcs_all=arcs_all,

@@ -3,6 +3,8 @@
 - Coordinates that look swapped (lat ↔ lon) or sign-lost: a site far from every other site of the
   case (more than :data:`FAR_KM` and :data:`FAR_FACTOR` × the typical nearest-site distance) that,
   read with lat and lon swapped or with a sign flipped, would lie near the others.
+- A site on the other side of the equator (or of the prime meridian) than every other site of its
+  region, by more than :data:`REGION_MARGIN_DEG` beyond their span: a lost minus sign, or a wrong region.
 - Unit weights and values outside the ranges of :data:`UNIT_RANGES`.
 - Demand concentrated on one customer (more than :data:`CONCENTRATED_SHARE` of the total among
   at least :data:`CONCENTRATION_MIN_CUSTOMERS` customers).
@@ -29,6 +31,8 @@ UNIT_RANGES = {  # (table, column): (low, high, unit) a unit of a manufactured o
     ("products", "unit_weight_kg"): (0.001, 2000.0, "kg"),
     ("products", "unit_value"): (0.01, 1_000_000.0, "currency"),
 }
+REGION_MARGIN_DEG = 10.0  # degrees beyond the span of the region's other sites
+REGION_MIN_SITES = 3  # a region needs this many other sites before its side of the globe is judged
 CONCENTRATED_SHARE = 0.5
 CONCENTRATION_MIN_CUSTOMERS = 5
 
@@ -48,10 +52,15 @@ def _sites(tables: dict[str, pd.DataFrame]) -> pd.DataFrame:
                     "code": first[col].astype(str),
                     "lat": pd.to_numeric(first["lat"], errors="coerce"),
                     "lon": pd.to_numeric(first["lon"], errors="coerce"),
+                    "region": first["region"].astype(str).str.strip() if "region" in first else "",
                 }
             )
         )
-    s = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=["table", "row", "code", "lat", "lon"])
+    s = (
+        pd.concat(parts, ignore_index=True)
+        if parts
+        else pd.DataFrame(columns=["table", "row", "code", "lat", "lon", "region"])
+    )
     return s.dropna(subset=["lat", "lon"]).reset_index(drop=True)
 
 
@@ -94,6 +103,44 @@ def coordinate_warnings(tables: dict[str, pd.DataFrame]) -> list[Problem]:
                 "warning",
             )
         )
+    return out
+
+
+def region_side_warnings(tables: dict[str, pd.DataFrame], skip: set[tuple[str, int]] | None = None) -> list[Problem]:
+    """Sites on the other side of the equator or prime meridian than all other sites of their region.
+
+    ``skip``: (table, row) already warned about (a site flagged as far from every site is not flagged twice).
+    """
+    s = _sites(tables)
+    out = []
+    sides = (("lat", "south", "north", "the equator"), ("lon", "west", "east", "the prime meridian"))
+    for region, g in s[s["region"].ne("")].groupby("region"):
+        if len(g) < REGION_MIN_SITES + 1:
+            continue
+        for i, r in g.iterrows():
+            if (str(r["table"]), int(r["row"])) in (skip or set()):
+                continue
+            others = g.drop(index=i)
+            for col, neg, pos, line in sides:
+                v, o = float(r[col]), others[col].to_numpy(float)
+                lo, hi = float(o.min()), float(o.max())
+                one_side = (lo > 0 and v < 0 and v < lo - REGION_MARGIN_DEG) or (
+                    hi < 0 and v > 0 and v > hi + REGION_MARGIN_DEG
+                )
+                if not one_side:
+                    continue
+                out.append(
+                    Problem(
+                        str(r["table"]),
+                        int(r["row"]),
+                        col,
+                        f"'{r['code']}' (region '{region}') is {neg if v < 0 else pos} of {line} ({col} {v:g}) while "
+                        f"the other {len(others)} sites of the region are all {pos if v < 0 else neg} ({col} "
+                        f"{lo:g} to {hi:g}): a lost minus sign, or the wrong region?",
+                        "warning",
+                    )
+                )
+                break
     return out
 
 
@@ -146,8 +193,10 @@ def concentration_warnings(tables: dict[str, pd.DataFrame]) -> list[Problem]:
 
 
 def plausibility_warnings(tables: dict[str, pd.DataFrame], settings: dict) -> list[Problem]:
-    """Every plausibility warning of a case (coordinates, magnitudes, concentration)."""
-    return coordinate_warnings(tables) + magnitude_warnings(tables) + concentration_warnings(tables)
+    """Every plausibility warning of a case (coordinates, sides of the globe, magnitudes, concentration)."""
+    far = coordinate_warnings(tables)
+    seen = {(p.table, int(p.row)) for p in far if p.row is not None}
+    return far + region_side_warnings(tables, seen) + magnitude_warnings(tables) + concentration_warnings(tables)
 
 
 register_case_check(plausibility_warnings)

@@ -3,7 +3,8 @@
 ``frontier(case, points=N)`` returns N networks from the cost-optimal one to the CO2-minimal one:
 
 1. the cost-optimal solve (the case's own rules; a CO2 cap in the case stays the loosest cap):
-   total cost C* (currency/yr), transport CO2e E_max (t/yr);
+   total cost C* (currency/yr), transport CO2e E_max (t/yr) — or, in a scenario run, the base's
+   or scenario's own solve, so the frontier's first point is that row exactly;
 2. the CO2-minimal solve: minimise transport CO2e alone, with lost demand held at most at
    the cost-optimal solve's (otherwise dropping demand would be the "greenest" network): E_min;
 3. for caps ε between E_min and E_max (evenly spaced; the last is E_min itself), minimise cost
@@ -37,7 +38,7 @@ import pandas as pd
 from netopt.data.case import Case
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
-from netopt.engine.result import Result
+from netopt.engine.result import Result, fixed_options
 from netopt.model import build_model
 from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
 from netopt.network.arcs import build_network
@@ -64,9 +65,20 @@ def _with_cap(case: Case, cap: float) -> Case:
 
 
 def sweep(
-    case: Case, points: int = 5, *, time_limit: float | None = None, mip_gap: float | None = None, progress=None
+    case: Case,
+    points: int = 5,
+    *,
+    time_limit: float | None = None,
+    mip_gap: float | None = None,
+    progress=None,
+    cost_optimal: Result | None = None,
 ) -> FrontierRun:
-    """Solve the epsilon-constraint sweep (see module docstring); ``points`` ≥ 2 networks."""
+    """Solve the epsilon-constraint sweep (see module docstring); ``points`` ≥ 2 networks.
+
+    ``cost_optimal``: an existing cost-optimal solve of ``case`` (a run's base or scenario row).
+    It *is* point 0 (its tables and figures, not a second solve that could land elsewhere within
+    the gap); the CO2-minimal solve holds lost demand at its lost units and starts from its DCs.
+    """
     points = int(points)
     if points < 2:
         raise ValueError("a frontier needs at least 2 points (the cost-optimal and the CO2-minimal network)")
@@ -113,14 +125,28 @@ def sweep(
 
     results: list[tuple[float, SolveInfo, np.ndarray | None]] = []  # (cap, info, x)
 
-    # 1. Cost-optimal under the case's own rules.
-    set_cap(case_cap)
-    say("frontier", {"point": "cost-optimal"})
-    info0 = run(None)
-    if not info0.has_solution:
-        return FrontierRun(pd.DataFrame([{"point": 0, "status": info0.status, "verified": False}]))
-    x0 = np.asarray(h.getSolution().col_value, dtype=float)
-    e_max = co2_of(x0)
+    unmet_cols = hm.col_of.get("unmet", np.zeros(0, np.int64))
+    unmet_rows = np.flatnonzero(unmet_cols >= 0)
+    unmet_cols = unmet_cols[unmet_rows].astype(np.int32)
+    # 1. Cost-optimal under the case's own rules (or the solve handed in).
+    given = cost_optimal is not None and cost_optimal.has_solution
+    info0: SolveInfo | None = None
+    x0: np.ndarray | None = None
+    if cost_optimal is not None and given:
+        e_max = float(cost_optimal.tables["flows"]["co2_kg"].sum() / 1000.0)
+        un = cost_optimal.tables["unmet"]
+        lost = un.set_index(["customer", "product"])["lost_units"] if len(un) else pd.Series(dtype=float)
+        keys = pd.MultiIndex.from_frame(net.demand[["customer", "product"]].astype(str))
+        lost0 = lost.reindex(keys).fillna(0.0).to_numpy(float)[unmet_rows]
+    else:
+        set_cap(case_cap)
+        say("frontier", {"point": "cost-optimal"})
+        info0 = run(None)
+        if not info0.has_solution:
+            return FrontierRun(pd.DataFrame([{"point": 0, "status": info0.status, "verified": False}]))
+        x0 = np.asarray(h.getSolution().col_value, dtype=float)
+        e_max = co2_of(x0)
+        lost0 = x0[unmet_cols]
 
     # 2. CO2-minimal: objective = t CO2e, lost demand held at the cost optimum's.
     say("frontier", {"point": "CO2-minimal"})
@@ -129,14 +155,19 @@ def sweep(
     co2_obj[flow_cols[m]] = co2_t[m]
     all_cols = np.arange(n, dtype=np.int32)
     h.changeColsCost(n, all_cols, co2_obj)
-    unmet_cols = hm.col_of.get("unmet", np.zeros(0, np.int64))
-    unmet_cols = unmet_cols[unmet_cols >= 0].astype(np.int32)
     lo = np.asarray(lp.col_lower_, dtype=float)
     hi = np.asarray(lp.col_upper_, dtype=float)
     if len(unmet_cols):
-        h.changeColsBounds(len(unmet_cols), unmet_cols, lo[unmet_cols], np.minimum(hi[unmet_cols], x0[unmet_cols]))
+        h.changeColsBounds(len(unmet_cols), unmet_cols, lo[unmet_cols], np.minimum(hi[unmet_cols], lost0))
+    set_cap(case_cap)
+    if cost_optimal is not None and given:
+        start_open = fixed_options(net, cost_optimal.held_openings())
+        if start_open is not None:
+            hm.set_start("open", start_open)
     info_min = run(x0)
     x_min = np.asarray(h.getSolution().col_value, dtype=float) if info_min.has_solution else x0
+    if x_min is None:
+        return FrontierRun(pd.DataFrame([{"point": 0, "status": info_min.status, "verified": False}]))
     h.changeColsCost(n, all_cols, cost_vec)
     if len(unmet_cols):
         h.changeColsBounds(len(unmet_cols), unmet_cols, lo[unmet_cols], hi[unmet_cols])
@@ -153,24 +184,29 @@ def sweep(
         results.append((caps[k], info, x))
         if x is not None:
             start = x
-    results.append((case_cap if case_cap >= 0 else np.nan, info0, x0))
+    results.append((case_cap if case_cap >= 0 else np.nan, info0, x0))  # type: ignore[arg-type]
     results.reverse()
 
     rows: list[dict] = []
     point_tables: list[dict[str, pd.DataFrame]] = []
-    cost_optimal: Result | None = None
+    point0: Result | None = cost_optimal if given else None
     base_cost: float | None = None
     base_co2 = 0.0
     for k, (cap, info, x) in enumerate(results):
-        row_ = {"point": k, "co2_cap_t": cap, "status": info.status, "gap": info.gap}
-        if x is None:
-            rows.append(row_ | {"verified": False})
-            point_tables.append({})
-            continue
-        values = {name: np.where(cols >= 0, x[np.maximum(cols, 0)], 0.0) for name, cols in hm.col_of.items()}
-        check_case = _with_cap(case, cap * (1 + CAP_TOL_REL) + CAP_TOL_ABS) if cap == cap else case
-        out = extract(check_case, lanes, net, b, values, float(info.objective))
-        cost, tables, ver = out.cost, out.tables, out.verification
+        if k == 0 and cost_optimal is not None and given:
+            row_ = {"point": 0, "co2_cap_t": cap, "status": cost_optimal.status, "gap": cost_optimal.gap}
+            cost, tables = cost_optimal.cost, cost_optimal.tables
+            ver = cost_optimal.verification
+        else:
+            row_ = {"point": k, "co2_cap_t": cap, "status": info.status, "gap": info.gap}
+            if x is None:
+                rows.append(row_ | {"verified": False})
+                point_tables.append({})
+                continue
+            values = {name: np.where(cols >= 0, x[np.maximum(cols, 0)], 0.0) for name, cols in hm.col_of.items()}
+            check_case = _with_cap(case, cap * (1 + CAP_TOL_REL) + CAP_TOL_ABS) if cap == cap else case
+            out = extract(check_case, lanes, net, b, values, float(info.objective))
+            cost, tables, ver = out.cost, out.tables, out.verification
         total = float(sum(cost.values()))
         co2 = float(tables["flows"]["co2_kg"].sum() / 1000.0)
         if base_cost is None:
@@ -194,11 +230,11 @@ def sweep(
         row_["mode_mix"] = " / ".join(
             f"{mo} {s:.0%}" for mo, s in zip(mm["mode"], mm["share_of_tonne_km"]) if s >= 0.005
         )
-        row_["verified"] = bool(ver.passed)
+        row_["verified"] = bool(ver.passed) if ver is not None else False
         rows.append(row_)
         point_tables.append(tables)
-        if k == 0:
-            cost_optimal = Result.of(
+        if k == 0 and not given:
+            point0 = Result.of(
                 case.name,
                 info,
                 tables=tables,
@@ -229,7 +265,7 @@ def sweep(
         ]
         rest = [c for c in table.columns if c not in first and c not in share_cols]
         table = table[first + share_cols + rest]
-    return FrontierRun(table, point_tables, cost_optimal)
+    return FrontierRun(table, point_tables, point0)
 
 
 def frontier(case: Case, points: int = 5, **kw) -> pd.DataFrame:
@@ -237,7 +273,8 @@ def frontier(case: Case, points: int = 5, **kw) -> pd.DataFrame:
     return sweep(case, points, **kw).table
 
 
-def scenario_frontier(case: Case, scenario) -> pd.DataFrame | None:
-    """The frontier a scenario asks for with ``frontier_points = N`` (None when it asks for none)."""
+def scenario_frontier(case: Case, scenario, cost_optimal: Result | None = None) -> pd.DataFrame | None:
+    """The frontier a scenario asks for with ``frontier_points = N`` (None when it asks for none);
+    ``cost_optimal``: the scenario's own redesign solve, which is then point 0 (see :func:`sweep`)."""
     n = int(getattr(scenario, "frontier_points", 0) or 0)
-    return frontier(case, points=n) if n >= 2 else None
+    return frontier(case, points=n, cost_optimal=cost_optimal) if n >= 2 else None
