@@ -10,7 +10,7 @@ from pathlib import Path
 import pandas as pd
 
 from netopt.api import load_case
-from netopt.network.plausibility import coordinate_warnings, plausibility_warnings
+from netopt.network.plausibility import coordinate_warnings, plausibility_warnings, region_side_warnings
 
 DEMO = Path(__file__).resolve().parents[1] / "cases" / "brackenholt"
 
@@ -29,7 +29,9 @@ def _broken_demo(tmp_path: Path) -> Path:
 
 
 def test_demo_has_no_plausibility_warning():
-    assert not [w for w in load_case(DEMO).warnings if "look" in w.message or "plausible" in w.message]
+    case = load_case(DEMO)
+    assert not plausibility_warnings(case.tables, case.settings)
+    assert not case.warnings
 
 
 def test_swapped_and_sign_lost_coordinates_and_a_28_t_unit_are_flagged_in_one_pass(tmp_path):
@@ -83,3 +85,20 @@ def test_a_site_across_the_equator_from_the_rest_of_its_region_is_flagged():
 def test_regions_on_both_sides_of_a_line_raise_nothing():
     """As given, no site is across a line from all of its region (the UK straddles the prime meridian)."""
     assert not plausibility_warnings(_site_tables(), {})
+
+
+def test_a_european_site_west_of_the_meridian_is_not_flagged():
+    """Porto (41.15 N, 8.61 W, from memory) with three suppliers in central Europe, all east of the
+    meridian: across the line from all of them, but only about 2,300 km from Brno, so no warning."""
+    tables = {
+        "suppliers": pd.DataFrame(
+            [
+                {"supplier": "S_PORTO", "lat": 41.15, "lon": -8.61, "region": "Europe"},
+                {"supplier": "S_BRNO", "lat": 49.20, "lon": 16.61, "region": "Europe"},
+                {"supplier": "S_KATOWICE", "lat": 50.26, "lon": 19.02, "region": "Europe"},
+                {"supplier": "S_BUCHAREST", "lat": 44.43, "lon": 26.10, "region": "Europe"},
+            ],
+            index=range(2, 6),
+        )
+    }
+    assert not region_side_warnings(tables)

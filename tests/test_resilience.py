@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 from randcase import lane_loss_case, random_case
 
-from netopt.api import solve
+from netopt.api import load_case, solve
 from netopt.data.case import CaseError
 from netopt.data.frames import make_case
 from netopt.present.stress import stress, stress_command, summary_lines
@@ -26,6 +26,9 @@ from netopt.studies.scenarios import Scenario, priced_label, run_scenarios
 from netopt.studies.sweep_exec import JOURNAL, read_journal
 
 ROOT = Path(__file__).resolve().parents[1]
+
+
+DEMO = Path(__file__).resolve().parents[1] / "cases" / "brackenholt"
 
 
 @pytest.fixture(scope="module")
@@ -80,6 +83,26 @@ def test_sweep_equals_one_at_a_time_scenario_runs(solved, inline_table):
         assert row["lost_units"] == pytest.approx(ref["lost_units"], abs=1e-4), e["id"]
         assert row["lost_value"] == pytest.approx(ref["lost_value"], abs=1e-2), e["id"]
         assert row["delta_objective"] == pytest.approx(ref["delta_cost"], rel=1e-6, abs=1e-3), e["id"]
+
+
+def test_demo_site_outages_cost_the_same_in_stress_and_in_a_held_scenario():
+    """The demo (safety stock on, priced late delivery): each plant and open DC taken out through
+    `netopt stress` and through a hold-the-network scenario gives the same total cost, recovery cost
+    (Δ cost less Δ lost-demand penalty) and lost units; a DC out stays paid for in both."""
+    case = load_case(DEMO)
+    assert case.settings["inventory"]["safety_stock"]
+    base = solve(case)
+    table, _ = run_sweep(case, base, workers=0, progress=False, elements=["dc", "plant"], rules="hard")
+    el = sweep_elements(case, base, ["dc", "plant"])
+    scenarios = [Scenario(e["id"].replace(":", "_"), element_changes(e), resolve="hold") for e in el.to_dict("records")]
+    comp = run_scenarios(case, base=base, scenarios=scenarios).comparison.set_index("scenario")
+    t = table.set_index("id")
+    for e, s in zip(el.to_dict("records"), scenarios):
+        ref, row = answered(comp, s.name), t.loc[e["id"]]
+        assert row["total_cost"] == pytest.approx(ref["total_cost"], rel=1e-7), e["id"]
+        recovery = ref["delta_cost"] - ref["delta_unmet_penalty"]
+        assert row["recovery_cost"] == pytest.approx(recovery, rel=1e-7, abs=1e-3), e["id"]
+        assert row["lost_units"] == pytest.approx(ref["lost_units"], abs=1e-4), e["id"]
 
 
 def test_redesign_equals_scenario_redesign(solved):
@@ -205,7 +228,7 @@ _CHILD = textwrap.dedent("""
     import sys, time
     sys.path.insert(0, {tests!r})
     from randcase import random_case
-    from netopt.api import solve
+    from netopt.api import load_case, solve
     from netopt.studies.resilience import run_sweep
 
     def main():

@@ -18,8 +18,15 @@ from netopt.engine.solve import solve
 from netopt.present.files import _jsonable, atomic_folder, write_result_files, write_run, write_workbook
 from netopt.present.report import write_report
 from netopt.present.stress import stress_command
-from netopt.present.terminal import money_text, print_comparison, print_dc_matrix, print_frontier, print_result
-from netopt.studies.comparison import dc_decision_matrix
+from netopt.present.terminal import (
+    money_text,
+    print_comparison,
+    print_dc_matrix,
+    print_frontier,
+    print_mix_changes,
+    print_result,
+)
+from netopt.studies.comparison import dc_decision_matrix, largest_share_changes, mode_mix_matrix
 from netopt.studies.frontier import sweep
 from netopt.studies.scenarios import parse_scenarios, run_scenarios
 
@@ -207,7 +214,11 @@ def cmd_run(args: argparse.Namespace) -> int:
     elif not args.quiet:
         print_comparison(run.comparison)
         print_dc_matrix(dc_decision_matrix(run.dc_decisions))
-        say(args, f"results written to {args.out} (comparison.csv, comparison.md, results.xlsx, report.html)")
+        print_mix_changes(mode_mix_matrix(run.mode_mix_changes), largest_share_changes(run.supplier_share_changes, 10))
+        say(
+            args,
+            f"results written to {args.out} (comparison.csv, comparison.md, comparison.xlsx, results.xlsx, report.html)",
+        )
     if not run.base.has_solution:
         return EXIT_INFEASIBLE if run.base.status in ("infeasible", "unbounded") else EXIT_SOLVER
     comp = run.comparison

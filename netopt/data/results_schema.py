@@ -91,7 +91,13 @@ _table(
     "netopt solve / run",
     DC,
     _c("status", "str", "text", "status", "existing or candidate"),
-    _c("decision", "str", "text", "decision", "keep, close, open or stay closed"),
+    _c(
+        "decision",
+        "str",
+        "text",
+        "decision",
+        "keep, close, open, stay closed, or out (unavailable: nothing through it; open = still paid for)",
+    ),
     _c("open", "bool", "flag", "open", "Open in the plan"),
     _c("size", "str", "text", "size", "Chosen size option (blank: the DC's own row)"),
     REGION,
@@ -307,7 +313,8 @@ _table(
         "str",
         "text",
         "decision",
-        "kept, closed, opened, not opened, out (taken out by the scenario), or no plan (the solve is infeasible)",
+        "kept, closed, opened, not opened, out (taken out by the scenario: still paid for, nothing through "
+        "it), out, closed (taken out, and closed for good by a redesign), or no plan (the solve is infeasible)",
     ),
     _c("throughput", "float", "units/yr", "throughput units/yr", "Units into the DC (blank without a plan)"),
 )
@@ -342,6 +349,13 @@ _table(
     "netopt run (report and terminal)",
     DC,
     _c("<scenario>", "str", "text", "<scenario>", "Decision in that solve · throughput (units/yr)"),
+)
+_table(
+    "mode_mix_matrix",
+    "The mode mix side by side: one row per solve (the base first), one column per mode",
+    "netopt run (comparison.xlsx, terminal and report)",
+    _c("scenario", "str", "text", "scenario", "The solve"),
+    _c("<mode>", "float", "share", "<mode>", "The mode's share of all tonne-km in that solve"),
 )
 _table(
     "comparison",

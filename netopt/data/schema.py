@@ -253,8 +253,9 @@ _table(
                 "",
                 False,
                 "",
-                "open or closed to fix the decision; blank lets the model choose",
-                choices=("", "open", "closed"),
+                "open or closed to fix the decision; out: unavailable (nothing moves through it) while "
+                "keeping it paid or closing it stays a decision; blank lets the model choose",
+                choices=("", "open", "closed", "out"),
             ),
             _c(
                 "time_to_recover_days",

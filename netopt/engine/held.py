@@ -73,10 +73,21 @@ def _model_case(case: Case) -> Case:
     return c
 
 
+def safety_stock_lines_of(case: Case, base: Result, lanes: pd.DataFrame | None = None) -> pd.DataFrame:
+    """The held safety-stock lines of ``base`` (one per DC and product, at its base throughput), or an
+    empty table when the case holds no safety stock: how every held network prices safety stock."""
+    if not bool(case.settings["inventory"]["safety_stock"]):
+        return pd.DataFrame()
+    if not base.has_solution:
+        raise ValueError("held safety-stock lines need the base result (its throughput per DC)")
+    net = build_network(_model_case(case), base.lanes if lanes is None else lanes, prune=False)
+    return held_lines(net, base.tables["flows"])
+
+
 def held_decisions(held: dict[str, str | bool], sc_case: Case) -> dict[str, str | bool]:
     """Held DC decisions (dc → size/True/False) as a hold of scenario case ``sc_case``: DCs the scenario
-    forces closed (or takes out) are closed, DCs the held decisions do not know (added by the scenario)
-    stay closed."""
+    forces closed are closed, DCs the held decisions do not know (added by the scenario) stay closed;
+    a DC the scenario takes out keeps its decision (still paid for; nothing moves through it)."""
     hold = dict(held)
     forced = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
     for d in sc_case.tables["dcs"]["dc"]:
@@ -118,7 +129,7 @@ class HeldNetwork:
         if bool(case.settings["inventory"]["safety_stock"]) and safety_stock_lines is None:
             if base is None or not base.has_solution:
                 raise ValueError("HeldNetwork with safety stock needs the base result (its throughput per DC)")
-            self.ss_lines = held_lines(self.net, base.tables["flows"])
+            self.ss_lines = held_lines(self.net, base.tables["flows"])  # = safety_stock_lines_of(case, base)
         self.held = dict(held)
         self.fixed = fixed_options(self.net, self.held)
         sset = case.settings["solver"]

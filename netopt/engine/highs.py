@@ -160,6 +160,22 @@ class HighsModel:
             int(m.sum()), cols[m].astype(np.int32), np.asarray(lo, float), np.asarray(hi, float)
         )
 
+    def set_plan_start(self, values: dict[str, np.ndarray]) -> None:
+        """Hand HiGHS a whole plan as its first incumbent: the value of every variable, by block
+        (as :meth:`values` returns them from a model with the same blocks and index sets)."""
+        n = len(self.integrality)
+        x = np.zeros(n)
+        for name, cols in self.col_of.items():
+            v = values.get(name)
+            if v is None or len(v) != len(cols):
+                raise ValueError(f"start plan: block '{name}' missing or of another size")
+            m = cols >= 0
+            x[cols[m]] = np.asarray(v, dtype=float)[m]
+        sol = highspy.HighsSolution()
+        sol.col_value = x.tolist()
+        sol.value_valid = True
+        self.highs.setSolution(sol)
+
     def set_start(self, block: str, values: np.ndarray) -> None:
         """Hand HiGHS a partial start: the values of ``block`` only (HiGHS completes the rest by
         solving the model with those values fixed, and keeps the result as its first incumbent)."""

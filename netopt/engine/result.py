@@ -33,6 +33,7 @@ class Result:
     lost_demand_allowed: bool = False  # netopt allowed lost demand although the settings do not
     network: Network | None = None
     highs_model: HighsModel | None = None
+    plan_values: dict[str, np.ndarray] | None = None  # every variable block's values (a start for another solve)
     lanes: pd.DataFrame | None = None
 
     @classmethod

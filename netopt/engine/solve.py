@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import time
 
+import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
@@ -37,6 +38,7 @@ def solve(
     keep_model: bool = False,
     diagnose: bool = True,
     start: dict[str, str | bool] | None = None,
+    start_plan: dict[str, np.ndarray] | None = None,
 ) -> Result:
     """Solve the network design for ``case``.
 
@@ -50,6 +52,9 @@ def solve(
         start: DC decisions (as ``hold``) of a known plan, handed to HiGHS as a start: HiGHS
             completes it (the flows for those openings) and never returns a plan dearer than it
             (up to the gap), so a redesign started from its hold is never above the hold.
+        start_plan: a whole plan of the same case (every variable block, e.g. ``Result.plan_values``
+            of a solve with the openings held): HiGHS takes it as its first incumbent and never
+            returns a dearer plan, whatever the gap.
     """
     say = progress or (lambda stage, info=None: None)
     sset = case.settings["solver"]
@@ -106,7 +111,9 @@ def solve(
             timings["safety_stock_aids"] = aids["seconds"]
             size["pooling_cuts"] = int(aids["cuts"])
         start_open = fixed_options(net, start)
-        if start_open is not None:
+        if start_plan is not None:
+            hm.set_plan_start(start_plan)
+        elif start_open is not None:
             hm.set_start("open", start_open)
         info = hm.solve(time_limit=time_limit, mip_gap=mip_gap, threads=threads, progress=cb)
     timings["highs"] = info.solver_seconds
@@ -136,6 +143,8 @@ def solve(
     elif info.status in ("infeasible", "unbounded") and diagnose:
         say("diagnose", {})
         res.diagnosis = diagnose_infeasibility(net, formulation=formulation, fixed=fixed)
+    if info.has_solution:
+        res.plan_values = hm.values()
     if keep_model:
         res.highs_model = hm
     return res

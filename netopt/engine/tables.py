@@ -80,9 +80,10 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
     inflow = flows[flows["destination_kind"] == "dc"].groupby("destination")["quantity"].sum()
     d = net.dcs[["dc", "status", "lat", "lon", "region", "fixed_cost", "capacity"]].copy()
     d["open"] = d["dc"].isin(chosen.index)
+    out = d["dc"].map(net.options.drop_duplicates("dc").set_index("dc")["force"]).astype(str).eq("out")
     d["decision"] = np.select(
-        [d["status"].eq("existing") & d["open"], d["status"].eq("existing"), d["open"]],
-        ["keep", "close", "open"],
+        [out, d["status"].eq("existing") & d["open"], d["status"].eq("existing"), d["open"]],
+        ["out", "keep", "close", "open"],
         "stay closed",
     )
     d["size"] = d["dc"].map(chosen["size"]).astype(object).fillna("")

@@ -217,6 +217,12 @@ def verify(
         where=dcs["dc"].to_numpy(),
     )
     forced = t["dcs"].set_index("dc")["force"].reindex(dcs["dc"]).fillna("").to_numpy()
+    ck.le(
+        "no flow through a DC taken out (units)",
+        np.where(forced == "out", tin + tout, 0.0),
+        np.zeros(len(dcs)),
+        where=dcs["dc"].to_numpy(),
+    )
     bad = ((forced == "open") & ~dcs["open"].to_numpy()) | ((forced == "closed") & dcs["open"].to_numpy())
     if fixed_open is not None:
         want = np.array([bool(fixed_open.get(d, o)) for d, o in zip(dcs["dc"], dcs["open"])])

@@ -179,6 +179,9 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
     modes = t["modes"].set_index("mode")
 
     arcs = expand_arcs(case, lanes)
+    out = set(t["dcs"].loc[t["dcs"]["force"].astype(str).eq("out"), "dc"].astype(str))
+    if out:  # a DC out (site_out): nothing moves through it; its opening stays a decision (keep paying, or close)
+        arcs = arcs[~(arcs["origin"].isin(out) | arcs["destination"].isin(out))].reset_index(drop=True)
     w = arcs["product"].map(pinfo["unit_weight_kg"]).to_numpy(float)
     v = arcs["product"].map(pinfo["unit_value"]).to_numpy(float)
     h = arcs["product"].map(pinfo["holding_rate"]).to_numpy(float)

@@ -4,7 +4,8 @@
   case (more than :data:`FAR_KM` and :data:`FAR_FACTOR` × the typical nearest-site distance) that,
   read with lat and lon swapped or with a sign flipped, would lie near the others.
 - A site on the other side of the equator (or of the prime meridian) than every other site of its
-  region, by more than :data:`REGION_MARGIN_DEG` beyond their span: a lost minus sign, or a wrong region.
+  region, by more than :data:`REGION_MARGIN_DEG` beyond their span and more than
+  :data:`REGION_FAR_KM` from the nearest of them: a lost minus sign, or a wrong region.
 - Unit weights and values outside the ranges of :data:`UNIT_RANGES`.
 - Demand concentrated on one customer (more than :data:`CONCENTRATED_SHARE` of the total among
   at least :data:`CONCENTRATION_MIN_CUSTOMERS` customers).
@@ -32,6 +33,7 @@ UNIT_RANGES = {  # (table, column): (low, high, unit) a unit of a manufactured o
     ("products", "unit_value"): (0.01, 1_000_000.0, "currency"),
 }
 REGION_MARGIN_DEG = 10.0  # degrees beyond the span of the region's other sites
+REGION_FAR_KM = 3000.0  # km from the nearest other site of the region (Porto is 2,300 km from Brno)
 REGION_MIN_SITES = 3  # a region needs this many other sites before its side of the globe is judged
 CONCENTRATED_SHARE = 0.5
 CONCENTRATION_MIN_CUSTOMERS = 5
@@ -129,6 +131,9 @@ def region_side_warnings(tables: dict[str, pd.DataFrame], skip: set[tuple[str, i
                 )
                 if not one_side:
                     continue
+                d0 = float(pairwise_km([r["lat"]], [r["lon"]], others["lat"], others["lon"]).min())
+                if d0 <= REGION_FAR_KM:
+                    continue
                 out.append(
                     Problem(
                         str(r["table"]),
@@ -136,7 +141,7 @@ def region_side_warnings(tables: dict[str, pd.DataFrame], skip: set[tuple[str, i
                         col,
                         f"'{r['code']}' (region '{region}') is {neg if v < 0 else pos} of {line} ({col} {v:g}) while "
                         f"the other {len(others)} sites of the region are all {pos if v < 0 else neg} ({col} "
-                        f"{lo:g} to {hi:g}): a lost minus sign, or the wrong region?",
+                        f"{lo:g} to {hi:g}), the nearest {d0:,.0f} km away: a lost minus sign, or the wrong region?",
                         "warning",
                     )
                 )

@@ -24,7 +24,7 @@ from netopt.present.formats import cell_text, column_kind
 from netopt.present.labels import DISCLAIMER, comparison_notes
 from netopt.present.report import write_report
 from netopt.present.workbook import safe_text, write_workbook
-from netopt.studies.comparison import dc_decision_matrix
+from netopt.studies.comparison import dc_decision_matrix, largest_share_changes, mode_mix_matrix
 
 
 @contextlib.contextmanager
@@ -128,7 +128,8 @@ def _label_folder(label: str) -> str:
 def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None = None, report: bool = True) -> Path:
     """Write a base-plus-scenarios run atomically.
 
-    Layout: ``comparison.csv``, ``comparison.md``, ``dc_decisions.csv`` (DC × solve), ``supplier_share_changes.csv`` and
+    Layout: ``comparison.csv``, ``comparison.md``, ``comparison.xlsx`` (the comparison and the decisions side by
+    side: DC and mode-mix matrices, supplier share changes), ``dc_decisions.csv`` (DC × solve), ``supplier_share_changes.csv`` and
     ``mode_mix_changes.csv`` (each solve against the base), ``results.xlsx`` (comparison and the
     base's tables), ``summary.json``, ``base/`` and ``scenarios/<name>/`` with each
     solve's full results, and ``report.html`` when the report module is available.
@@ -159,17 +160,22 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         }
         for name, df in frontiers.items():
             df.to_csv(tmp / f"{name}.csv", index=False)
-        sheets = {
+        side_by_side = {
             "comparison": run.comparison,
             "dc_decisions": run.dc_decisions,
+            "dc_decision_matrix": dc_decision_matrix(run.dc_decisions),
             "supplier_share_changes": run.supplier_share_changes,
             "mode_mix_changes": run.mode_mix_changes,
+            "mode_mix_matrix": mode_mix_matrix(run.mode_mix_changes),
         }
+        currency = _currency_of(run.base)
+        write_workbook(side_by_side, tmp / "comparison.xlsx", notes=DISCLAIMER, currency=currency)
+        sheets = {k: v for k, v in side_by_side.items() if not k.endswith("_matrix")}
         sheets.update(frontiers)
         sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
         sheets.update(extra_sheets or {})
         kinds = dict.fromkeys(frontiers, "frontier") | {f"base_{k}": k for k in run.base.tables}
-        write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER, currency=_currency_of(run.base), tables=kinds)
+        write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER, currency=currency, tables=kinds)
         summary = {
             "case": run.base.case_name,
             "disclaimer": DISCLAIMER,
@@ -180,7 +186,11 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         if report:
             extra = {("frontier" if len(frontiers) == 1 else k): v for k, v in frontiers.items()}
             if len(run.dc_decisions):
-                extra["dc_decision_matrix"] = dc_decision_matrix(run.dc_decisions)
+                extra["dc_decision_matrix"] = side_by_side["dc_decision_matrix"]
+            if len(run.mode_mix_changes):
+                extra["mode_mix_matrix"] = side_by_side["mode_mix_matrix"]
+            if len(run.supplier_share_changes):
+                extra["supplier_share_changes"] = largest_share_changes(run.supplier_share_changes, most=30)
             write_report(run, tmp / "report.html", extra=extra or None)
     return out
 

@@ -181,3 +181,33 @@ def print_dc_matrix(matrix, console=None) -> None:
     for solve, row in by_solve.iterrows():
         t.add_row(escape(str(solve)), *(escape(str(v)) for v in row))
     con.print(t)
+
+
+def print_mix_changes(mode_matrix, share_changes, console=None) -> None:
+    """The mode mix per solve (share of tonne-km) and the largest supplier share changes against the base."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    con = console or new_console()
+    if not mode_matrix.empty:
+        t = Table(title="Mode mix by scenario (share of tonne-km)")
+        t.add_column("scenario", overflow="fold")
+        for m in mode_matrix.columns[1:]:
+            t.add_column(escape(str(m)), justify="right")
+        for row in mode_matrix.itertuples(index=False):
+            t.add_row(escape(str(row[0])), *(cell_text(v, "share") for v in row[1:]))
+        con.print(t)
+    if not share_changes.empty:
+        cols = ["scenario", "site", "product", "supplier", "base_share", "share", "change"]
+        t = Table(title="Largest supplier share changes against the base (share of the site's supply)")
+        for c in cols:
+            t.add_column(
+                label_of("supplier_share_changes", c),
+                justify="right" if c.endswith("share") or c == "change" else "left",
+            )
+        for row in share_changes[cols].itertuples(index=False):
+            t.add_row(
+                *(escape(str(v)) for v in row[:4]),
+                *(cell_text(v, column_kind("supplier_share_changes", c)) for v, c in zip(row[4:], cols[4:])),
+            )
+        con.print(t)

@@ -104,7 +104,7 @@ def _edit_site_out(ed: CaseEdit, ch: Change) -> None:
     elif kind == "plant":
         t["plants"].loc[t["plants"]["plant"] == site, "capacity"] = 0.0
     elif kind == "dc":
-        t["dcs"].loc[t["dcs"]["dc"] == site, "force"] = "closed"
+        t["dcs"].loc[t["dcs"]["dc"] == site, "force"] = "out"
     elif kind == "customer":
         ed.errors.append(f"'{site}' is a customer: use scale_demand with factor 0 to drop its demand")
     else:
@@ -112,14 +112,12 @@ def _edit_site_out(ed: CaseEdit, ch: Change) -> None:
 
 
 def _held_site_out(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan:
-    """Flows leaving the site, its production and its DC opening fixed at 0."""
+    """Flows leaving the site and its production fixed at 0.  A DC out keeps its held opening: a
+    site down for the year is still paid for (fixed cost) and not closed (no closing cost)."""
     site = str(ch.get("site", "")).strip()
     plan = BoundPlan()
     plan.set_cols(held.cols("flow", held.arcs_from(site)), 0.0, 0.0)
     plan.set_cols(held.cols("make", held.make_rows(site)), 0.0, 0.0)
-    opts = held.option_rows(site)
-    if len(opts):
-        plan.set_cols(held.cols("open", opts), 0.0, 0.0)
     return plan
 
 
@@ -338,7 +336,13 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             _held_cap_lane,
             edits_lanes=True,
         ),
-        ChangeKind("site_out", "Take a supplier, plant or DC out for the year: site", _edit_site_out, _held_site_out),
+        ChangeKind(
+            "site_out",
+            "Take a supplier, plant or DC out for the year: site (a DC out is still paid for when the network "
+            "is held; a redesign may close it)",
+            _edit_site_out,
+            _held_site_out,
+        ),
         ChangeKind(
             "policy",
             "Change policy settings: any [policy] name = value (e.g. max_supplier_share = 0.6)",

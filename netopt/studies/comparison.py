@@ -117,8 +117,9 @@ DC_DECISION_WORDS = {
     ("candidate", True): "opened",
     ("candidate", False): "not opened",
 }
-"""A DC's decision in a solve, from its status and whether it is open; ``out`` where the scenario
-takes it out (or forces it closed) and the base case does not."""
+"""A DC's decision in a solve, from its status and whether it is open; where the scenario takes it
+out (or forces it closed) and the base case does not: ``out`` (still paid for, nothing through it)
+or ``out, closed`` (an existing DC a redesign closes for good)."""
 NO_PLAN = "no plan"
 """Every DC's decision in a solve that found no plan (infeasible as asked)."""
 
@@ -134,15 +135,18 @@ def dc_decisions(label: str, how: str, r, sc_case, base_case) -> pd.DataFrame:
     forced_base = base_case.tables["dcs"].set_index("dc")["force"].astype(str)
     words = [DC_DECISION_WORDS[(str(s), bool(o))] for s, o in zip(d["status"], d["open"])]
     out = [
-        forced_now.get(dc, "") == "closed" and forced_base.get(dc, "") != "closed" and not bool(o)
-        for dc, o in zip(d["dc"], d["open"])
+        forced_now.get(dc, "") in ("closed", "out") and forced_base.get(dc, "") not in ("closed", "out")
+        for dc in d["dc"]
     ]
+    # Taken out: still paid for ("out") or, by a redesign, closed for good ("out, closed").
+    out_word = np.where(d["open"].astype(bool) & np.asarray(out), "out", "out, closed")
+    out_word = np.where(d["status"].eq("existing") | d["open"].astype(bool), out_word, "out")
     return pd.DataFrame(
         {
             "scenario": label,
             "resolve": how,
             "dc": d["dc"].to_numpy(),
-            "decision": np.where(out, "out", words),
+            "decision": np.where(out, out_word, words),
             "throughput": d["throughput"].to_numpy(float),
         }
     )[cols]
@@ -183,3 +187,24 @@ def share_changes(label: str, how: str, r, base) -> tuple[pd.DataFrame, pd.DataF
     sup = side_by_side(r.tables["supplier_shares"], base.tables["supplier_shares"], keys, "share")
     mode = side_by_side(r.tables["mode_mix"], base.tables["mode_mix"], ["mode"], "share_of_tonne_km")
     return sup[sup_cols].reset_index(drop=True), mode[mode_cols].reset_index(drop=True)
+
+
+def mode_mix_matrix(changes: pd.DataFrame) -> pd.DataFrame:
+    """The mode mix side by side: one row per solve (the base first), one column per mode, each cell
+    the mode's share of tonne-km in that solve (from :func:`share_changes`' mode rows)."""
+    if changes.empty:
+        return pd.DataFrame(columns=["scenario"])
+    base = changes.drop_duplicates("mode").set_index("mode")["base_share"].rename("base")
+    order = list(dict.fromkeys(changes["scenario"]))
+    m = changes.pivot_table(index="scenario", columns="mode", values="share", aggfunc="first").reindex(order)
+    m = pd.concat([base.to_frame().T, m]).fillna(0.0)
+    m = m[sorted(m.columns, key=lambda c: -float(m.loc["base", c]))]
+    return m.rename_axis(index="scenario", columns=None).reset_index()
+
+
+def largest_share_changes(changes: pd.DataFrame, most: int = 15, least: float = 0.005) -> pd.DataFrame:
+    """The supplier share changes that matter: |change| ≥ ``least`` (a share), largest first, at most ``most``."""
+    if changes.empty:
+        return changes
+    big = changes[changes["change"].abs() >= least]
+    return big.reindex(big["change"].abs().sort_values(ascending=False, kind="stable").index).head(most)

@@ -22,9 +22,10 @@ optionally, redesigned).  Per element (money in currency/yr of outage, units/yr)
 - *took over*: the elements of the same kind (suppliers, plants, DCs or plants serving
   customers directly, lanes of the same leg) whose volume rose most.
 
-Holding the network keeps the base's safety-stock positions: the worker model is the
-held network without the safety-stock cost curve (its cost stays at the base's value),
-so each re-solve is a linear program with one element's bounds changed.  Each worker
+Holding the network prices safety stock as every held network does, on one line per DC and
+product at its base throughput (``netopt.engine.held``), and a DC taken out stays paid for
+(``site_out``'s meaning), so a row here equals the hold-the-network scenario of the same
+change; each re-solve is a linear program with one element's bounds changed.  Each worker
 process (or Dask worker thread) builds that model once and re-solves every element warm
 from the base basis.
 
@@ -96,7 +97,7 @@ class StressError(Exception):
 
 def sweep_elements(case: Case, base, only: list[str] | None = None) -> pd.DataFrame:
     """The elements to take out, one row each: id, type, element, origin, destination, mode,
-    base_units (units/yr through it in the base), own_fixed_cost, own_closing_cost (currency).
+    base_units (units/yr through it in the base).
 
     Every supplier and plant of the case, each DC open in the base, each lane and mode with
     flow in the base.  ``only``: element types (supplier, plant, dc, lane; plurals accepted),
@@ -122,9 +123,7 @@ def sweep_elements(case: Case, base, only: list[str] | None = None) -> pd.DataFr
             {"id": f"plant:{p}", "type": "plant", "element": p, "origin": p, "base_units": float(made.get(p, 0.0))}
         )
     d = base.tables["dcs"]
-    dct = t["dcs"].set_index("dc")
     for r in d[d["open"]].itertuples():
-        existing = str(dct.loc[r.dc, "status"]) == "existing"
         rows.append(
             {
                 "id": f"dc:{r.dc}",
@@ -132,8 +131,6 @@ def sweep_elements(case: Case, base, only: list[str] | None = None) -> pd.DataFr
                 "element": r.dc,
                 "origin": r.dc,
                 "base_units": float(r.throughput),
-                "own_fixed_cost": float(r.fixed_cost),
-                "own_closing_cost": float(dct.loc[r.dc, "closing_cost"]) if existing else 0.0,
             }
         )
     lanes = f.groupby(["origin", "destination", "mode"], as_index=False)["quantity"].sum()
@@ -159,12 +156,9 @@ def sweep_elements(case: Case, base, only: list[str] | None = None) -> pd.DataFr
             "destination",
             "mode",
             "base_units",
-            "own_fixed_cost",
-            "own_closing_cost",
         ],
     )
     el[["destination", "mode"]] = el[["destination", "mode"]].fillna("")
-    el[["own_fixed_cost", "own_closing_cost"]] = el[["own_fixed_cost", "own_closing_cost"]].fillna(0.0)
     if only:
         keep = pd.Series(False, index=el.index)
         bad = []
@@ -214,16 +208,12 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
     un = values.get("unmet", np.zeros(len(dem)))
     un0 = st.base_values.get("unmet", np.zeros(len(dem)))
     delta = total - st.base_total
-    recovery = (
-        delta - (pen_new - pen_old) + float(el.get("own_fixed_cost", 0.0)) - float(el.get("own_closing_cost", 0.0))
-    )
+    recovery = delta - (pen_new - pen_old)  # a DC out stays paid for in the held model (site_out's meaning)
     short, rerouted = customers_touched(st, values)
     took, took_units = took_over(st, el, values)
-    # Safety stock is held at the base's level: its cost is the base's in both totals.
-    ss = float(st.spec.base_cost.get("safety_stock", 0.0))
     row.update(
         {
-            "total_cost": total + ss,
+            "total_cost": total,
             "delta_objective": delta,
             "recovery_cost": recovery,
             "lost_units": float(un.sum() - un0.sum()),
@@ -244,7 +234,7 @@ def hold_resolve(st: WorkerState, el: dict) -> dict:
 def redesign_resolve(spec: SweepSpec, el: dict) -> dict:
     """Redesign with ``el`` out (openings re-optimised, a MIP); result columns prefixed ``redesign_``."""
     sc_case = apply_changes(spec.case, Scenario(el["id"], element_changes(el), resolve="redesign"))
-    r = solve_or_lose(sc_case, start=held_decisions(spec.held, sc_case))
+    r = solve_or_lose(sc_case, hold=held_decisions(spec.held, sc_case))
     out: dict[str, Any] = {"redesign_status": r.status}
     if not r.has_solution:
         return out
@@ -260,11 +250,7 @@ def redesign_resolve(spec: SweepSpec, el: dict) -> dict:
     out.update(
         {
             "redesign_total_cost": total,
-            "redesign_recovery_cost": total
-            - base_total
-            - (pen_new - pen_old)
-            + el.get("own_fixed_cost", 0.0)
-            - el.get("own_closing_cost", 0.0),
+            "redesign_recovery_cost": total - base_total - (pen_new - pen_old),
             "redesign_lost_units": (float(un["lost_units"].sum()) if len(un) else 0.0) - spec.base_lost_units,
             "redesign_lost_value": float(pen_new - pen_old),
             "redesign_dc_changes": "; ".join(changes),

@@ -267,16 +267,36 @@ def priced(r: Result) -> Result:
     return r
 
 
-def solve_or_lose(case: Case, **kw) -> Result:
-    """Solve; if infeasible, solve again with lost demand allowed at the penalty (``Result.lost_demand_allowed``).
+SEED_GAP = 1e-9  # optimality gap of the hold's plan completed in the full model (a redesign's start)
+
+
+def redesign(case: Case, hold: dict[str, str | bool] | None, diagnose: bool = True) -> Result:
+    """Re-optimise the openings of ``case``, started from the held decisions ``hold``.
+
+    The hold's plan is first completed in the full model (a solve with those openings fixed)
+    and handed to HiGHS whole, as its first incumbent, so the redesign is never dearer than
+    keeping the network, whatever the gap (a partial start of the openings alone is completed by
+    HiGHS with limited effort and could land above it).
+    """
+    plan = None
+    if hold:
+        # Solved to a tight gap: with the openings fixed only safety-stock segment choices are left,
+        # and a seed at the usual gap could sit above the held network's own (exact LP) answer.
+        seed = solve(case, hold=hold, diagnose=False, mip_gap=SEED_GAP)
+        plan = seed.plan_values if seed.has_solution else None
+    return solve(case, start=hold or None, start_plan=plan, diagnose=diagnose)
+
+
+def solve_or_lose(case: Case, hold: dict[str, str | bool] | None = None) -> Result:
+    """Redesign (from ``hold``); if infeasible, again with lost demand allowed at the penalty.
 
     For studies that measure lost demand by design (the stress sweep's redesigns); a scenario
     run keeps the infeasible answer and shows this one beside it (:func:`solve_as_asked`).
     """
-    r = solve(case, diagnose=False, **kw)
+    r = redesign(case, hold, diagnose=False)
     if not _infeasible(r):
         return r
-    return priced(solve(settings_with_lost_demand(case), **kw))
+    return priced(redesign(settings_with_lost_demand(case), hold, diagnose=False))
 
 
 def solve_as_asked(
@@ -291,8 +311,8 @@ def solve_as_asked(
     """One scenario solve as its settings ask: rows of (label, result, method, alternative_to).
 
     Hold: warm on ``held`` where the changes are bound changes, else rebuilt with the openings
-    fixed.  Redesign: a MIP started from the hold's plan (the base's DCs less those the scenario
-    closes), so a redesign is never dearer than holding the network (up to the gap).  An
+    fixed.  Redesign: a MIP started from the hold's whole plan (the base's DCs less those the
+    scenario closes, :func:`redesign`), so a redesign is never dearer than holding the network.  An
     infeasible result carries its diagnosis (from the full model, rebuilt if the warm re-solve
     was infeasible), and is followed by its priced alternative, solved the same way.
     """
@@ -314,9 +334,9 @@ def solve_as_asked(
             alt = alt if alt is not None else solve(settings_with_lost_demand(sc_case), hold=hold)
     else:
         method = alt_method = "mip"
-        r = solve(sc_case, start=hold or None, diagnose=True)
+        r = redesign(sc_case, hold)
         if _infeasible(r) and strict:
-            alt = solve(settings_with_lost_demand(sc_case), start=hold or None)
+            alt = redesign(settings_with_lost_demand(sc_case), hold)
     rows = [(label, r, method, "")]
     if alt is not None:
         rows.append((priced_label(label), priced(alt), alt_method, label))

@@ -23,7 +23,7 @@ from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 
 JOURNAL = "sweep_journal.jsonl"
-JOURNAL_FORMAT = "netopt stress sweep journal v1"
+JOURNAL_FORMAT = "netopt stress sweep journal v2"  # v2: safety stock on held lines, a DC out stays paid for
 
 Task = Callable[[Any, dict], dict]  # task(spec, element) -> row
 

@@ -7,7 +7,6 @@ Each worker process (or Dask worker thread) builds its held model once per sweep
 
 from __future__ import annotations
 
-import copy
 import hashlib
 import json
 import threading
@@ -18,7 +17,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
-from netopt.engine.held import HeldNetwork
+from netopt.engine.held import HeldNetwork, safety_stock_lines_of
 from netopt.engine.relief import add_slack
 from netopt.studies.sweep_exec import JOURNAL_FORMAT
 
@@ -57,6 +56,7 @@ class SweepSpec:
     base_dcs_open: tuple[str, ...] = ()
     redesign: bool = False
     rules: str = "priced"
+    safety_stock_lines: pd.DataFrame = field(default_factory=pd.DataFrame)  # engine.held.safety_stock_lines_of
 
 
 def make_spec(case: Case, base, redesign: bool = False, rules: str = "priced") -> SweepSpec:
@@ -89,6 +89,7 @@ def make_spec(case: Case, base, redesign: bool = False, rules: str = "priced") -
         base_dcs_open=tuple(d.loc[d["open"], "dc"]),
         redesign=bool(redesign),
         rules=rules,
+        safety_stock_lines=safety_stock_lines_of(case, base),
     )
 
 
@@ -194,7 +195,8 @@ def add_relief(held) -> Relief:
 
 @dataclass
 class WorkerState:
-    """One worker's kept model: the held network (safety stock at base levels) and base arrays."""
+    """One worker's kept model: the held network (safety stock on its held lines, as every held
+    network prices it) and base arrays."""
 
     spec: SweepSpec
     held: HeldNetwork
@@ -210,13 +212,6 @@ class WorkerState:
 _LOCAL = threading.local()  # per worker thread (Dask threads) or process (pool): {key: WorkerState}
 
 
-def held_case(case: Case) -> Case:
-    """The case as the sweep's held model sees it: safety stock kept at the base's levels (no cost curve)."""
-    settings = copy.deepcopy(case.settings)
-    settings["inventory"]["safety_stock"] = False
-    return Case(case.name, case.tables, settings, case.path)
-
-
 def worker_state(spec: SweepSpec) -> WorkerState:
     """This thread's kept model for ``spec`` (built on first use, then reused)."""
     cache = getattr(_LOCAL, "states", None)
@@ -226,7 +221,7 @@ def worker_state(spec: SweepSpec) -> WorkerState:
     if st is None:
         cache.clear()  # one case at a time per worker
         t0 = time.perf_counter()
-        held = HeldNetwork(held_case(spec.case), held=spec.held, lanes=spec.lanes)
+        held = HeldNetwork(spec.case, held=spec.held, lanes=spec.lanes, safety_stock_lines=spec.safety_stock_lines)
         if not held.base_info.has_solution:
             raise RuntimeError(f"the held base network has no solution ({held.base_info.status})")
         hm = held.hm

@@ -29,10 +29,20 @@ from netopt.present.report.style import (
     to_svg,
 )
 
-NETWORK_ORDER = ["customer", "supplier_idle", "supplier", "plant", "dc_idle", "dc_close", "dc_keep", "dc_open"]
-DIFFERENCE_ORDER = ["customer", "customer_short", "supplier_idle", "supplier", "plant", "dc_idle", "dc_lost"]
+NETWORK_ORDER = [
+    "customer",
+    "supplier_idle",
+    "supplier",
+    "plant",
+    "dc_idle",
+    "dc_out",
+    "dc_close",
+    "dc_keep",
+    "dc_open",
+]
+DIFFERENCE_ORDER = ["customer", "customer_short", "supplier_idle", "supplier", "plant", "dc_idle", "dc_out", "dc_lost"]
 DIFFERENCE_ORDER += ["dc_both", "dc_gained"]
-LABELLED = {"plant", "dc_keep", "dc_open", "dc_close", "dc_gained", "dc_lost", "dc_both"}
+LABELLED = {"plant", "dc_keep", "dc_open", "dc_close", "dc_out", "dc_gained", "dc_lost", "dc_both"}
 
 
 def run_layout(results) -> dict:
@@ -331,9 +341,11 @@ def difference_styles(base, result, sites: pd.DataFrame) -> pd.Series:
     """Each site's style against the base: DCs open in both, only here, only in the base, neither;
     customers losing more demand than in the base marked."""
 
-    def open_dcs(r) -> set[str]:
+    def open_dcs(r) -> set[str]:  # open and working (a DC out is paid for, but nothing moves through it)
         d = r.tables["dcs"]
-        return set(d.loc[d["open"].astype(bool), "dc"].astype(str))
+        return set(d.loc[d["open"].astype(bool) & d["decision"].ne("out"), "dc"].astype(str))
+
+    out = set(result.tables["dcs"].query("decision == 'out'")["dc"].astype(str))
 
     def short(r) -> pd.Series:
         u = r.tables["unmet"]
@@ -346,7 +358,9 @@ def difference_styles(base, result, sites: pd.DataFrame) -> pd.Series:
     for site, kind, st in zip(sites["site"].astype(str), sites["kind"], sites["style"]):
         if kind == "dc":
             style.append(
-                "dc_both"
+                "dc_out"
+                if site in out
+                else "dc_both"
                 if site in now and site in was
                 else "dc_gained"
                 if site in now

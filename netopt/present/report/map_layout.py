@@ -40,7 +40,9 @@ def site_table(result) -> pd.DataFrame:
     base = np.where(s["kind"].eq("supplier"), np.where(s["site"].isin(used), "supplier", "supplier_idle"), s["kind"])
     dec = {str(k): str(v) for k, v in zip(d["dc"], d["decision"])}
     s["style"] = [
-        {"keep": "dc_keep", "open": "dc_open", "close": "dc_close"}.get(dec.get(str(site), ""), "dc_idle")
+        {"keep": "dc_keep", "open": "dc_open", "close": "dc_close", "out": "dc_out"}.get(
+            dec.get(str(site), ""), "dc_idle"
+        )
         if k == "dc"
         else st
         for site, k, st in zip(s["site"], s["kind"], base)

@@ -47,6 +47,15 @@ KNOWN_EXTRA = {  # extra table name → section title and one line on what it sh
         "DC decisions by scenario",
         "What each solve does with each DC (kept, closed, opened, not opened, out) and its throughput in units/yr.",
     ),
+    "mode_mix_matrix": (
+        "Mode mix by scenario",
+        "Each mode's share of all tonne-km in each solve, the base first.",
+    ),
+    "supplier_share_changes": (
+        "Supplier share changes",
+        "Where a scenario moves supply between suppliers: each supplier's share of a site's supply "
+        "of a material in the base and in the scenario (changes of half a percentage point or more, largest first).",
+    ),
     "frontier": ("Cost–CO2e frontier", "Least landed cost at each level of CO2e (or each carbon price)."),
     "safety_stock": ("Safety stock", "Safety stock held at each DC and product (units) and its yearly cost."),
     "spof": (

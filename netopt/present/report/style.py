@@ -27,6 +27,7 @@ SITE_STYLE = {
     "dc_open": ("H", "#e3a21a", INK, 190, "DC newly opened"),
     "dc_close": ("X", BAD, "white", 120, "DC closed"),
     "dc_idle": ("H", "none", "#8d979e", 150, "candidate DC, not opened"),
+    "dc_out": ("X", "#8d979e", "white", 120, "DC out (nothing through it)"),
     "customer": ("o", "#5f86ab", "white", None, "customer (area ∝ demand)"),
     # against the base (difference maps)
     "dc_gained": ("H", "#e3a21a", INK, 190, "DC open here, not in the base"),
