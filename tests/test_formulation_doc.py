@@ -33,7 +33,7 @@ MODEL_DIR = Path(__file__).resolve().parents[1] / "netopt" / "model"
 
 def every_rule_case():
     """Invented data with every policy switched on: 3 suppliers of a material (two regions) → 1 plant →
-    3 DCs (one existing, one forced open with two sizes, one with a capacity) → 4 customers; road
+    3 DCs (one existing, one forced open with two sizes, one more; every DC with a capacity) → 4 customers; road
     everywhere, rail on supplier and plant legs; one lane with a capacity; safety stock on."""
     customers = [
         ("C0", 48.1, 11.6, 1200.0),
@@ -63,7 +63,15 @@ def every_rule_case():
         ],
         "plants": [{"plant": "F", "product": "P", "lat": 49.0, "lon": 8.4, "unit_cost": 4.0, "capacity": 1e6}],
         "dcs": [
-            {"dc": "D0", "lat": 50.1, "lon": 8.6, "status": "existing", "fixed_cost": 20000.0, "closing_cost": 5000.0},
+            {
+                "dc": "D0",
+                "lat": 50.1,
+                "lon": 8.6,
+                "status": "existing",
+                "fixed_cost": 20000.0,
+                "closing_cost": 5000.0,
+                "capacity": 50000.0,
+            },
             {"dc": "D1", "lat": 48.1, "lon": 11.5, "fixed_cost": 15000.0, "force": "open"},
             {"dc": "D2", "lat": 52.4, "lon": 13.1, "fixed_cost": 18000.0, "capacity": 5000.0},
         ],

@@ -50,6 +50,35 @@ def _typed(col: Column, values: list, index: pd.Index) -> pd.Series:
     raise ValueError(f"unknown column type {col.type!r}")  # a schema bug, not user input
 
 
+_PLAIN_NUMBER = r"[+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?"
+
+
+def _plain_float_column(col: Column, series: pd.Series) -> pd.Series | None:
+    """A float column typed in one pass when every cell is a plain finite number or a blank the
+    column allows, within the declared range; None when any cell needs a closer look (the cell-by-cell
+    path then words each problem)."""
+    if col.type != "float":
+        return None
+    if pd.api.types.is_numeric_dtype(series.dtype) and not pd.api.types.is_bool_dtype(series.dtype):
+        v = series.to_numpy(float)
+    elif series.dtype == object and series.map(type).eq(str).all():
+        s = series.str.strip()
+        blank = s.eq("") | s.str.lower().isin(_MISSING_WORDS)
+        if not (blank | s.str.fullmatch(_PLAIN_NUMBER)).all():
+            return None
+        v = pd.to_numeric(s.where(~blank, None), errors="coerce").to_numpy(float)
+    else:
+        return None
+    blank = np.isnan(v)
+    seen = v[~blank]
+    if (blank.any() and col.required) or np.isinf(seen).any():
+        return None
+    if (col.min is not None and (seen < col.min).any()) or (col.max is not None and (seen > col.max).any()):
+        return None
+    default = np.nan if col.default is None else float(col.default)  # type: ignore[arg-type]
+    return pd.Series(np.where(blank, default, v), index=series.index, dtype=float)
+
+
 def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series, list[Problem]]:
     """Parse one column by its declared type; blanks take the declared default.
 
@@ -58,6 +87,9 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
     values outside the declared range, values not among the declared choices.
     Infinity is accepted only in columns whose default is "no limit" (inf).
     """
+    fast = _plain_float_column(col, series)
+    if fast is not None:
+        return fast, []
     problems: list[Problem] = []
     idx = series.index
     if (col.type == "float" and pd.api.types.is_float_dtype(series.dtype)) or (

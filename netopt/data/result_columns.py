@@ -24,7 +24,9 @@ TOTAL_COST = _c("total_cost", "float", "currency/yr", "total cost", "Total lande
 STATUS = _c("status", "str", "text", "status", "Solver status (optimal, time_limit, infeasible, …)")
 GAP = _c("gap", "float", "share", "gap", "Proven optimality gap of the solve")
 VERIFIED = _c("verified", "bool", "flag", "checked", "The independent check of the plan passed")
-DCS_OPEN = _c("dcs_open", "int", "count", "DCs open", "DCs open in the plan")
+DCS_OPEN = _c(
+    "dcs_open", "int", "count", "DCs open", "DCs open and working in the plan (a DC taken out is not counted)"
+)
 DCS_OPEN_NAMES = _c("dcs_open_names", "str", "text", "open DCs", "Codes of the open DCs, space-separated")
 LOST_UNITS = _c("lost_units", "float", "units/yr", "lost units/yr", "Demand not delivered", sense=1)
 LOST_VALUE = _c("lost_value", "float", "currency/yr", "lost value", "Penalty value of the demand lost", sense=1)

@@ -21,7 +21,7 @@ KPIS: dict[str, Kpi] = {
             "within service window",
             "On-time units ÷ demand (lost units count as late)",
         ),
-        Kpi("dcs_open", "count", "DCs open", "DCs open in the plan"),
+        Kpi("dcs_open", "count", "DCs open", "DCs open and working in the plan (a DC taken out is not counted)"),
         Kpi("in_transit_inventory_units", "units", "units in transit", "Average stock in transit"),
         Kpi("in_transit_inventory_value", "currency", "value in transit", "Average stock in transit at unit value"),
         Kpi("in_transit_inventory_days", "days", "days in transit", "In-transit value in days of sales"),

@@ -142,7 +142,16 @@ def _lane_sites(tables: dict[str, pd.DataFrame]) -> list[Problem]:
         for code in _codes(tables[table], col):
             kinds.setdefault(code, col)
     problems = []
-    for r, row in lanes.iterrows():
+    # Whole columns first; only the rows with something to report are looked at one by one.
+    o_all, d_all = lanes["origin"].astype(str), lanes["destination"].astype(str)
+    ok_all, dk_all = o_all.map(kinds), d_all.map(kinds)
+    suspect = (
+        (o_all.ne("") & ~ok_all.isin(ORIGIN_KINDS))
+        | (d_all.ne("") & ~dk_all.isin(DESTINATION_KINDS))
+        | (o_all.eq(d_all) & o_all.ne(""))
+        | ~(ok_all.fillna("") + "-" + dk_all.fillna("")).isin(LEGS)
+    )
+    for r, row in lanes[suspect].iterrows():
         o, d = str(row["origin"]), str(row["destination"])
         ok_kind, dk_kind = kinds.get(o), kinds.get(d)
         bad = False

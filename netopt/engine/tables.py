@@ -20,6 +20,12 @@ TABLE_DOCS = {name: t.meaning for name, t in RESULT_TABLES.items()}
 EPS = 1e-7
 
 
+def in_service(dcs: pd.DataFrame) -> pd.Series:
+    """DCs open and working in a result's ``dcs`` table: open, and not taken out (a DC out may be
+    open, i.e. still paid for, with nothing moving through it).  "DCs open" counts these."""
+    return dcs["open"].astype(bool) & dcs["decision"].ne("out")
+
+
 def flows_table(net: Network, flow: np.ndarray) -> pd.DataFrame:
     """Positive flows with their costs (currency/yr), CO2e (kg/yr) and transport work."""
     a = net.arcs
@@ -218,7 +224,7 @@ def kpis(net: Network, t: dict[str, pd.DataFrame], cost: dict[str, float]) -> pd
         ("avg_transit_days_to_customer", avg_days, "days (demand-weighted)"),
         ("p95_transit_days_to_customer", p95, "days"),
         ("share_within_service_window", within, "share of demand"),
-        ("dcs_open", float(t["dcs"]["open"].sum()), "count"),
+        ("dcs_open", float(in_service(t["dcs"]).sum()), "count"),
         ("in_transit_inventory_units", in_transit_units, "units (average)"),
         ("in_transit_inventory_value", in_transit_value, "currency (average)"),
         (

@@ -24,6 +24,7 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
         supplier_capacity:   Σ_{a ∈ out(s,p)} x_a ≤ U_{s,p}                          ∀ offer (s, p) with U_{s,p} < ∞
         dc_throughput:       Σ_{a ∈ in(d)} x_a − Σ_{o ∈ O(d)} Ū_o y_o ≤ 0            ∀ DC d with an inbound arc
         dc_customer_link †:  Σ_m x_{(d,c,m,p)} − q_{c,p} Σ_{o ∈ O(d)} y_o ≤ 0         ∀ (d, c, p) with a DC → customer arc (tight only)
+        dc_capacity_cover †: Σ_{o ∈ O} U_o y_o + Σ_{(c,p) ∈ Q_D} u_{c,p} ≥ Σ_{(c,p) ∈ Q_D} q_{c,p}   (tight only, every U_o < ∞)
         lane_capacity:       Σ_p x_{(i,j,m,p)} ≤ L_{i,j,m}                            ∀ lane (i, j) and mode m with L_{i,j,m} < ∞
 
         Ū_o = U_o if finite, else M = (Σ q) × (2 if any DC → DC arc, else 1) × big_m_factor
@@ -33,6 +34,9 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
     ``dc_customer_link`` is valid for every integer solution (a DC that is closed delivers
     nothing, and no customer takes more than its demand) and makes the LP bound far stronger
     than ``dc_throughput`` alone; the "plain" formulation (benchmarks) leaves it out.
+    ``dc_capacity_cover`` is the total-capacity row of the textbook capacitated facility-location
+    model: every unit of Q_D passes through the inbound of at least one open DC, so the open
+    capacity covers it (less what is lost); it cuts LP solutions that open fractions of DCs.
 
     | symbol | meaning | unit | name in code |
     |---|---|---|---|
@@ -41,6 +45,8 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
     | M | big M standing in for unlimited DC capacity | units/yr | ``Builder.dc_big_m`` |
     | in(d) | arcs into DC d, every product | | arc column ``destination_kind`` = dc |
     | L_{i,j,m} | capacity of a lane and mode shared by all products (∞ = none) | units/yr | arc column ``lane_capacity`` |
+    | Q_D | demand rows (customer, product) that only DC → customer arcs deliver | | ``net.demand`` |
+    | q_{c,p}, u_{c,p} | demand; its lost units (when lost demand is allowed) | units/yr | ``net.demand.quantity``; block ``unmet`` |
     | A_{→D}, h_a | arcs into a DC; handling cost of the receiving DC | currency/unit | arc column ``handling_per_unit`` |
     """
     net = b.net
@@ -104,6 +110,23 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
                 "<=",
                 0.0,
                 elastic=False,
+            )
+
+    # Capacity cover: the open DCs' capacity must carry the demand only DCs can deliver.
+    if formulation == "tight" and len(dcs) and np.isfinite(net.options["capacity"].to_numpy(float)).all():
+        to_cust = arcs[arcs["destination_kind"].eq("customer")]
+        direct = to_cust[to_cust["origin_kind"].ne("dc")][["destination", "product"]].drop_duplicates()
+        dem = net.demand.reset_index(drop=True)
+        keys = pd.MultiIndex.from_frame(dem[["customer", "product"]].astype(str))
+        only_dc = ~keys.isin(pd.MultiIndex.from_frame(direct.astype(str))) & (dem["quantity"].to_numpy(float) > 0)
+        need = float(dem.loc[only_dc, "quantity"].sum())
+        if need > 0:
+            terms = [option_terms(b, dcs["destination"].to_numpy(), np.zeros(len(dcs), int), np.ones(len(dcs)), True)]
+            if "unmet" in b.vars:
+                k = np.flatnonzero(only_dc)
+                terms.append(Term("unmet", k, np.ones(len(k)), np.zeros(len(k), int)))
+            b.add_rows(
+                "dc_capacity_cover", pd.DataFrame({"rule": ["open DC capacity"]}), terms, ">=", need, elastic=False
             )
 
     # Lane-and-mode capacity shared by all products.

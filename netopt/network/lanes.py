@@ -340,75 +340,87 @@ def build_lanes(case: Case) -> pd.DataFrame:
 def _explicit_rows(
     case: Case, sites: dict[str, pd.DataFrame], mode_info: dict[str, dict], problems: list[Problem]
 ) -> pd.DataFrame:
-    """The explicit lanes table with kinds, leg and coordinates resolved; bad rows become problems."""
-    ex = case.tables["lanes"]
+    """The explicit lanes table with kinds, leg and coordinates resolved; bad rows become problems.
+
+    Whole columns at once (a case may give hundreds of thousands of explicit lanes); only the
+    rows with a problem are looked at one by one, to word each problem.
+    """
+    ex = case.tables["lanes"].sort_index()
     cols = LANE_COLUMNS + ["available"]
     kind_of: dict[str, str] = {}
     for k in ("customer", "dc", "plant", "supplier"):  # later kinds win only if codes collide
         kind_of.update(dict.fromkeys(sites[k].index, k))
-    rows = []
-    ex = ex.sort_index()
-    for row, r in zip(ex.index, ex.to_dict("records")):
-        o, d, m = str(r["origin"]).strip(), str(r["destination"]).strip(), str(r["mode"]).strip()
-        p = "" if pd.isna(r["product"]) else str(r["product"]).strip()
-        ok, dk = kind_of.get(o), kind_of.get(d)
-        bad = False
-        if ok is None:
-            problems.append(Problem("lanes", row, "origin", f"{o!r} is not a supplier, plant or DC of the case"))
-            bad = True
-        elif ok not in _ORIGIN_KINDS:
-            problems.append(Problem("lanes", row, "origin", f"{o!r} is a {ok}; lanes start at a supplier, plant or DC"))
-            bad = True
-        if dk is None:
-            problems.append(Problem("lanes", row, "destination", f"{d!r} is not a plant, DC or customer of the case"))
-            bad = True
-        elif dk not in _DESTINATION_KINDS:
-            problems.append(
-                Problem("lanes", row, "destination", f"{d!r} is a {dk}; lanes end at a plant, DC or customer")
-            )
-            bad = True
-        if m not in mode_info:
-            problems.append(Problem("lanes", row, "mode", f"unknown mode {m!r} (not in modes)"))
-            bad = True
-        if not bad and f"{ok}-{dk}" not in LEGS:
-            problems.append(
-                Problem(
-                    "lanes",
-                    row,
-                    "destination",
-                    f"{ok} {o!r} → {dk} {d!r} is not a leg netopt models; legs are {', '.join(LEGS)}",
-                )
-            )
-            bad = True
-        if bad or ok is None or dk is None:  # (ok and dk are known once bad is False)
-            continue
-        available = r["available"]
-        rows.append(
-            {
-                "origin": o,
-                "origin_kind": ok,
-                "destination": d,
-                "destination_kind": dk,
-                "leg": f"{ok}-{dk}",
-                "mode": m,
-                "product": p,
-                "distance_km": _num(r["distance_km"]),
-                "transit_days": _num(r["transit_days"]),
-                "cost_per_unit": _num(r["cost_per_unit"]),
-                "capacity": np.inf if pd.isna(r["capacity"]) else float(r["capacity"]),
-                "source": "explicit",
-                "origin_lat": float(sites[ok].at[o, "lat"]),
-                "origin_lon": float(sites[ok].at[o, "lon"]),
-                "destination_lat": float(sites[dk].at[d, "lat"]),
-                "destination_lon": float(sites[dk].at[d, "lon"]),
-                "available": True if pd.isna(available) else bool(available),
-            }
-        )
-    if not rows:
+    if ex.empty:
         return _empty().assign(available=pd.Series(dtype=bool))
-    out = pd.DataFrame(rows, columns=cols)
-    out["available"] = out["available"].astype(bool)
-    return out
+    o = ex["origin"].astype(str).str.strip()
+    d = ex["destination"].astype(str).str.strip()
+    m = ex["mode"].astype(str).str.strip()
+    p = ex["product"].where(ex["product"].notna(), "").astype(str).str.strip()
+    ok, dk = o.map(kind_of), d.map(kind_of)
+    leg = ok.fillna("") + "-" + dk.fillna("")
+    bad = ~ok.isin(_ORIGIN_KINDS) | ~dk.isin(_DESTINATION_KINDS) | ~m.isin(list(mode_info)) | ~leg.isin(LEGS)
+    for row in ex.index[bad.to_numpy()]:
+        _explicit_row_problems(row, o[row], d[row], m[row], ok[row], dk[row], mode_info, problems)
+    good = ~bad.to_numpy()
+    if not good.any():
+        return _empty().assign(available=pd.Series(dtype=bool))
+    ex, o, d, m, p, ok, dk = (v[good] for v in (ex, o, d, m, p, ok, dk))
+    out = pd.DataFrame(
+        {
+            "origin": o.to_numpy(),
+            "origin_kind": ok.to_numpy(),
+            "destination": d.to_numpy(),
+            "destination_kind": dk.to_numpy(),
+            "leg": (ok + "-" + dk).to_numpy(),
+            "mode": m.to_numpy(),
+            "product": p.to_numpy(),
+            "distance_km": pd.to_numeric(ex["distance_km"], errors="coerce").to_numpy(float),
+            "transit_days": pd.to_numeric(ex["transit_days"], errors="coerce").to_numpy(float),
+            "cost_per_unit": pd.to_numeric(ex["cost_per_unit"], errors="coerce").to_numpy(float),
+            "capacity": pd.to_numeric(ex["capacity"], errors="coerce").fillna(np.inf).to_numpy(float),
+            "source": "explicit",
+        }
+    )
+    for end, code, kind in (("origin", o, ok), ("destination", d, dk)):
+        for c in ("lat", "lon"):
+            v = np.full(len(out), np.nan)
+            for k in kind.unique():
+                at = (kind == k).to_numpy()
+                coord = sites[k][c].groupby(level=0).first()
+                v[at] = code[at].map(coord).to_numpy(float)
+            out[f"{end}_{c}"] = v
+    avail = ex["available"]
+    out["available"] = avail.where(avail.notna(), True).astype(bool).to_numpy()
+    return out[cols]
+
+
+def _explicit_row_problems(row, o, d, m, ok, dk, mode_info, problems: list[Problem]) -> None:
+    """Every problem of one explicit lane row, worded for the user (table, row, column)."""
+    bad = False
+    if not isinstance(ok, str):
+        problems.append(Problem("lanes", row, "origin", f"{o!r} is not a supplier, plant or DC of the case"))
+        bad = True
+    elif ok not in _ORIGIN_KINDS:
+        problems.append(Problem("lanes", row, "origin", f"{o!r} is a {ok}; lanes start at a supplier, plant or DC"))
+        bad = True
+    if not isinstance(dk, str):
+        problems.append(Problem("lanes", row, "destination", f"{d!r} is not a plant, DC or customer of the case"))
+        bad = True
+    elif dk not in _DESTINATION_KINDS:
+        problems.append(Problem("lanes", row, "destination", f"{d!r} is a {dk}; lanes end at a plant, DC or customer"))
+        bad = True
+    if m not in mode_info:
+        problems.append(Problem("lanes", row, "mode", f"unknown mode {m!r} (not in modes)"))
+        bad = True
+    if not bad and f"{ok}-{dk}" not in LEGS:
+        problems.append(
+            Problem(
+                "lanes",
+                row,
+                "destination",
+                f"{ok} {o!r} → {dk} {d!r} is not a leg netopt models; legs are {', '.join(LEGS)}",
+            )
+        )
 
 
 _FLOAT_COLUMNS = {
@@ -421,10 +433,6 @@ _FLOAT_COLUMNS = {
     "destination_lat",
     "destination_lon",
 }
-
-
-def _num(v) -> float:
-    return np.nan if pd.isna(v) else float(v)
 
 
 def _empty() -> pd.DataFrame:

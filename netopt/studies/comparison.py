@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from netopt.engine.tables import in_service
 from netopt.model import PENALTY_COMPONENTS
 
 
@@ -91,8 +92,8 @@ def comparison_row(
     for k, v in delta.items():
         row[f"delta_{k}"] = v
     d = r.tables["dcs"]
-    row["dcs_open"] = int(d["open"].sum())
-    row["dcs_open_names"] = " ".join(d.loc[d["open"], "dc"])
+    row["dcs_open"] = int(in_service(d).sum())
+    row["dcs_open_names"] = " ".join(d.loc[in_service(d), "dc"])
     k = dict(zip(r.tables["kpis"]["kpi"], r.tables["kpis"]["value"]))
     row["share_within_window"] = k.get("share_within_service_window")
     row["avg_transit_days"] = k.get("avg_transit_days_to_customer")

@@ -39,6 +39,7 @@ from netopt.data.case import Case
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.result import Result, fixed_options
+from netopt.engine.tables import in_service
 from netopt.model import build_model
 from netopt.model.safety_stock import add_pooling_cuts, prepare_solve
 from netopt.network.arcs import build_network
@@ -219,8 +220,8 @@ def sweep(
                 "total_cost": total,
                 "delta_cost": total - base_cost,
                 "delta_co2_t": co2 - base_co2,
-                "dcs_open": int(d["open"].sum()),
-                "dcs_open_names": " ".join(d.loc[d["open"], "dc"]),
+                "dcs_open": int(in_service(d).sum()),
+                "dcs_open_names": " ".join(d.loc[in_service(d), "dc"]),
                 "safety_stock_cost": cost.get("safety_stock", 0.0),
                 "lost_units": float(tables["unmet"]["lost_units"].sum()) if len(tables["unmet"]) else 0.0,
             }

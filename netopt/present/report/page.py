@@ -335,7 +335,9 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
         comp = run.comparison
         ctx["n_scenarios"] = max(len(comp) - 1, 0)
         ctx["n_checked"] = int(comp["verified"].fillna(False).astype(bool).sum()) if "verified" in comp else 0
-        ctx["n_rows"] = len(comp)
+        planned = comp["total_cost"].notna() if "total_cost" in comp else pd.Series(False, index=comp.index)
+        ctx["n_rows"] = int(planned.sum())  # solves with a plan to check
+        ctx["n_infeasible"] = int((~planned).sum())
     if base.has_solution:
         t = base.tables
         colours = mode_colours(t["mode_mix"]["mode"] if len(t["mode_mix"]) else [])
