@@ -73,14 +73,18 @@ def _model_case(case: Case) -> Case:
     return c
 
 
-def safety_stock_lines_of(case: Case, base: Result, lanes: pd.DataFrame | None = None) -> pd.DataFrame:
+def safety_stock_lines_of(
+    case: Case, base: Result | None, lanes: pd.DataFrame | None = None, net: Network | None = None
+) -> pd.DataFrame:
     """The held safety-stock lines of ``base`` (one per DC and product, at its base throughput), or an
-    empty table when the case holds no safety stock: how every held network prices safety stock."""
+    empty table when the case holds no safety stock: how every held network prices safety stock.
+    ``net``: the held network's own (built here from ``lanes`` when not given)."""
     if not bool(case.settings["inventory"]["safety_stock"]):
         return pd.DataFrame()
-    if not base.has_solution:
+    if base is None or not base.has_solution:
         raise ValueError("held safety-stock lines need the base result (its throughput per DC)")
-    net = build_network(_model_case(case), base.lanes if lanes is None else lanes, prune=False)
+    if net is None:
+        net = build_network(_model_case(case), base.lanes if lanes is None else lanes, prune=False)
     return held_lines(net, base.tables["flows"])
 
 
@@ -125,11 +129,9 @@ class HeldNetwork:
         # Every admissible arc, none pruned: a mode dominated in the base may carry flow once the
         # dominating lane is closed.
         self.net: Network = build_network(_model_case(case), self.lanes, prune=False)
-        self.ss_lines = pd.DataFrame() if safety_stock_lines is None else safety_stock_lines
-        if bool(case.settings["inventory"]["safety_stock"]) and safety_stock_lines is None:
-            if base is None or not base.has_solution:
-                raise ValueError("HeldNetwork with safety stock needs the base result (its throughput per DC)")
-            self.ss_lines = held_lines(self.net, base.tables["flows"])  # = safety_stock_lines_of(case, base)
+        if safety_stock_lines is None:
+            safety_stock_lines = safety_stock_lines_of(case, base, net=self.net)
+        self.ss_lines = safety_stock_lines
         self.held = dict(held)
         self.fixed = fixed_options(self.net, self.held)
         sset = case.settings["solver"]
