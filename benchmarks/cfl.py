@@ -116,6 +116,7 @@ def textbook(inst: dict, time_limit: float) -> dict:
         "bound": float(info.mip_dual_bound),
         "wall_s": time.perf_counter() - t0,
         "trace": trace,
+        "open": np.round(np.asarray(h.getSolution().col_value[:n])),
     }
 
 

@@ -18,6 +18,35 @@ SETTINGS: tuple[Setting, ...] = (
     Setting("solver", "mip_gap", "float", "ratio", 1e-4, "Stop when (cost − bound)/cost is below this", min=0, max=1),
     Setting("solver", "threads", "int", "", 1, "Solver threads (1 keeps runs reproducible)", min=1),
     Setting(
+        "solver",
+        "plan_search",
+        "bool",
+        "",
+        True,
+        "Before the MIP search, find a good plan: the tight relaxation, then drop, add and swap moves on the DCs "
+        "priced by warm LP re-solves; the best plan starts the MIP search (only when the DCs are the only "
+        "integer decisions)",
+    ),
+    Setting(
+        "solver",
+        "plan_search_share",
+        "float",
+        "share",
+        0.4,
+        "Most share of the time limit the plan search may take (it stops earlier at a local optimum)",
+        min=0.0,
+        max=0.9,
+    ),
+    Setting(
+        "solver",
+        "lazy_linking_rows",
+        "bool",
+        "",
+        True,
+        "Hand the MIP search only the DC-to-customer linking rows the tight relaxation needed (the rest "
+        "are valid but redundant at its optimum); off: every linking row",
+    ),
+    Setting(
         "policy",
         "max_supplier_share",
         "float",

@@ -160,6 +160,13 @@ class HighsModel:
             int(m.sum()), cols[m].astype(np.int32), np.asarray(lo, float), np.asarray(hi, float)
         )
 
+    def free_rows(self, rows: np.ndarray) -> None:
+        """Make rows ``rows`` free (no bounds): left to HiGHS's presolve to remove; indices stay valid."""
+        rows = np.asarray(rows, dtype=np.int32)
+        if len(rows):
+            k = len(rows)
+            self.highs.changeRowsBounds(k, rows, np.full(k, -INF), np.full(k, INF))  # type: ignore[attr-defined]
+
     def set_plan_start(self, values: dict[str, np.ndarray]) -> None:
         """Hand HiGHS a whole plan as its first incumbent: the value of every variable, by block
         (as :meth:`values` returns them from a model with the same blocks and index sets)."""

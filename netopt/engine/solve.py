@@ -16,6 +16,7 @@ from netopt.data.case import Case
 from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
+from netopt.engine.plan_search import SEARCH_PLAN_KEPT, best_of, search_plan
 from netopt.engine.result import Result, fixed_options
 from netopt.model import build_model
 from netopt.model.safety_stock import prepare_solve
@@ -63,7 +64,7 @@ def solve(
     threads = int(sset["threads"] if threads is None else threads)
     timings: dict[str, float] = {}
 
-    t0 = time.perf_counter()
+    t0 = t_run = time.perf_counter()
     if lanes is None:
         lanes = case_lanes(case)
     timings["lanes"] = time.perf_counter() - t0
@@ -96,6 +97,7 @@ def solve(
         def cb(d):
             say("progress", d)
 
+    search = None
     if b.empty_infeasible:
         info = SolveInfo(
             "infeasible",
@@ -111,11 +113,25 @@ def solve(
             timings["safety_stock_aids"] = aids["seconds"]
             size["pooling_cuts"] = int(aids["cuts"])
         start_open = fixed_options(net, start)
-        if start_plan is not None:
+        if bool(sset["plan_search"]) and hold is None and hm.integrality.any():
+            seed = start_plan["open"] if start_plan is not None else start_open
+            search = search_plan(hm, float(sset["plan_search_share"]) * time_limit, start_open=seed, progress=cb)
+            timings["plan_search"] = search.seconds
+            say("plan search", {"message": search.summary()})
+            if search.relaxation:
+                size["linking_rows_needed"] = search.relaxation["linking_rows_needed"]
+                if bool(sset["lazy_linking_rows"]):
+                    hm.free_rows(search.relaxation["unneeded_rows"])
+        if search is not None and search.values is not None:
+            hm.set_plan_start(search.values)
+        elif start_plan is not None:
             hm.set_plan_start(start_plan)
         elif start_open is not None:
             hm.set_start("open", start_open)
-        info = hm.solve(time_limit=time_limit, mip_gap=mip_gap, threads=threads, progress=cb)
+        left = max(time_limit - (time.perf_counter() - t_run), 0.05 * time_limit)
+        info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads, progress=cb)
+        if search is not None:
+            info = best_of(info, search)
     timings["highs"] = info.solver_seconds
 
     res = Result.of(
@@ -127,13 +143,16 @@ def solve(
         network=net,
         lanes=lanes,
     )
-    if info.has_solution:
+    plan = hm.values() if info.has_solution else None
+    if search is not None and search.values is not None and info.message.startswith(SEARCH_PLAN_KEPT):
+        plan = search.values
+    if plan is not None:
         out = extract(
             case,
             lanes,
             net,
             b,
-            hm.values(),
+            plan,
             info.objective,
             held_open=None if hold is None else {d: bool(v) for d, v in hold.items()},
         )
@@ -143,8 +162,8 @@ def solve(
     elif info.status in ("infeasible", "unbounded") and diagnose:
         say("diagnose", {})
         res.diagnosis = diagnose_infeasibility(net, formulation=formulation, fixed=fixed)
-    if info.has_solution:
-        res.plan_values = hm.values()
+    if plan is not None:
+        res.plan_values = plan
     if keep_model:
         res.highs_model = hm
     return res
