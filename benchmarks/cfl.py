@@ -5,19 +5,23 @@ heuristics and relaxations for the capacitated plant location problem", EJOR 50 
 (from memory): n facilities and m customers uniform in the unit square; demand
 d_j ~ U[5, 35]; capacity s_i ~ U[10, 160], scaled so that Σ s / Σ d = r (the capacity ratio,
 3, 5 or 10: 3 is tight); fixed cost f_i = U[0, 90] + U[100, 110] × √s_i; cost of serving all
-of j from i c_ij = 10 × Euclidean distance × d_j.  Split demand is allowed.
+of j from i c_ij = 10 × Euclidean distance × d_j.  Split demand is allowed.  The OR-Library
+capacitated warehouse instances (Beasley 1988; tests/data/orlib/cap) run the same way by name.
 
 Two models of the same instance, each with HiGHS on one thread, side by side in one run:
 
 - **textbook**: assignment shares x_ij ∈ [0, 1], y_i ∈ {0, 1}; Σ_i x_ij = 1; Σ_j d_j x_ij ≤ s_i y_i;
   x_ij ≤ y_i; Σ_i s_i y_i ≥ Σ_j d_j (the strong formulation), built in numpy and passed to highspy;
 - **netopt**: the instance as a netopt case (one plant → DCs at no cost → customers at c_ij / d_j per
-  unit, explicit lanes) solved by ``netopt.solve`` (load and build included in its wall time).
+  unit, explicit lanes) solved by ``netopt.solve`` with its defaults (load and build included in its
+  wall time): the tight relaxation with linking rows added as violated, the plan search (drop, add,
+  swap on warm LP re-solves), then HiGHS from that plan with only the linking rows the relaxation
+  needed (``netopt.engine.plan_search``).
 
 Reported per run: final cost and bound, time to a plan within 1 % and 0.1 % of the best bound
 either model proved, and time to proof (gap 0.01 %).
 
-    python benchmarks/cfl.py [--instances 50x500:5,100x1000:3] [--time-limit 120] [--seed 0] [--out FILE]
+    python benchmarks/cfl.py [--instances cap71,50x500:5,100x1000:3] [--time-limit 120] [--seed 0] [--out FILE]
 """
 
 from __future__ import annotations
@@ -41,6 +45,7 @@ from netopt.api import solve  # noqa: E402
 from netopt.data.frames import make_case  # noqa: E402
 
 MIP_GAP = 1e-4
+DEFAULT_INSTANCES = "cap71,cap104,50x500:5,100x1000:3,100x1000:5,100x1000:10"
 
 
 def instance(n: int, m: int, ratio: float, seed: int = 0) -> dict:
@@ -54,6 +59,31 @@ def instance(n: int, m: int, ratio: float, seed: int = 0) -> dict:
     f = rng.uniform(0, 90, n) + rng.uniform(100, 110, n) * np.sqrt(s)
     c = 10.0 * np.hypot(x[:, None] - cx[None, :], y[:, None] - cy[None, :]) * d[None, :]
     return {"d": d, "s": s, "f": f, "c": c, "name": f"{n}x{m} r{ratio:g} seed {seed}"}
+
+
+def orlib_instance(name: str) -> dict:
+    """OR-Library capacitated warehouse location instance ``name`` (Beasley 1988, tests/data/orlib/cap)."""
+    if str(ROOT / "tests") not in sys.path:
+        sys.path.insert(0, str(ROOT / "tests"))
+    from orlib import DATA, read_cap
+
+    d = read_cap(DATA / "cap" / f"{name}.txt")
+    return {"d": d["demand"], "s": d["capacity"], "f": d["fixed_cost"], "c": d["cost"], "name": f"OR-Library {name}"}
+
+
+def parse_specs(text: str) -> list:
+    """``n x m : ratio`` entries (generated) and OR-Library names (``cap41``), comma-separated."""
+    specs: list = []
+    for part in (p.strip() for p in text.split(",")):
+        if not part:
+            continue
+        if part.startswith("cap"):
+            specs.append(part)
+            continue
+        size, ratio = part.split(":")
+        n, m = size.split("x")
+        specs.append((int(n), int(m), float(ratio)))
+    return specs
 
 
 def _trace(h: highspy.Highs, t0: float, trace: list) -> None:
@@ -187,10 +217,11 @@ def first_within(trace: list, target: float) -> float:
     return next((t for t, v in trace if v <= target), float("nan"))
 
 
-def run(specs: list[tuple[int, int, float]], time_limit: float, seed: int) -> list[dict]:
+def run(specs: list, time_limit: float, seed: int) -> list[dict]:
+    """Both models on every instance of ``specs`` (``parse_specs``), side by side."""
     rows = []
-    for n, m, ratio in specs:
-        inst = instance(n, m, ratio, seed)
+    for spec in specs:
+        inst = orlib_instance(spec) if isinstance(spec, str) else instance(*spec, seed)
         runs = [textbook(inst, time_limit), netopt_run(inst, time_limit)]
         best = max(r["bound"] for r in runs if np.isfinite(r["bound"]))
         for r in runs:
@@ -235,17 +266,16 @@ def markdown(rows: list[dict], time_limit: float) -> str:
 
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    ap.add_argument("--instances", default="50x500:5,100x1000:3", help="n x m : capacity ratio, comma-separated")
+    ap.add_argument(
+        "--instances",
+        default=DEFAULT_INSTANCES,
+        help="n x m : capacity ratio, or an OR-Library name (cap41 … cap134), comma-separated",
+    )
     ap.add_argument("--time-limit", type=float, default=120.0)
     ap.add_argument("--seed", type=int, default=0)
     ap.add_argument("--out", default=str(ROOT / "benchmarks" / "cfl_results.md"))
     a = ap.parse_args(argv)
-    specs = []
-    for part in a.instances.split(","):
-        size, ratio = part.split(":")
-        n, m = size.split("x")
-        specs.append((int(n), int(m), float(ratio)))
-    md = markdown(run(specs, a.time_limit, a.seed), a.time_limit)
+    md = markdown(run(parse_specs(a.instances), a.time_limit, a.seed), a.time_limit)
     print(md)
     out = Path(a.out)
     fd, tmp = tempfile.mkstemp(prefix=f".{out.name}.", dir=str(out.parent))

@@ -739,6 +739,13 @@ def main(argv: list[str] | None = None) -> int:
         action="store_true",
         help="switch on the safety-stock curve (inventory.safety_stock) in the generated cases",
     )
+    ap.add_argument(
+        "--cfl",
+        default=None,
+        help="capacitated facility-location instances for benchmarks/cfl.py (netopt against the textbook "
+        "model side by side; default: cfl.DEFAULT_INSTANCES; 'none' skips)",
+    )
+    ap.add_argument("--cfl-time-limit", type=float, default=120.0, help="time limit per cfl solve, s")
     ap.add_argument("--json", default=None, help="also write the raw measurements as JSON here")
     ap.add_argument(
         "--from-json", default=None, help="do not solve: render the report again from a --json file of an earlier run"
@@ -835,9 +842,19 @@ def main(argv: list[str] | None = None) -> int:
             ],
             log,
         )
+    cfl_md = ""
+    if (args.cfl or "").lower() != "none":
+        from benchmarks import cfl
+
+        log(f"[{datetime.now():%H:%M:%S}] capacitated facility location: netopt and the textbook model ...")
+        specs = cfl.parse_specs(args.cfl or cfl.DEFAULT_INSTANCES)
+        cfl_md = cfl.markdown(cfl.run(specs, args.cfl_time_limit, args.seed), args.cfl_time_limit)
     machine["load_end"] = os.getloadavg()
     finished = datetime.now(timezone.utc).strftime("%Y-%m-%d %H:%M UTC")
     text, md = report(results, resolves, machine, command, started, finished, args.time_limit, args.safety_stock)
+    if cfl_md:
+        text += "\n" + cfl_md
+        md += "\n" + cfl_md
     print(text)
     _write_atomic(Path(args.out), md)
     if args.json:

@@ -57,25 +57,35 @@ SOLVER_OPTIONS.add_argument("--no-report", action="store_true", help="skip the H
 
 
 def _progress_printer(args):
-    """Progress lines: one per stage, and MIP progress at most every 5 s."""
+    """Progress lines: one per stage, and one live line for the search (elapsed, best plan, bound, gap, and
+    which method found the plan), rewritten in place on a terminal and printed every 5 s otherwise."""
     if getattr(args, "quiet", False) or getattr(args, "json", False):
         return None
     t0 = time.perf_counter()
-    last = [0.0]
+    live = sys.stdout.isatty()
+    last = [-math.inf]
+    pending = [False]  # a live line is showing and needs a line break before the next stage line
 
     def progress(stage, info=None):
         now = time.perf_counter() - t0
         info = info or {}
         if stage == "progress":
-            if now - last[0] < 5.0:
+            if now - last[0] < (0.5 if live else 5.0):
                 return
             last[0] = now
             gap = info.get("gap")
-            print(
-                f"[{now:7.1f}s]   searching: best {money_text(info.get('objective'))}, bound {money_text(info.get('bound'))}"
-                + (f", gap {gap:.3%}" if isinstance(gap, float) and math.isfinite(gap) else ""),
-                flush=True,
+            bound = info.get("bound")
+            line = (
+                f"[{now:7.1f}s]   searching: best plan {money_text(info.get('objective'))}"
+                + (f" ({info['method']})" if info.get("method") else "")
+                + (f", bound {money_text(bound)}" if isinstance(bound, float) and math.isfinite(bound) else "")
+                + (f", gap {gap:.3%}" if isinstance(gap, float) and math.isfinite(gap) else "")
             )
+            if live:
+                print("\r" + line.ljust(100), end="", flush=True)
+                pending[0] = True
+            else:
+                print(line, flush=True)
             return
         text = {
             "lanes": lambda: f"lanes: {info.get('lanes', 0):,} lanes generated and read",
@@ -84,6 +94,7 @@ def _progress_printer(args):
                 f"solving: {info.get('columns', 0):,} variables ({info.get('binaries', 0):,} yes/no), "
                 f"{info.get('rows', 0):,} constraints"
             ),
+            "plan search": lambda: str(info.get("message", "")),
             "verified": lambda: (
                 f"verification: {'passed' if info.get('passed') else 'FAILED'} "
                 f"(largest violation {info.get('largest', 0):.2e})"
@@ -91,6 +102,9 @@ def _progress_printer(args):
             "diagnose": lambda: "no feasible plan: re-solving with penalised slack to find what cannot be met",
         }.get(stage)
         if text:
+            if pending[0]:
+                print(flush=True)
+                pending[0] = False
             print(f"[{now:7.1f}s] {text()}", flush=True)
 
     return progress
@@ -114,11 +128,14 @@ def add_solve(sub) -> None:
 
 
 def cmd_solve(args: argparse.Namespace) -> int:
+    t0 = time.perf_counter()
     case = load_case(args.case)
+    load_s = time.perf_counter() - t0
     print_warnings(args, case)
     r = solve(
         case, time_limit=args.time_limit, mip_gap=args.gap, threads=args.threads, progress=_progress_printer(args)
     )
+    r.timings = {"load": load_s, **r.timings}  # every stage timed in summary.json, reading the case first
     with atomic_folder(args.out) as tmp:
         write_result_files(r, tmp)
         if r.has_solution and not args.no_report:

@@ -18,8 +18,15 @@ model, whatever its echelons, products, modes and rules:
         add d:   Δ ≈  c_d − max_{z} Σ_{a ∈ out(d) to customers} (λ_d − r_a) z_a,  Σ z_a ≤ U_d, 0 ≤ z_a ≤ q_a
         swap:    Δ ≈ Δ_drop(i) + Δ_add(k)
 
-  and only the best-ranked moves are priced exactly (their plan re-solved with ε = 0 for
-  chosen-closed DCs is the plan returned; the ranking program's cost differs by O(ε)).
+  Moves are priced exactly in rank order (``PRICED_PER_ROUND`` a round, more when none of them
+  improves) and the first that lowers the cost is taken; the neighbourhood is every drop and add
+  and the ``SWAPS_PRICED`` best-ranked swaps.  The returned plan is the best one re-solved with
+  ε = 0 (the ranking program's cost differs from it by O(ε)).
+
+Start: the tight relaxation (the LP with the strong linking rows added as they are violated,
+Kelley's cutting-plane loop over a known family; stopped at tailing-off), rounded up at the
+``ROUNDING`` thresholds, the cheapest feasible rounding; or the openings of a plan the caller
+hands over.
 
 Rules that involve only the openings (open-count limits, one size per DC, forced-open sizes)
 are checked on y directly; the search never accepts a plan breaking them.  It runs only when the
@@ -53,6 +60,9 @@ from netopt.engine.highs import HighsModel, SolveInfo, pass_matrices
 SLIVER = 1e-6
 FEAS_TOL = 1e-7
 PRICED_PER_ROUND = 6
+ROUNDING = (1e-6, 0.1, 0.3, 0.5)  # thresholds at which the relaxation's openings are rounded up
+SWAPS_PRICED = 24  # best-ranked swaps in the neighbourhood (all drops and adds are in it)
+TAIL_OFF = 1e-5  # the relaxation stops adding linking rows once a round raises its bound by less (relative)
 SEARCH_PLAN_KEPT = (
     "the plan search's plan kept"  # moves priced exactly before the ranking is refreshed, when none improves
 )
@@ -134,11 +144,12 @@ class _Program:
 
         Returns (bound, solution, linking row added (per row of ``link``), complete, rounds).  Every round's optimum is a valid lower
         bound of the MIP (a relaxation of it); once no linking row is violated it is the bound of the
-        full tight relaxation.  Stops early (still a bound) at ``deadline``.
+        full tight relaxation.  Stops early (still a bound) at ``deadline`` or when a round raises the bound by
+        less than ``TAIL_OFF`` (the usual tailing-off of a cutting-plane loop).
         """
         h = pass_matrices(self.cost, self.kept, self.row_lo, self.row_hi, self.col_lo, self.col_hi, offset=self.offset)
         used = np.zeros(self.link.shape[0], dtype=bool)
-        rounds, bound, x = 0, -np.inf, None
+        rounds, bound, x, last = 0, -np.inf, None, -np.inf
         while True:
             h.run()
             rounds += 1
@@ -149,8 +160,9 @@ class _Program:
             viol = (self.link @ x > 1e-6) & ~used
             if not viol.any():
                 return bound, x, used, True, rounds
-            if time.perf_counter() >= deadline:
+            if time.perf_counter() >= deadline or bound - last < TAIL_OFF * max(1.0, abs(bound)):
                 return bound, x, used, False, rounds
+            last = bound
             sub = self.link[viol].tocsr()
             k = sub.shape[0]
             h.addRows(
@@ -199,7 +211,11 @@ def search_plan(
         return SearchOutcome(None, float("inf"), note="no DC decision to search")
     integer = np.flatnonzero(hm.integrality)
     if len(np.setdiff1d(integer, hm.col_of["open"])):
-        return SearchOutcome(None, float("inf"), note="skipped: the model has integer decisions besides the DCs")
+        return SearchOutcome(
+            None,
+            float("inf"),
+            note="skipped (the model has integer decisions besides the DCs; the MIP search alone decides)",
+        )
     prog = _Program(hm)
     net = hm.builder.net
     opts = net.options.reset_index(drop=True)
@@ -252,6 +268,7 @@ def search_plan(
     must_open = np.zeros(n_dc, dtype=bool)
     must_open[dc_codes[o_lo > 0]] = True
     relax_bound, relaxation = -np.inf, {}
+    y_relaxed = None
     if start_open is None:
         relax_bound, xr, used, complete, rounds = prog.strong_relaxation(t0 + time_budget / 2)
         relaxation = {
@@ -263,7 +280,8 @@ def search_plan(
             "unneeded_rows": prog.link_rows[~used],
         }
         if xr is not None:
-            start_open = (xr[np.maximum(oc, 0)] > 1e-6) & (oc >= 0)
+            y_relaxed = np.where(oc >= 0, xr[np.maximum(oc, 0)], 0.0)
+            start_open = y_relaxed > ROUNDING[0]
     if start_open is not None:
         s = np.asarray(start_open, float) > 0.5
         open_dc = np.zeros(n_dc, dtype=bool)
@@ -296,7 +314,19 @@ def search_plan(
             relaxation=relaxation,
         )
 
+    def rules_ok(mask: np.ndarray) -> float:
+        return prog.rule_violation(option_of(mask, choice))
+
     cost, sol = evaluate(open_dc)
+    if y_relaxed is not None:
+        # Round the relaxation at a few thresholds; start from the cheapest feasible rounding.
+        for tau in ROUNDING[1:]:
+            m = np.zeros(n_dc, dtype=bool)
+            m[dc_codes[y_relaxed > tau]] = True
+            m = (m & can_open) | must_open
+            c2, s2 = evaluate(m)
+            if s2 is not None and (sol is None or (rules_ok(m) > FEAS_TOL, c2) < (rules_ok(open_dc) > FEAS_TOL, cost)):
+                open_dc, cost, sol = m, c2, s2
     if sol is None:
         return fail("no feasible start with the DCs open")
     moves = {"drop": 0, "add": 0, "swap": 0}
@@ -339,9 +369,6 @@ def search_plan(
         add = c_dc - saving
         return drop, add
 
-    def rules_ok(mask: np.ndarray) -> float:
-        return prog.rule_violation(option_of(mask, choice))
-
     # Reach the rules on the openings (e.g. an open-count limit) from the start, best-ranked first.
     violation = rules_ok(open_dc)
     while violation > FEAS_TOL and time.perf_counter() < deadline:
@@ -378,7 +405,7 @@ def search_plan(
         opn = np.flatnonzero(can_open & ~open_dc)
         if len(shut) and len(opn):
             pair = drop_est[shut][:, None] + add_est[opn][None, :]
-            top = np.argsort(pair, axis=None)[: 4 * priced_k]
+            top = np.argsort(pair, axis=None)[:SWAPS_PRICED]
             for t in top:
                 i, k = divmod(int(t), len(opn))
                 cands.append((float(pair[i, k]), "swap", np.array([shut[i], opn[k]])))
@@ -399,7 +426,8 @@ def search_plan(
                 moves[kind] += 1
                 improved = True
                 if progress is not None:
-                    progress({"elapsed": time.perf_counter() - t0, "objective": cost, "method": "plan search"})
+                    gap = (cost - relax_bound) / max(1.0, abs(cost)) if np.isfinite(relax_bound) else np.inf
+                    progress({"objective": cost, "bound": relax_bound, "gap": max(gap, 0.0), "method": "plan search"})
                 break
         if not improved:
             if tried < priced_k or priced_k >= len(cands):

@@ -92,12 +92,24 @@ def solve(
     say("solve", {"columns": size["columns"], "rows": size["rows"], "binaries": size["binaries"]})
 
     cb = None
+    search = None
     if progress is not None:
 
         def cb(d):
+            # The MIP's own progress, with the plan search's plan and bound folded in (both are of this model).
+            d = dict(d)
+            if search is not None and "method" not in d:
+                d["bound"] = max(d.get("bound", -np.inf), search.bound)
+                found = search.values is not None and d.get("objective", np.inf) >= search.cost - 1e-9 * abs(
+                    search.cost
+                )
+                d["method"] = "plan search" if found else "MIP search"
+                obj = d.get("objective", np.inf)
+                if np.isfinite(obj) and np.isfinite(d["bound"]):
+                    d["gap"] = max(0.0, (obj - d["bound"]) / max(1.0, abs(obj)))
+            d.setdefault("method", "MIP search")
             say("progress", d)
 
-    search = None
     if b.empty_infeasible:
         info = SolveInfo(
             "infeasible",
