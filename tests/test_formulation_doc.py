@@ -134,10 +134,12 @@ def _literal_names(call: str) -> set[str]:
 
 
 def _row_families(b) -> set[str]:
-    """Row families of a built model: Builder bookkeeping and the Pyomo constraints (one family each)."""
+    """Row families of a built model: Builder bookkeeping, the Pyomo constraints (one family each) and
+    the families handed over as matrices (``Builder.matrix_rows``, no Pyomo object)."""
     pyomo_names = {c.name for c in b.model.component_objects(pyo.Constraint)}
-    assert pyomo_names == set(b.row_labels)
-    return pyomo_names
+    assert not pyomo_names & set(b.matrix_rows)
+    assert pyomo_names | set(b.matrix_rows) == set(b.row_labels)
+    return pyomo_names | set(b.matrix_rows)
 
 
 def test_page_matches_docstrings():

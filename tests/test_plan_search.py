@@ -106,10 +106,10 @@ def _cfl_case(d, s, f, unit):
     return make_case(tables, {"inventory": {"safety_stock": False}})
 
 
-def _enumerated_optimum(d, s, f, unit) -> float:
-    """min over every opening set of fixed cost + its transportation LP (scipy linprog, HiGHS inside scipy)."""
+def _enumerated_costs(d, s, f, unit) -> dict[tuple[int, ...], float]:
+    """Cost of every feasible opening set: fixed cost + its transportation LP (scipy linprog)."""
     n, m = unit.shape
-    best = np.inf
+    costs = {}
     for k in range(1, n + 1):
         for S in itertools.combinations(range(n), k):
             S = list(S)
@@ -120,8 +120,8 @@ def _enumerated_optimum(d, s, f, unit) -> float:
             A_ub = np.kron(np.eye(len(S)), np.ones(m))
             r = linprog(unit[S].ravel(), A_ub=A_ub, b_ub=s[S], A_eq=A_eq, b_eq=d, bounds=(0, None))
             if r.status == 0:
-                best = min(best, f[S].sum() + r.fun)
-    return best
+                costs[tuple(S)] = f[S].sum() + r.fun
+    return costs
 
 
 @pytest.mark.parametrize("seed", range(4))
@@ -129,13 +129,20 @@ def test_search_bound_and_solve_against_enumeration(seed):
     # Exhaustive enumeration (scipy linprog per opening set) gives the optimum; the search's plan is
     # never below it, the relaxation never above it, and solve() reaches it.
     d, s, f, unit = _small_cfl(seed)
-    opt = _enumerated_optimum(d, s, f, unit)
+    costs = _enumerated_costs(d, s, f, unit)
+    opt = min(costs.values())
     case = _cfl_case(d, s, f, unit)
     _, _, _, hm = _compiled(case)
     out = search_plan(hm, 30.0)
     assert out.values is not None
     assert out.cost >= opt - 1e-6 * opt
     assert out.bound <= opt + 1e-6 * opt
+    # Reduced-cost fixing: every opening set that opens a DC fixed closed (or closes one fixed open)
+    # costs more than the search's plan, by enumeration.
+    for k in out.fixed_closed:
+        assert min(c for S, c in costs.items() if k in S) > out.cost
+    for k in out.fixed_open:
+        assert min(c for S, c in costs.items() if k not in S) > out.cost
     res = solve(case, mip_gap=1e-9)
     assert res.objective == pytest.approx(opt, rel=1e-7)
 

@@ -79,7 +79,8 @@ _table(
 _table(
     Table(
         "suppliers",
-        "A supplier's offer of one product or material (one row per supplier and product).",
+        "A supplier's offer of one product or material (one row per supplier and product; optional: a "
+        "network without suppliers leaves the file out).",
         (
             _c("supplier", "str", "", True, None, "Supplier site code"),
             _c("product", "str", "", True, None, "Product or material offered"),
@@ -128,6 +129,7 @@ _table(
             ),
         ),
         key=("supplier", "product"),
+        required=False,
         references=(Reference("product", "products", "product"),),
     )
 )

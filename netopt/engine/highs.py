@@ -241,6 +241,46 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
     if len(c) < n:
         c = np.concatenate([c, np.zeros(n - len(c))])
     offset = float(info.c_offset[0]) if len(info.c_offset) else 0.0
+    row_index: dict[str, np.ndarray] = {}
+    if b.matrix_rows:
+        # Families kept as index arrays: appended below the Pyomo rows; a variable only they use
+        # becomes a new column (the compiler leaves out variables no Pyomo row or cost mentions).
+        extra = sorted(
+            {
+                (t.block, int(i))
+                for mr in b.matrix_rows.values()
+                for t in mr.terms
+                for i in t.idx[col_of[t.block][t.idx] < 0]
+            }
+        )
+        for name, i in extra:
+            v = b.vars[name][i]
+            col_of[name][i] = n
+            lb = np.append(lb, -INF if v.lb is None else v.lb)
+            ub = np.append(ub, INF if v.ub is None else v.ub)
+            integ = np.append(integ, np.uint8(1 if v.is_integer() else 0))
+            c = np.append(c, 0.0)
+            n += 1
+        blocks, los, his = [], [], []
+        start = A.shape[0]
+        for name, mr in b.matrix_rows.items():
+            r = np.concatenate([t.row for t in mr.terms]) if mr.terms else np.zeros(0, int)
+            k = np.concatenate([col_of[t.block][t.idx] for t in mr.terms]) if mr.terms else np.zeros(0, int)
+            v = np.concatenate([t.coef for t in mr.terms]).astype(float) if mr.terms else np.zeros(0)
+            used = np.bincount(r, minlength=mr.n) > 0  # rows without a term are left out, as Pyomo skips them
+            local = np.cumsum(used) - 1
+            m_used = int(used.sum())
+            blocks.append(sparse.csr_matrix((v, (local[r], k)), shape=(m_used, n)))
+            s_ = mr.sense[used]
+            los.append(np.where(s_ == "<=", -INF, mr.rhs[used]))
+            his.append(np.where(s_ == ">=", INF, mr.rhs[used]))
+            row_index[name] = np.where(used, start + local, -1)
+            start += m_used
+        top = A.tocsr()
+        top.resize((top.shape[0], n))  # the new columns have no entry in the Pyomo rows
+        A = sparse.vstack([top, *blocks]).tocsc()
+        row_lo = np.concatenate([row_lo, *los])
+        row_hi = np.concatenate([row_hi, *his])
 
     h = pass_matrices(c, A, row_lo, row_hi, lb, ub, integrality=integ, offset=offset, options=options)
     t2 = time.perf_counter()
@@ -254,6 +294,7 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
         objective_offset=offset,
         compile_seconds=t1 - t0,
         pass_seconds=t2 - t1,
+        row_index=row_index,
     )
 
 

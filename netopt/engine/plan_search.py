@@ -53,16 +53,15 @@ from dataclasses import dataclass, field
 import highspy
 import numpy as np
 import pandas as pd
-from scipy import sparse
 
-from netopt.engine.highs import HighsModel, SolveInfo, pass_matrices
+from netopt.engine.highs import HighsModel, SolveInfo
+from netopt.engine.openings_lp import OpeningsProgram, reduced_cost_fixing
 
 SLIVER = 1e-6
 FEAS_TOL = 1e-7
 PRICED_PER_ROUND = 6
 ROUNDING = (1e-6, 0.1, 0.3, 0.5)  # thresholds at which the relaxation's openings are rounded up
 SWAPS_PRICED = 24  # best-ranked swaps in the neighbourhood (all drops and adds are in it)
-TAIL_OFF = 1e-5  # the relaxation stops adding linking rows once a round raises its bound by less (relative)
 SEARCH_PLAN_KEPT = (
     "the plan search's plan kept"  # moves priced exactly before the ranking is refreshed, when none improves
 )
@@ -81,6 +80,12 @@ class SearchOutcome:
     local_optimum: bool = False
     note: str = ""
     bound: float = -np.inf  # lower bound from the strong relaxation (−inf: not computed)
+    fixed_closed: np.ndarray = field(
+        default_factory=lambda: np.zeros(0, dtype=np.int64)
+    )  # options no better plan opens
+    fixed_open: np.ndarray = field(
+        default_factory=lambda: np.zeros(0, dtype=np.int64)
+    )  # options every better plan keeps
     relaxation: dict = field(default_factory=dict)  # seconds, linking rows added, rounds
 
     def summary(self) -> str:
@@ -89,110 +94,13 @@ class SearchOutcome:
             return f"plan search: {self.note}"
         made = ", ".join(f"{k} {v}" for k, v in self.moves.items() if v)
         end = "local optimum" if self.local_optimum else "time budget reached"
+        fixed = len(self.fixed_closed) + len(self.fixed_open)
         return (
             f"plan search: {self.cost:,.2f} with {self.open_count} DC(s) open after {self.evaluations} priced plans "
             f"({made or 'no moves'}; {end}) in {self.seconds:.1f} s"
+            + (f"; tight relaxation bound {self.bound:,.2f}" if np.isfinite(self.bound) else "")
+            + (f"; {fixed} DC option(s) fixed by reduced cost" if fixed else "")
         )
-
-
-class _Program:
-    """The compiled model as a linear program with the openings fixed, held in its own HiGHS."""
-
-    def __init__(self, hm: HighsModel):
-        lp = hm.highs.getLp()
-        n, m = int(lp.num_col_), int(lp.num_row_)
-        A = sparse.csc_matrix(
-            (np.asarray(lp.a_matrix_.value_), np.asarray(lp.a_matrix_.index_), np.asarray(lp.a_matrix_.start_)),
-            shape=(m, n),
-        )
-        self.open_cols = hm.col_of["open"]
-        is_open = np.zeros(n, dtype=bool)
-        is_open[self.open_cols[self.open_cols >= 0]] = True
-        R = A.tocsr()
-        nnz_other = np.asarray(R[:, ~is_open].getnnz(axis=1)).ravel() if n else np.zeros(m, int)
-        only_open = (nnz_other == 0) & (np.diff(R.indptr) > 0)
-        drop = np.zeros(m, dtype=bool)
-        link = hm.rows_of("dc_customer_link")
-        drop[link[link >= 0]] = True
-        keep = np.flatnonzero(~drop)
-        self.link = R[drop]  # the strong linking rows left out (≤ 0 each), for the relaxation
-        self.link_rows = np.flatnonzero(drop)  # their rows in the compiled model
-        self.kept = R[keep]
-        self.new_row = -np.ones(m, dtype=np.int64)
-        self.new_row[keep] = np.arange(len(keep))
-        row_lo, row_hi = np.asarray(lp.row_lower_, float), np.asarray(lp.row_upper_, float)
-        # Rules on the openings alone, checked on y: lo ≤ G y ≤ hi.
-        self.G = R[only_open][:, self.open_cols].tocsr()
-        self.g_lo, self.g_hi = row_lo[only_open], row_hi[only_open]
-        self.cost = np.asarray(lp.col_cost_, float)
-        self.col_lo, self.col_hi = np.asarray(lp.col_lower_, float), np.asarray(lp.col_upper_, float)
-        self.row_lo, self.row_hi, self.offset = row_lo[keep], row_hi[keep], float(lp.offset_)
-        self.h = pass_matrices(
-            self.cost, self.kept, self.row_lo, self.row_hi, self.col_lo, self.col_hi, offset=self.offset
-        )
-        # The rules on the openings alone are checked on y (rule_violation): free rows here, so a start
-        # that breaks them (every DC open against an open-count limit) can still be priced.
-        free = self.new_row[np.flatnonzero(only_open)].astype(np.int32)
-        if len(free):
-            k = len(free)
-            self.h.changeRowsBounds(k, free, np.full(k, -highspy.kHighsInf), np.full(k, highspy.kHighsInf))  # type: ignore[attr-defined]
-        self.h.setOptionValue("presolve", "off")
-        self.evaluations = 0
-
-    def strong_relaxation(self, deadline: float) -> tuple[float, np.ndarray | None, np.ndarray, bool, int]:
-        """The LP relaxation of the whole model, strong linking rows added as they are violated.
-
-        Returns (bound, solution, linking row added (per row of ``link``), complete, rounds).  Every round's optimum is a valid lower
-        bound of the MIP (a relaxation of it); once no linking row is violated it is the bound of the
-        full tight relaxation.  Stops early (still a bound) at ``deadline`` or when a round raises the bound by
-        less than ``TAIL_OFF`` (the usual tailing-off of a cutting-plane loop).
-        """
-        h = pass_matrices(self.cost, self.kept, self.row_lo, self.row_hi, self.col_lo, self.col_hi, offset=self.offset)
-        used = np.zeros(self.link.shape[0], dtype=bool)
-        rounds, bound, x, last = 0, -np.inf, None, -np.inf
-        while True:
-            h.run()
-            rounds += 1
-            if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
-                return -np.inf, None, used, False, rounds
-            bound = float(h.getInfo().objective_function_value)
-            x = np.asarray(h.getSolution().col_value, float)
-            viol = (self.link @ x > 1e-6) & ~used
-            if not viol.any():
-                return bound, x, used, True, rounds
-            if time.perf_counter() >= deadline or bound - last < TAIL_OFF * max(1.0, abs(bound)):
-                return bound, x, used, False, rounds
-            last = bound
-            sub = self.link[viol].tocsr()
-            k = sub.shape[0]
-            h.addRows(
-                k,
-                np.full(k, -highspy.kHighsInf),
-                np.zeros(k),
-                sub.nnz,
-                sub.indptr[:-1].astype(np.int32),
-                sub.indices.astype(np.int32),
-                sub.data.astype(float),
-            )
-            used |= viol
-
-    def rule_violation(self, y: np.ndarray) -> float:
-        """How far y breaks the rules on the openings alone (0: none)."""
-        if self.G.shape[0] == 0:
-            return 0.0
-        g = self.G @ y
-        return float(np.maximum(self.g_lo - g, 0).sum() + np.maximum(g - self.g_hi, 0).sum())
-
-    def price(self, y_bounds: np.ndarray) -> tuple[float, highspy.HighsSolution | None]:
-        """Cost of the program with the option columns fixed at ``y_bounds`` (inf: infeasible)."""
-        cols = self.open_cols[self.open_cols >= 0].astype(np.int32)
-        v = np.asarray(y_bounds, float)[self.open_cols >= 0]
-        self.h.changeColsBounds(len(cols), cols, v, v)
-        self.h.run()
-        self.evaluations += 1
-        if self.h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
-            return float("inf"), None
-        return float(self.h.getInfo().objective_function_value), self.h.getSolution()
 
 
 def search_plan(
@@ -216,7 +124,7 @@ def search_plan(
             float("inf"),
             note="skipped (the model has integer decisions besides the DCs; the MIP search alone decides)",
         )
-    prog = _Program(hm)
+    prog = OpeningsProgram(hm)
     net = hm.builder.net
     opts = net.options.reset_index(drop=True)
     oc = hm.col_of["open"]
@@ -449,6 +357,7 @@ def search_plan(
         block[ok_c] = xv[cols[ok_c]]
         values[name] = block
     values["open"] = np.round(values["open"])
+    fix_closed, fix_open = reduced_cost_fixing(prog, oc, y_relaxed, relax_bound, final, o_lo, o_hi)
     return SearchOutcome(
         values,
         final,
@@ -459,6 +368,8 @@ def search_plan(
         local_optimum=local_optimum,
         bound=relax_bound,
         relaxation=relaxation,
+        fixed_closed=fix_closed,
+        fixed_open=fix_open,
     )
 
 

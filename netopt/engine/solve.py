@@ -134,6 +134,14 @@ def solve(
                 size["linking_rows_needed"] = search.relaxation["linking_rows_needed"]
                 if bool(sset["lazy_linking_rows"]):
                     hm.free_rows(search.relaxation["unneeded_rows"])
+            if search.values is not None:  # reduced-cost fixing: safe only with the search's plan as incumbent
+                hm.set_bounds(
+                    "open", search.fixed_closed, np.zeros(len(search.fixed_closed)), np.zeros(len(search.fixed_closed))
+                )
+                hm.set_bounds(
+                    "open", search.fixed_open, np.ones(len(search.fixed_open)), np.ones(len(search.fixed_open))
+                )
+                size["dc_options_fixed"] = len(search.fixed_closed) + len(search.fixed_open)
         if search is not None and search.values is not None:
             hm.set_plan_start(search.values)
         elif start_plan is not None:

@@ -110,6 +110,7 @@ def add(b: Builder, formulation: str = "tight", big_m_factor: float = 1.0) -> No
                 "<=",
                 0.0,
                 elastic=False,
+                matrix=True,
             )
 
     # Capacity cover: the open DCs' capacity must carry the demand only DCs can deliver.

@@ -29,6 +29,17 @@ class Term:
 
 
 @dataclass
+class MatrixRows:
+    """A row family kept as index arrays and handed to HiGHS as a matrix (no Pyomo objects):
+    ``Σ_k coef[k] · block_k[idx[k]]`` over the entries of row ``row[k]``, (sense) ``rhs``."""
+
+    n: int
+    terms: list[Term]
+    sense: np.ndarray  # "<=", "==", ">=" per row
+    rhs: np.ndarray
+
+
+@dataclass
 class Builder:
     """Holds the Pyomo model and the bookkeeping that maps it back to tables."""
 
@@ -44,6 +55,7 @@ class Builder:
     relaxable: dict[str, bool] = field(default_factory=dict)  # row family → relaxed in the diagnosis
     empty_infeasible: list[tuple[str, int]] = field(default_factory=list)
     dc_big_m: float = float("inf")  # units/yr standing in for unlimited DC capacity
+    matrix_rows: dict[str, MatrixRows] = field(default_factory=dict)  # families passed as matrices, not Pyomo
 
     # ------------------------------------------------------------------ variables
     def add_vars(self, name: str, labels: pd.DataFrame, lb=0.0, ub=None, binary: bool = False) -> list:
@@ -69,7 +81,14 @@ class Builder:
 
     # ------------------------------------------------------------------ rows
     def add_rows(
-        self, name: str, labels: pd.DataFrame, terms: list[Term], sense, rhs, elastic: bool | None = None
+        self,
+        name: str,
+        labels: pd.DataFrame,
+        terms: list[Term],
+        sense,
+        rhs,
+        elastic: bool | None = None,
+        matrix: bool = False,
     ) -> None:
         """Add one constraint per row of ``labels``: Σ terms (sense) rhs.
 
@@ -77,6 +96,9 @@ class Builder:
         ``elastic=False`` marks a family the infeasibility diagnosis never relaxes (definitions
         and linking rows); every other family gets penalised slack there
         (``netopt.engine.relief``, added to the compiled model in HiGHS).
+        ``matrix=True`` keeps the family as index arrays (:class:`MatrixRows`), appended to the
+        compiled matrix by ``netopt.engine.highs.compile_model`` without a Pyomo object per row: for
+        the largest, simplest families (the strong linking rows).
         """
         n = len(labels)
         if n == 0:
@@ -85,6 +107,15 @@ class Builder:
         senses = np.broadcast_to(np.asarray(sense, dtype=object), (n,))
         terms = [t for t in terms if len(t.idx)]
         self.relaxable[name] = True if elastic is None else bool(elastic)
+        if matrix:
+            count = np.bincount(np.concatenate([t.row for t in terms]), minlength=n) if terms else np.zeros(n, int)
+            for r in np.flatnonzero(count == 0).tolist():
+                s, v = senses[r], rhs[r]
+                if (s == "<=" and v < -1e-9) or (s == ">=" and v > 1e-9) or (s == "==" and abs(v) > 1e-9):
+                    self.empty_infeasible.append((name, r))
+            self.matrix_rows[name] = MatrixRows(n, terms, np.asarray(senses), rhs)
+            self.row_labels[name] = labels.reset_index(drop=True)
+            return
         row = np.concatenate([t.row for t in terms]) if terms else np.zeros(0, int)
         coef = np.concatenate([t.coef for t in terms]).astype(float) if terms else np.zeros(0)
         vs: list = []
