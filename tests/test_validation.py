@@ -799,3 +799,29 @@ def test_broken_copy_of_the_demo_case_reports_every_error_and_exits_2(tmp_path):
     assert f"row {len(dem)}, column 'customer'" in p.stderr and "C_NOWHERE" in p.stderr
     assert "dcs, row 2, column 'lat'" in p.stderr or ("dcs" in p.stderr and "column 'lat'" in p.stderr)
     assert p.stderr.count("ERROR") >= 3
+
+
+@pytest.mark.parametrize(
+    "table,column,cells",
+    [
+        ("dcs", "dc", [" D1", "D2 ", "\ufeffD3"]),
+        ("dcs", "status", ["Existing", "candidate", ""]),
+        ("dcs", "status", ["existing", "closed-ish"]),
+        ("dcs", "dc", ["D1", ""]),
+        ("dcs", "dc", ["D1", "D\x072"]),
+        ("products", "kind", ["MATERIAL", "finished", " material "]),
+    ],
+)
+def test_whole_column_text_typing_equals_cell_by_cell(monkeypatch, table, column, cells):
+    # The one-pass text typing gives exactly what the cell-by-cell path gives (values and dtype), and
+    # hands every column with a problem to that path so each problem is worded (common practice, no source).
+    import netopt.data.coerce as coerce
+    from netopt.data.schema import TABLES
+
+    col = TABLES[table].column(column)
+    series = pd.Series(cells, index=range(2, 2 + len(cells)), dtype=object)
+    fast, fast_problems = coerce.coerce_column(table, col, series)
+    monkeypatch.setattr(coerce, "_plain_text_column", lambda c, s: None)
+    slow, slow_problems = coerce.coerce_column(table, col, series)
+    assert fast.equals(slow) and fast.dtype == slow.dtype
+    assert [p.message for p in fast_problems] == [p.message for p in slow_problems]

@@ -79,6 +79,28 @@ def _plain_float_column(col: Column, series: pd.Series) -> pd.Series | None:
     return pd.Series(np.where(blank, default, v), index=series.index, dtype=float)
 
 
+def _plain_text_column(col: Column, series: pd.Series) -> pd.Series | None:
+    """A text column typed in one pass when no cell needs a word of its own (no blank in a required
+    column, no control character, every value among the declared choices); None otherwise (the
+    cell-by-cell path then words each problem).  Same result as that path: trimmed text, choices in
+    their declared spelling, blanks as the default."""
+    if col.type != "str" or series.dtype != object or not series.map(type).eq(str).all():
+        return None
+    s = series
+    # One regex pass: a cell to trim, a byte-order mark or a control character needs the cell-by-cell path.
+    if s.str.contains(r"^\s|\s$|\ufeff|[\x00-\x1f\x7f]", regex=True).any():
+        return None
+    blank = s.eq("")
+    if blank.any() and col.required:
+        return None
+    if col.choices is not None:
+        spelled = s.str.lower().map({c.lower(): c for c in col.choices})
+        if spelled[~blank].isna().any():
+            return None
+        s = s.where(blank, spelled)
+    return pd.Series(s.where(~blank, "" if col.default is None else col.default), index=series.index, dtype=str)
+
+
 def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series, list[Problem]]:
     """Parse one column by its declared type; blanks take the declared default.
 
@@ -88,6 +110,8 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
     Infinity is accepted only in columns whose default is "no limit" (inf).
     """
     fast = _plain_float_column(col, series)
+    if fast is None:
+        fast = _plain_text_column(col, series)
     if fast is not None:
         return fast, []
     problems: list[Problem] = []

@@ -229,9 +229,13 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
         for name, vs in b.vars.items()
     }
     n = len(cols)
-    lb = np.array([(-INF if v.lb is None else v.lb) for v in cols], dtype=float)
-    ub = np.array([(INF if v.ub is None else v.ub) for v in cols], dtype=float)
-    integ = np.array([1 if v.is_integer() else 0 for v in cols], dtype=np.uint8)
+    lb, ub, integ = np.zeros(n), np.full(n, INF), np.zeros(n, dtype=np.uint8)
+    for name, k in col_of.items():  # bounds as add_vars declared them, by whole blocks
+        lo, hi, binary = b.var_bounds[name]
+        m = k >= 0
+        lb[k[m]] = np.where(np.isneginf(lo), -INF, lo)[m]
+        ub[k[m]] = np.where(np.isposinf(hi), INF, hi)[m]
+        integ[k[m]] = 1 if binary else 0
     A = info.A.tocsc()
     rhs = np.asarray(info.rhs, dtype=float)
     sense = np.array([s for _, s in info.rows], dtype=int)
@@ -254,11 +258,11 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
             }
         )
         for name, i in extra:
-            v = b.vars[name][i]
+            lo, hi, binary = b.var_bounds[name]
             col_of[name][i] = n
-            lb = np.append(lb, -INF if v.lb is None else v.lb)
-            ub = np.append(ub, INF if v.ub is None else v.ub)
-            integ = np.append(integ, np.uint8(1 if v.is_integer() else 0))
+            lb = np.append(lb, -INF if np.isneginf(lo[i]) else lo[i])
+            ub = np.append(ub, INF if np.isposinf(hi[i]) else hi[i])
+            integ = np.append(integ, np.uint8(1 if binary else 0))
             c = np.append(c, 0.0)
             n += 1
         blocks, los, his = [], [], []

@@ -56,6 +56,7 @@ class Builder:
     empty_infeasible: list[tuple[str, int]] = field(default_factory=list)
     dc_big_m: float = float("inf")  # units/yr standing in for unlimited DC capacity
     matrix_rows: dict[str, MatrixRows] = field(default_factory=dict)  # families passed as matrices, not Pyomo
+    var_bounds: dict[str, tuple[np.ndarray, np.ndarray, bool]] = field(default_factory=dict)  # block → (lb, ub, binary)
 
     # ------------------------------------------------------------------ variables
     def add_vars(self, name: str, labels: pd.DataFrame, lb=0.0, ub=None, binary: bool = False) -> list:
@@ -74,6 +75,8 @@ class Builder:
                 v.setub(hi)
         self.vars[name] = vlist
         self.var_labels[name] = labels.reset_index(drop=True)
+        lo_b, hi_b = (np.maximum(lb_arr, 0.0), np.minimum(ub_arr, 1.0)) if binary else (lb_arr.copy(), ub_arr.copy())
+        self.var_bounds[name] = (lo_b, hi_b, bool(binary))  # as the domain bounds them (binary: within [0, 1])
         return vlist
 
     def has(self, name: str) -> bool:
@@ -204,10 +207,21 @@ def group_index(frame: pd.DataFrame, keys: list[str]) -> tuple[pd.DataFrame, np.
     """Group rows of ``frame`` by ``keys``: returns (one label row per group, group id per row)."""
     if frame.empty:
         return pd.DataFrame(columns=keys), np.zeros(0, dtype=int)
-    codes, uniques = pd.factorize(pd.MultiIndex.from_frame(frame[keys]), sort=True)
-    labels = uniques.to_frame(index=False)
-    labels.columns = keys
-    return labels, codes.astype(int)
+    # One sorted factorisation per key column, combined: the groups in lexicographic key order.
+    per = [pd.factorize(frame[k].to_numpy(), sort=True) for k in keys]
+    if any((c < 0).any() for c, _ in per):  # a missing key value: the general (slower) route
+        codes_, uniques = pd.factorize(pd.MultiIndex.from_frame(frame[keys]), sort=True)
+        labels = uniques.to_frame(index=False)
+        labels.columns = keys
+        return labels, codes_.astype(int)
+    combined = np.ravel_multi_index(tuple(c for c, _ in per), tuple(max(len(u), 1) for _, u in per))
+    first, codes = np.unique(combined, return_inverse=True)
+    parts = np.unravel_index(first, tuple(max(len(u), 1) for _, u in per))
+    labels = pd.DataFrame({k: np.asarray(u, dtype=object)[p] for k, (_, u), p in zip(keys, per, parts)})
+    for k in keys:
+        if frame[k].dtype != object:
+            labels[k] = labels[k].astype(frame[k].dtype)
+    return labels, codes.astype(int).ravel()
 
 
 def lookup(

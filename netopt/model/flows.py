@@ -64,7 +64,15 @@ def add(b: Builder) -> None:
         terms.append(Term("unmet", np.arange(len(dem)), np.ones(len(dem)), np.arange(len(dem))))
         pen = np.full(len(dem), b.elastic_penalty) if b.elastic else dem["penalty"].to_numpy(float)
         b.add_cost("unmet_penalty", Term("unmet", np.arange(len(dem)), pen))
-    b.add_rows("demand_met", dem[["customer", "product"]], terms, "==", dem["quantity"].to_numpy(float), elastic=False)
+    b.add_rows(
+        "demand_met",
+        dem[["customer", "product"]],
+        terms,
+        "==",
+        dem["quantity"].to_numpy(float),
+        elastic=False,
+        matrix=True,
+    )
 
     # DC balance per (dc, product): inflow − outflow = 0.
     into = arcs["destination_kind"].eq("dc").to_numpy()
@@ -87,6 +95,7 @@ def add(b: Builder) -> None:
         "==",
         0.0,
         elastic=False,
+        matrix=True,
     )
 
     # Plant output: Σ shipments of a product = units made.
