@@ -41,6 +41,7 @@ if str(ROOT) not in sys.path:
 MARK = "BENCHMARK-RESULT "
 MIP_GAP = 1e-4  # the medium target: proven optimal to 0.01 %
 THREADS = 1
+MIP_ONLY = "tight, MIP only"  # the tight model with the plan search off: HiGHS alone on the same model
 
 # Targets (reported as met / not met, never adjusted to the measurement).
 PIPELINE_RATIO_TARGET = 1.15  # total wall / HiGHS's own run time
@@ -92,16 +93,18 @@ def worker_solve(
     reached: dict[str, float] = {}
 
     def progress(stage, info=None):
-        # First HiGHS time (s) at which the reported gap is ≤ the large target.
+        # First time (s since the solve began) at which the reported gap is ≤ the large target.
         if stage == "progress" and info and "large" not in reached:
             gap = info.get("gap")
             if gap is not None and gap == gap and gap <= LARGE_GAP_TARGET:
-                reached["large"] = float(info["elapsed"])
+                reached["large"] = time.perf_counter() - t0
 
+    if formulation == MIP_ONLY:  # the tight model handed to HiGHS alone: no plan search, every linking row
+        case.settings["solver"]["plan_search"] = False
     t0 = time.perf_counter()
     res = solve(
         case,
-        formulation=formulation,
+        formulation="tight" if formulation == MIP_ONLY else formulation,
         time_limit=time_limit,
         mip_gap=mip_gap,
         threads=THREADS,
@@ -113,7 +116,7 @@ def worker_solve(
     hinfo = res.highs_model.highs.getInfo()
     t = res.timings
     build_s = sum(t.get(k, 0.0) for k in ("lanes", "build", "compile", "handover"))
-    highs_s = float(t["highs"])
+    highs_s = float(t["highs"]) + float(t.get("plan_search", 0.0))  # solver work: the MIP and the plan search's LPs
     out = {
         "kind": "solve",
         "size": size,
@@ -139,7 +142,8 @@ def worker_solve(
         "verified": bool(res.verification.passed) if res.verification else None,
         "open_dcs": int(res.tables["dcs"]["open"].sum()) if res.has_solution else None,
         "dcs": len(case.tables["dcs"]),
-        "highs_s_to_large_gap": reached.get("large"),
+        "highs_s_to_large_gap": None if "large" not in reached else max(reached["large"] - build_s, 0.0),
+        "plan_search_s": float(t.get("plan_search", 0.0)),
     }
     if out["highs_s_to_large_gap"] is None and out["gap"] is not None and out["gap"] <= LARGE_GAP_TARGET:
         out["highs_s_to_large_gap"] = highs_s  # reached without a logging line in between
@@ -149,7 +153,7 @@ def worker_solve(
 
     # LP relaxation of the same formulation on the same network.
     t0 = time.perf_counter()
-    hm = compile_model(build_model(net, formulation=formulation))
+    hm = compile_model(build_model(net, formulation="tight" if formulation == MIP_ONLY else formulation))
     hm.relax_integrality()
     lp = hm.solve(time_limit=time_limit, threads=THREADS)
     out["lp_s"] = time.perf_counter() - t0
@@ -808,7 +812,7 @@ def main(argv: list[str] | None = None) -> int:
         common.append("--safety-stock")
     results: dict[tuple[str, str], dict] = {}
     for size in sizes:
-        for form in ("tight", "plain"):
+        for form in ("tight", MIP_ONLY, "plain"):
             runs = []
             for k in range(args.repeats):
                 log(f"[{datetime.now():%H:%M:%S}] {size} {form} run {k + 1}/{args.repeats} ...")

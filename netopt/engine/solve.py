@@ -108,6 +108,7 @@ def solve(
                 if np.isfinite(obj) and np.isfinite(d["bound"]):
                     d["gap"] = max(0.0, (obj - d["bound"]) / max(1.0, abs(obj)))
             d.setdefault("method", "MIP search")
+            d["elapsed"] = time.perf_counter() - t_run  # s since the solve began (lanes, build, search, MIP)
             say("progress", d)
 
     if b.empty_infeasible:
