@@ -54,8 +54,8 @@ def test_search_plan_on_cap_is_feasible_and_priced_as_verified(name):
     "solver",
     [
         {"plan_search": False},
-        {"plan_search": True, "lazy_linking_rows": False},
-        {"plan_search": True, "lazy_linking_rows": True},
+        {"plan_search": True, "lazy_linking_rows_above": 10**9},
+        {"plan_search": True, "lazy_linking_rows_above": 0},
     ],
     ids=["mip-only", "search+all-rows", "search+lazy-rows"],
 )
@@ -197,3 +197,28 @@ def test_search_skipped_when_other_integer_decisions_exist():
         and "integer decisions besides the DCs" in out.note
         and out.summary().startswith("plan search: skipped")
     )
+
+
+def test_progress_names_the_method_and_never_bounds_above_the_optimum():
+    # cap104 (capopt, Beasley 1988): every progress line's bound is a lower bound of the published
+    # optimum, every plan reported costs no less than it, and each line names who found the plan.
+    case = cap_case(DATA / "cap" / "cap104.txt")
+    seen: list[dict] = []
+    stages: list[str] = []
+
+    def progress(stage, info=None):
+        stages.append(stage)
+        if stage == "progress":
+            seen.append(dict(info))
+
+    res = solve(case, mip_gap=1e-9, progress=progress)
+    assert "plan search" in stages
+    assert seen and {d["method"] for d in seen} <= {"plan search", "MIP search"}
+    for d in seen:
+        if np.isfinite(d.get("bound", -np.inf)):
+            assert d["bound"] <= CAPOPT["cap104"] + 1e-3
+        if np.isfinite(d.get("objective", np.inf)):
+            assert d["objective"] >= CAPOPT["cap104"] - 1e-3
+        assert d["elapsed"] >= 0
+    assert res.objective == pytest.approx(CAPOPT["cap104"], abs=1.5e-3)
+    assert "plan search:" in res.message

@@ -39,12 +39,14 @@ SETTINGS: tuple[Setting, ...] = (
     ),
     Setting(
         "solver",
-        "lazy_linking_rows",
-        "bool",
-        "",
-        True,
-        "Hand the MIP search only the DC-to-customer linking rows the tight relaxation needed (the rest "
-        "are valid but redundant at its optimum); off: every linking row",
+        "lazy_linking_rows_above",
+        "int",
+        "rows",
+        50000,
+        "With more DC-to-customer linking rows than this, hand the MIP search only those the tight "
+        "relaxation needed (the rest are valid but redundant at its optimum; below it, HiGHS's root "
+        "solves them all and its bound gains from them); 0: always",
+        min=0,
     ),
     Setting(
         "policy",

@@ -77,7 +77,7 @@ class SearchOutcome:
     evaluations: int = 0
     moves: dict[str, int] = field(default_factory=dict)
     seconds: float = 0.0
-    local_optimum: bool = False
+    end: str = "time budget reached"  # or "local optimum", or "moves gain less than the MIP gap"
     note: str = ""
     bound: float = -np.inf  # lower bound from the strong relaxation (−inf: not computed)
     fixed_closed: np.ndarray = field(
@@ -93,7 +93,7 @@ class SearchOutcome:
         if self.values is None:
             return f"plan search: {self.note}"
         made = ", ".join(f"{k} {v}" for k, v in self.moves.items() if v)
-        end = "local optimum" if self.local_optimum else "time budget reached"
+        end = self.end
         fixed = len(self.fixed_closed) + len(self.fixed_open)
         return (
             f"plan search: {self.cost:,.2f} with {self.open_count} DC(s) open after {self.evaluations} priced plans "
@@ -108,8 +108,12 @@ def search_plan(
     time_budget: float,
     start_open: np.ndarray | None = None,
     progress: Callable[[dict], None] | None = None,
+    min_gain: float = 0.0,
 ) -> SearchOutcome:
     """Improve the DC decisions of compiled model ``hm`` for at most ``time_budget`` seconds.
+
+    ``min_gain``: stop once an accepted move lowers the cost by less than this share of it (the MIP
+    gap: finer polishing is left to the MIP search, whose bound needs the time).
 
     ``start_open``: 0/1 per opening option to start from (default: every DC that may open, at its
     largest option).  Returns the best plan as block values of ``hm`` (a whole MIP start).
@@ -301,7 +305,7 @@ def search_plan(
         if sol is None:
             return fail("no feasible start meets the open-count rules")
 
-    local_optimum = False
+    end = "time budget reached"
     while time.perf_counter() < deadline:
         drop_est, add_est = estimates(sol)
         cands: list[tuple[float, str, np.ndarray]] = []
@@ -318,7 +322,7 @@ def search_plan(
                 i, k = divmod(int(t), len(opn))
                 cands.append((float(pair[i, k]), "swap", np.array([shut[i], opn[k]])))
         cands.sort(key=lambda c: c[0])
-        improved = False
+        improved = small = False
         tried = 0
         for _est, kind, ds in cands:
             if time.perf_counter() >= deadline or tried >= priced_k:
@@ -330,6 +334,7 @@ def search_plan(
             tried += 1
             c2, s2 = evaluate(m)
             if s2 is not None and c2 < cost - 1e-7 * max(1.0, abs(cost)):
+                small = cost - c2 < min_gain * max(1.0, abs(cost))
                 open_dc, cost, sol = m, c2, s2
                 moves[kind] += 1
                 improved = True
@@ -337,9 +342,12 @@ def search_plan(
                     gap = (cost - relax_bound) / max(1.0, abs(cost)) if np.isfinite(relax_bound) else np.inf
                     progress({"objective": cost, "bound": relax_bound, "gap": max(gap, 0.0), "method": "plan search"})
                 break
+        if improved and small:
+            end = "moves gain less than the MIP gap"
+            break
         if not improved:
             if tried < priced_k or priced_k >= len(cands):
-                local_optimum = True
+                end = "local optimum"
                 break
             priced_k *= 2  # none of the best-ranked moves improves: price more of the neighbourhood
         else:
@@ -365,7 +373,7 @@ def search_plan(
         evaluations=prog.evaluations,
         moves=moves,
         seconds=seconds,
-        local_optimum=local_optimum,
+        end=end,
         bound=relax_bound,
         relaxation=relaxation,
         fixed_closed=fix_closed,

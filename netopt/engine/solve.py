@@ -128,13 +128,16 @@ def solve(
         start_open = fixed_options(net, start)
         if bool(sset["plan_search"]) and hold is None and hm.integrality.any():
             seed = start_plan["open"] if start_plan is not None else start_open
-            search = search_plan(hm, float(sset["plan_search_share"]) * time_limit, start_open=seed, progress=cb)
+            search = search_plan(
+                hm, float(sset["plan_search_share"]) * time_limit, start_open=seed, progress=cb, min_gain=mip_gap
+            )
             timings["plan_search"] = search.seconds
             say("plan search", {"message": search.summary()})
             if search.relaxation:
                 size["linking_rows_needed"] = search.relaxation["linking_rows_needed"]
-                if bool(sset["lazy_linking_rows"]):
+                if search.relaxation["linking_rows"] > int(sset["lazy_linking_rows_above"]):
                     hm.free_rows(search.relaxation["unneeded_rows"])
+                    size["linking_rows_left_out"] = len(search.relaxation["unneeded_rows"])
             if search.values is not None:  # reduced-cost fixing: safe only with the search's plan as incumbent
                 hm.set_bounds(
                     "open", search.fixed_closed, np.zeros(len(search.fixed_closed)), np.zeros(len(search.fixed_closed))
