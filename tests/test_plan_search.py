@@ -54,8 +54,8 @@ def test_search_plan_on_cap_is_feasible_and_priced_as_verified(name):
     "solver",
     [
         {"plan_search": False},
-        {"plan_search": True, "lazy_linking_rows_above": 10**9},
-        {"plan_search": True, "lazy_linking_rows_above": 0},
+        {"plan_search": True, "lazy_linking_rows_share": 0.0},
+        {"plan_search": True, "lazy_linking_rows_share": 1.0},
     ],
     ids=["mip-only", "search+all-rows", "search+lazy-rows"],
 )

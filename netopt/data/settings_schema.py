@@ -39,14 +39,15 @@ SETTINGS: tuple[Setting, ...] = (
     ),
     Setting(
         "solver",
-        "lazy_linking_rows_above",
-        "int",
-        "rows",
-        50000,
-        "With more DC-to-customer linking rows than this, hand the MIP search only those the tight "
-        "relaxation needed (the rest are valid but redundant at its optimum; below it, HiGHS's root "
-        "solves them all and its bound gains from them); 0: always",
-        min=0,
+        "lazy_linking_rows_share",
+        "float",
+        "share",
+        0.1,
+        "When the tight relaxation needed at most this share of the DC-to-customer linking rows, hand the "
+        "MIP search only those (the rest are valid but slack at its optimum and cost LP time); above it, "
+        "every row, whose bound HiGHS's tree gains from (0: every row always; 1: only the needed ones)",
+        min=0.0,
+        max=1.0,
     ),
     Setting(
         "policy",

@@ -286,18 +286,14 @@ def search_plan(
     while violation > FEAS_TOL and time.perf_counter() < deadline:
         drop_est, add_est = estimates(sol)
         best = None
-        for d in np.flatnonzero(open_dc & ~must_open):
+        flips = [(d, drop_est[d]) for d in np.flatnonzero(open_dc & ~must_open)]
+        flips += [(d, add_est[d]) for d in np.flatnonzero(can_open & ~open_dc)]
+        for d, est in flips:  # a drop of an open DC or an add of a closed one
             m = open_dc.copy()
-            m[d] = False
+            m[d] = ~m[d]
             v = rules_ok(m)
-            if v < violation - FEAS_TOL and (best is None or (v, drop_est[d]) < best[:2]):
-                best = (v, drop_est[d], m)
-        for d in np.flatnonzero(can_open & ~open_dc):
-            m = open_dc.copy()
-            m[d] = True
-            v = rules_ok(m)
-            if v < violation - FEAS_TOL and (best is None or (v, add_est[d]) < best[:2]):
-                best = (v, add_est[d], m)
+            if v < violation - FEAS_TOL and (best is None or (v, est) < best[:2]):
+                best = (v, est, m)
         if best is None:
             return fail("no start meets the open-count rules")
         violation, _, open_dc = best

@@ -135,7 +135,8 @@ def solve(
             say("plan search", {"message": search.summary()})
             if search.relaxation:
                 size["linking_rows_needed"] = search.relaxation["linking_rows_needed"]
-                if search.relaxation["linking_rows"] > int(sset["lazy_linking_rows_above"]):
+                needed = search.relaxation["linking_rows_needed"] / max(1, search.relaxation["linking_rows"])
+                if needed <= float(sset["lazy_linking_rows_share"]) and search.relaxation["linking_rows"]:
                     hm.free_rows(search.relaxation["unneeded_rows"])
                     size["linking_rows_left_out"] = len(search.relaxation["unneeded_rows"])
             if search.values is not None:  # reduced-cost fixing: safe only with the search's plan as incumbent
