@@ -20,9 +20,11 @@ from netopt.cli.case_verbs import add_check, add_export, add_template
 from netopt.cli.common import EXIT_INVALID
 from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
 from netopt.data.case import CaseError
+from netopt.present.files import OutputRefused, check_output_folder
 
 # --------------------------------------------------------------------------- main
 
+RESULT_VERBS = ("solve", "run", "stress", "frontier")  # verbs whose --out is a results folder
 VERBS: list[Callable] = [add_template, add_check, add_export, add_solve, add_run, add_stress, add_frontier]
 """Functions that each add one verb's subparser (in the order shown by --help)."""
 
@@ -53,7 +55,12 @@ def main(argv: list[str] | None = None) -> None:
         parser.print_help(sys.stderr)
         raise SystemExit(EXIT_INVALID)
     try:
+        if getattr(args, "out", None) and args.verb in RESULT_VERBS:  # refuse before any work is done
+            check_output_folder(args.out, getattr(args, "case", None))
         code = args.func(args)
+    except OutputRefused as e:
+        print(f"error: {e}", file=sys.stderr)
+        code = EXIT_INVALID
     except CaseError as e:
         print(e.report(), file=sys.stderr)
         code = EXIT_INVALID

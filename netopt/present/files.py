@@ -26,15 +26,74 @@ from netopt.present.report import write_report
 from netopt.present.workbook import safe_text, write_workbook
 from netopt.studies.comparison import dc_decision_matrix, largest_share_changes, mode_mix_matrix
 
+OUTPUT_MARK = ".netopt-results"  # file in every folder netopt writes: only such a folder is ever replaced
+MARK_TEXT = "Results written by netopt; netopt may replace this folder.\n"
+CASE_MARKS = ("settings.toml", "demand.csv", "dcs.csv", "customers.csv")  # files that make a folder a case
+
+
+class OutputRefused(Exception):
+    """A results path netopt will not write to (it would replace what it did not write)."""
+
+
+def check_output_folder(target: str | Path, case: str | Path | None = None) -> Path:
+    """``target`` as a results folder netopt may (re)place, or :class:`OutputRefused` saying why.
+
+    Allowed: a path that does not exist, an empty folder, or a folder netopt wrote before (it holds
+    ``OUTPUT_MARK``).  Refused: a file, a folder holding anything else (a user's documents, a case),
+    the case folder itself or a folder that contains it.
+    """
+    target = Path(target)
+    full = target.resolve()
+    if case is not None:
+        c = Path(case).resolve()
+        c = c if c.is_dir() else c.parent
+        if full == c or full in c.parents:
+            raise OutputRefused(f"--out {target} is the case folder or holds it: choose a separate results folder")
+    if full == Path.cwd().resolve() or full == Path(full.anchor):
+        raise OutputRefused(f"--out {target} is the current or root folder: choose a results folder inside it")
+    if full.is_file() or (full.exists() and not full.is_dir()):
+        raise OutputRefused(f"--out {target} is a file: give a folder path for the results")
+    if full.is_dir():
+        entries = [e.name for e in full.iterdir()]
+        if entries and OUTPUT_MARK not in entries and not _older_results(full):
+            what = "a case" if any(m in entries for m in CASE_MARKS) else f"{len(entries)} item(s) netopt did not write"
+            raise OutputRefused(
+                f"--out {target} already holds {what}: choose a new or empty folder, or one netopt wrote before"
+            )
+    return target
+
+
+def _older_results(folder: Path) -> bool:
+    """A results folder an earlier netopt wrote before folders were marked: its summary.json carries the disclaimer."""
+    try:
+        return "disclaimer" in json.loads((folder / "summary.json").read_text(encoding="utf-8"))
+    except (OSError, ValueError, TypeError):
+        return False
+
+
+def mark_output_folder(target: str | Path) -> Path:
+    """Create results folder ``target`` (it must pass :func:`check_output_folder`) and mark it as netopt's,
+    for writers that keep a file in it while they work (the stress sweep's resume journal)."""
+    target = check_output_folder(target)
+    target.mkdir(parents=True, exist_ok=True)
+    (target / OUTPUT_MARK).write_text(MARK_TEXT)
+    return target
+
 
 @contextlib.contextmanager
 def atomic_folder(target: str | Path):
-    """Yield a temporary folder that replaces ``target`` only if the block completes."""
-    target = Path(target)
+    """Yield a temporary folder that replaces ``target`` only if the block completes.
+
+    ``target`` must pass :func:`check_output_folder` (checked before and again at the swap); the
+    folder written carries ``OUTPUT_MARK``, so a later run may replace it.
+    """
+    target = check_output_folder(target)
     target.parent.mkdir(parents=True, exist_ok=True)
     tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=target.parent))
     try:
         yield tmp
+        (tmp / OUTPUT_MARK).write_text(MARK_TEXT)
+        check_output_folder(target)
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise

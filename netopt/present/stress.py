@@ -21,7 +21,14 @@ import pandas as pd
 from netopt.data.case import Case
 from netopt.data.io import load_case
 from netopt.engine.solve import solve
-from netopt.present.files import DISCLAIMER, _jsonable, atomic_folder, write_result_files, write_workbook
+from netopt.present.files import (
+    DISCLAIMER,
+    _jsonable,
+    atomic_folder,
+    mark_output_folder,
+    write_result_files,
+    write_workbook,
+)
 from netopt.present.report import write_report
 from netopt.studies.exposure import exposure
 from netopt.studies.resilience import StressError, run_sweep
@@ -62,7 +69,7 @@ def stress(
     if not base.has_solution:
         raise StressError(f"the base case has no solution to stress ({base.status}): {base.message}", base.status)
     base_seconds = time.perf_counter() - t0
-    out.mkdir(parents=True, exist_ok=True)
+    mark_output_folder(out)  # the resume journal lives in the results folder from the first re-solve on
     jpath = out / JOURNAL
     spof, info = run_sweep(
         case,
