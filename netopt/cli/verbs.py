@@ -35,13 +35,15 @@ SOLVER_OPTIONS.add_argument(
     "--out",
     required=True,
     metavar="DIR",
-    help="results folder (written completely or not at all; an earlier folder is replaced)",
+    help="results folder (written completely or not at all; replaces only a folder netopt wrote, "
+    "never a case or other files)",
 )
 SOLVER_OPTIONS.add_argument(
     "--time-limit",
     type=float,
     metavar="S",
-    help="stop the search after S seconds and keep the best plan found (default: settings)",
+    help="time limit of the whole solve in seconds (lanes, model, plan search and the MIP search); the best "
+    "plan found is kept with its proven gap (default: settings)",
 )
 SOLVER_OPTIONS.add_argument(
     "--gap",
