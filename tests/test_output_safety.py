@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import shutil
 
+import pandas as pd
 import pytest
 from casekit import make_case_dir
 
@@ -90,3 +91,27 @@ def test_results_of_an_earlier_netopt_without_the_mark_are_replaceable(tmp_path)
     (old / "summary.json").write_text('{"my": "own file"}')
     with pytest.raises(OutputRefused):
         check_output_folder(old)
+
+
+def test_formula_looking_names_are_neutralised_in_every_result_csv(tmp_path, capsys):
+    # OWASP "CSV injection" guidance (a cell starting with =, +, -, @, tab or CR is run as a formula by
+    # spreadsheet programs; prefix an apostrophe): a customer named like a formula comes out as text in
+    # every CSV, and numbers stay numbers.
+    case = make_case_dir(tmp_path)
+    evil = '=HYPERLINK("http://x","y")'
+    for f in case.glob("*.csv"):
+        text = f.read_text(encoding="utf-8")
+        f.write_text(text.replace("CU-BRU", '"' + evil.replace('"', '""') + '"'), encoding="utf-8")
+    out = tmp_path / "results"
+    code, err = _run(["solve", str(case), "--out", str(out), "--quiet", "--no-report"], capsys)
+    assert code == 0, err
+    seen = 0
+    for f in out.glob("*.csv"):
+        frame = pd.read_csv(f, dtype=str, keep_default_na=False)
+        for col in frame.columns:
+            cells = frame[col].tolist()
+            assert not any(c[:1] in ("=", "+", "@", "\t", "\r") for c in cells), (f.name, col)
+            seen += sum(c == "'" + evil for c in cells)
+    assert seen > 0
+    flows = pd.read_csv(out / "flows.csv")
+    assert pd.api.types.is_numeric_dtype(flows["quantity"])

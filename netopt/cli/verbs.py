@@ -15,7 +15,14 @@ import time
 from netopt.cli.common import COMMON, EXIT_INFEASIBLE, EXIT_OK, EXIT_SOLVER, print_warnings, say, warn
 from netopt.data.io import load_case
 from netopt.engine.solve import solve
-from netopt.present.files import _jsonable, atomic_folder, write_result_files, write_run, write_workbook
+from netopt.present.files import (
+    _jsonable,
+    atomic_folder,
+    write_result_csv,
+    write_result_files,
+    write_run,
+    write_workbook,
+)
 from netopt.present.report import write_report
 from netopt.present.stress import stress_command
 from netopt.present.terminal import (
@@ -344,7 +351,7 @@ def cmd_frontier(args: argparse.Namespace) -> int:
     curve = sweep(case, points=args.points)
     table = curve.table
     with atomic_folder(args.out) as tmp:
-        table.to_csv(tmp / "frontier.csv", index=False)
+        write_result_csv(table, tmp / "frontier.csv")
         write_workbook({"frontier": table}, tmp / "frontier.xlsx")
         if curve.cost_optimal is not None and not args.no_report:
             write_report(curve.cost_optimal, tmp / "report.html", extra={"frontier": table})

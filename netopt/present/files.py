@@ -108,6 +108,17 @@ def atomic_folder(target: str | Path):
         shutil.rmtree(old, ignore_errors=True)
 
 
+def write_result_csv(frame: pd.DataFrame, path: Path) -> None:
+    """The one CSV writer of every result table: text cells a spreadsheet would run as a formula
+    (starting with =, +, -, @, tab or carriage return) get a leading apostrophe (:func:`safe_text`);
+    numbers stay numbers."""
+    out = frame.copy(deep=False)
+    for c in out.columns:
+        if not (pd.api.types.is_numeric_dtype(out[c].dtype) or pd.api.types.is_bool_dtype(out[c].dtype)):
+            out[c] = out[c].map(safe_text)
+    out.to_csv(path, index=False)
+
+
 def _currency_of(result) -> str:
     """The case currency of a result (from its network's settings), or ""."""
     try:
@@ -135,11 +146,11 @@ def write_result_files(result, folder: Path, workbook: bool = True) -> None:
     """Write one result's tables (CSV), ``results.xlsx`` and ``summary.json`` into ``folder``."""
     folder.mkdir(parents=True, exist_ok=True)
     for name, df in result.tables.items():
-        df.to_csv(folder / f"{name}.csv", index=False)
+        write_result_csv(df, folder / f"{name}.csv")
     if result.verification is not None:
-        result.verification.checks.to_csv(folder / "verification.csv", index=False)
+        write_result_csv(result.verification.checks, folder / "verification.csv")
     if result.diagnosis is not None:
-        result.diagnosis.to_csv(folder / "diagnosis.csv", index=False)
+        write_result_csv(result.diagnosis, folder / "diagnosis.csv")
     summary = result.summary()
     summary["disclaimer"] = DISCLAIMER
     (folder / "summary.json").write_text(json.dumps(_jsonable(summary), indent=2))
@@ -195,10 +206,10 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
     """
     out = Path(out)
     with atomic_folder(out) as tmp:
-        run.comparison.to_csv(tmp / "comparison.csv", index=False)
-        run.dc_decisions.to_csv(tmp / "dc_decisions.csv", index=False)
-        run.supplier_share_changes.to_csv(tmp / "supplier_share_changes.csv", index=False)
-        run.mode_mix_changes.to_csv(tmp / "mode_mix_changes.csv", index=False)
+        write_result_csv(run.comparison, tmp / "comparison.csv")
+        write_result_csv(run.dc_decisions, tmp / "dc_decisions.csv")
+        write_result_csv(run.supplier_share_changes, tmp / "supplier_share_changes.csv")
+        write_result_csv(run.mode_mix_changes, tmp / "mode_mix_changes.csv")
         (tmp / "comparison.md").write_text(
             f"# Scenario comparison: {run.base.case_name}\n\n"
             + markdown_table(comparison_view(run.comparison), "comparison", comparison_labels(run.comparison))
@@ -218,7 +229,7 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
             if df is not None
         }
         for name, df in frontiers.items():
-            df.to_csv(tmp / f"{name}.csv", index=False)
+            write_result_csv(df, tmp / f"{name}.csv")
         side_by_side = {
             "comparison": run.comparison,
             "dc_decisions": run.dc_decisions,
@@ -266,12 +277,16 @@ def comparison_labels(comparison: pd.DataFrame) -> dict[str, str]:
 
 __all__ = [
     "DISCLAIMER",
+    "OUTPUT_MARK",
+    "OutputRefused",
     "atomic_folder",
+    "check_output_folder",
     "comparison_labels",
     "comparison_view",
     "markdown_table",
     "safe_text",
     "write_result",
+    "write_result_csv",
     "write_result_files",
     "write_run",
     "write_workbook",

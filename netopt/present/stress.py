@@ -26,6 +26,7 @@ from netopt.present.files import (
     _jsonable,
     atomic_folder,
     mark_output_folder,
+    write_result_csv,
     write_result_files,
     write_workbook,
 )
@@ -111,8 +112,8 @@ def stress(
     info_df = pd.DataFrame({"key": list(facts), "value": [str(v) for v in facts.values()]})
     tables = {"spof": spof, "exposure": expo, "info": info_df}
     with atomic_folder(out) as tmp:
-        spof.to_csv(tmp / "spof_ranking.csv", index=False)
-        expo.to_csv(tmp / "exposure.csv", index=False)
+        write_result_csv(spof, tmp / "spof_ranking.csv")
+        write_result_csv(expo, tmp / "exposure.csv")
         write_workbook(
             {"spof_ranking": spof, "exposure": expo, "run": info_df},
             tmp / "stress.xlsx",
