@@ -179,12 +179,12 @@ def test_best_of_keeps_the_cheaper_plan_and_the_larger_bound():
     # the search's plan is kept, bound 95, gap (100 − 95)/100 = 5 %.
     mip = SolveInfo("time_limit", 110.0, 90.0, 0.18, 1.0, has_solution=True, message="Time limit reached")
     search = SearchOutcome({"open": np.ones(1)}, 100.0, open_count=1, bound=95.0)
-    out = best_of(mip, search)
-    assert (out.objective, out.bound) == (100.0, 95.0)
+    out, kept = best_of(mip, search)
+    assert kept and (out.objective, out.bound) == (100.0, 95.0)
     assert out.gap == pytest.approx(0.05)
     assert out.message.startswith(SEARCH_PLAN_KEPT)
-    cheaper = best_of(SolveInfo("optimal", 99.0, 99.0, 0.0, 1.0, has_solution=True), search)
-    assert (cheaper.objective, cheaper.status) == (99.0, "optimal")
+    cheaper, kept = best_of(SolveInfo("optimal", 99.0, 99.0, 0.0, 1.0, has_solution=True), search)
+    assert not kept and (cheaper.objective, cheaper.status) == (99.0, "optimal")
 
 
 def test_search_skipped_when_other_integer_decisions_exist():

@@ -226,7 +226,7 @@ def search_plan(
             relaxation=relaxation,
         )
 
-    def rules_ok(mask: np.ndarray) -> float:
+    def violation_of(mask: np.ndarray) -> float:
         return prog.rule_violation(option_of(mask, choice))
 
     cost, sol = evaluate(open_dc)
@@ -237,7 +237,9 @@ def search_plan(
             m[dc_codes[y_relaxed > tau]] = True
             m = (m & can_open) | must_open
             c2, s2 = evaluate(m)
-            if s2 is not None and (sol is None or (rules_ok(m) > FEAS_TOL, c2) < (rules_ok(open_dc) > FEAS_TOL, cost)):
+            if s2 is not None and (
+                sol is None or (violation_of(m) > FEAS_TOL, c2) < (violation_of(open_dc) > FEAS_TOL, cost)
+            ):
                 open_dc, cost, sol = m, c2, s2
     if sol is None:
         return fail("no feasible start with the DCs open")
@@ -282,7 +284,7 @@ def search_plan(
         return drop, add
 
     # Reach the rules on the openings (e.g. an open-count limit) from the start, best-ranked first.
-    violation = rules_ok(open_dc)
+    violation = violation_of(open_dc)
     while violation > FEAS_TOL and time.perf_counter() < deadline:
         drop_est, add_est = estimates(sol)
         best = None
@@ -291,7 +293,7 @@ def search_plan(
         for d, est in flips:  # a drop of an open DC or an add of a closed one
             m = open_dc.copy()
             m[d] = ~m[d]
-            v = rules_ok(m)
+            v = violation_of(m)
             if v < violation - FEAS_TOL and (best is None or (v, est) < best[:2]):
                 best = (v, est, m)
         if best is None:
@@ -304,13 +306,10 @@ def search_plan(
     end = "time budget reached"
     while time.perf_counter() < deadline:
         drop_est, add_est = estimates(sol)
-        cands: list[tuple[float, str, np.ndarray]] = []
-        for d in np.flatnonzero(open_dc & ~must_open):
-            cands.append((drop_est[d], "drop", np.array([d])))
-        for d in np.flatnonzero(can_open & ~open_dc):
-            cands.append((add_est[d], "add", np.array([d])))
         shut = np.flatnonzero(open_dc & ~must_open)
         opn = np.flatnonzero(can_open & ~open_dc)
+        cands: list[tuple[float, str, np.ndarray]] = [(drop_est[d], "drop", np.array([d])) for d in shut]
+        cands += [(add_est[d], "add", np.array([d])) for d in opn]
         if len(shut) and len(opn):
             pair = drop_est[shut][:, None] + add_est[opn][None, :]
             top = np.argsort(pair, axis=None)[:SWAPS_PRICED]
@@ -325,7 +324,7 @@ def search_plan(
                 break
             m = open_dc.copy()
             m[ds] = ~m[ds]
-            if rules_ok(m) > FEAS_TOL:
+            if violation_of(m) > FEAS_TOL:
                 continue
             tried += 1
             c2, s2 = evaluate(m)
@@ -377,10 +376,12 @@ def search_plan(
     )
 
 
-def best_of(info: SolveInfo, search: SearchOutcome) -> SolveInfo:
-    """The MIP search's outcome with the plan search folded in: the plan returned is never dearer than
-    the search's (its plan is kept when the MIP search ends without a cheaper one), and the bound is
-    the larger of the MIP's and the tight relaxation's (both are lower bounds of the same model)."""
+def best_of(info: SolveInfo, search: SearchOutcome) -> tuple[SolveInfo, bool]:
+    """The MIP search's outcome with the plan search folded in, and whether the search's plan is kept.
+
+    The plan returned is never dearer than the search's (its plan is kept when the MIP search ends
+    without a cheaper one), and the bound is the larger of the MIP's and the tight relaxation's (both
+    are lower bounds of the same model)."""
     bound = max(info.bound if np.isfinite(info.bound) else -np.inf, search.bound)
     keep = search.values is not None and (
         not info.has_solution or info.objective > search.cost + 1e-9 * max(1.0, abs(search.cost))
@@ -392,7 +393,7 @@ def best_of(info: SolveInfo, search: SearchOutcome) -> SolveInfo:
     if keep and status not in ("time_limit", "interrupted", "iteration_limit", "solution_limit"):
         status = "time_limit"
     gap = max(0.0, (objective - bound) / max(1.0, abs(objective))) if has and np.isfinite(bound) else info.gap
-    return dataclasses.replace(
+    outcome = dataclasses.replace(
         info,
         status=status,
         objective=objective,
@@ -401,3 +402,4 @@ def best_of(info: SolveInfo, search: SearchOutcome) -> SolveInfo:
         has_solution=has,
         message=f"{message}; {search.summary()}",
     )
+    return outcome, keep

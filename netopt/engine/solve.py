@@ -1,6 +1,7 @@
 """``solve(case)`` → :class:`~netopt.engine.result.Result` with tidy DataFrames.
 
-Stages: lanes → network index sets → Pyomo model → HiGHS → :func:`~netopt.engine.extract.extract`
+Stages: lanes → network index sets → Pyomo model → plan search (``netopt.engine.plan_search``) →
+HiGHS from its plan → :func:`~netopt.engine.extract.extract`
 (cost components, result tables, independent verification).  An infeasible case is
 re-solved elastically to say which demands and rules cannot be met and by how much.
 """
@@ -16,7 +17,7 @@ from netopt.data.case import Case
 from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
-from netopt.engine.plan_search import SEARCH_PLAN_KEPT, best_of, search_plan
+from netopt.engine.plan_search import best_of, search_plan
 from netopt.engine.result import Result, fixed_options
 from netopt.model import build_model
 from netopt.model.safety_stock import prepare_solve
@@ -44,7 +45,8 @@ def solve(
     """Solve the network design for ``case``.
 
     Args:
-        time_limit, mip_gap, threads: override the case's [solver] settings.
+        time_limit, mip_gap, threads: override the case's [solver] settings.  The time limit is the whole
+            solve's (lanes, build, plan search, MIP search); the MIP search always gets at least 5 % of it.
         formulation: "tight" (default) or "plain" (no strong linking, no pruning; benchmarks).
         hold: DC decisions to hold (``Result.held_openings()`` of a base), re-routing only.
         progress: callable(stage: str, info: dict) for progress lines.
@@ -93,6 +95,7 @@ def solve(
 
     cb = None
     search = None
+    kept = False  # the plan search's plan is the one returned
     if progress is not None:
 
         def cb(d):
@@ -147,6 +150,15 @@ def solve(
                     "open", search.fixed_open, np.ones(len(search.fixed_open)), np.ones(len(search.fixed_open))
                 )
                 size["dc_options_fixed"] = len(search.fixed_closed) + len(search.fixed_open)
+        # The caller's plan stays the start when the search's is not cheaper (it may differ by O(ε)).
+        if (
+            search is not None
+            and search.values is not None
+            and start_plan is not None
+            and sum(b.component_values(start_plan).values()) <= search.cost
+        ):
+            search.values, search.cost = None, float("inf")
+            search.note = "its plan was not cheaper than the plan handed over, which starts the MIP search"
         if search is not None and search.values is not None:
             hm.set_plan_start(search.values)
         elif start_plan is not None:
@@ -156,7 +168,7 @@ def solve(
         left = max(time_limit - (time.perf_counter() - t_run), 0.05 * time_limit)
         info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads, progress=cb)
         if search is not None:
-            info = best_of(info, search)
+            info, kept = best_of(info, search)
     timings["highs"] = info.solver_seconds
 
     res = Result.of(
@@ -168,9 +180,9 @@ def solve(
         network=net,
         lanes=lanes,
     )
-    plan = hm.values() if info.has_solution else None
-    if search is not None and search.values is not None and info.message.startswith(SEARCH_PLAN_KEPT):
-        plan = search.values
+    plan = None
+    if info.has_solution:
+        plan = search.values if kept and search is not None else hm.values()
     if plan is not None:
         out = extract(
             case,

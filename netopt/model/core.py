@@ -101,7 +101,7 @@ class Builder:
         (``netopt.engine.relief``, added to the compiled model in HiGHS).
         ``matrix=True`` keeps the family as index arrays (:class:`MatrixRows`), appended to the
         compiled matrix by ``netopt.engine.highs.compile_model`` without a Pyomo object per row: for
-        the largest, simplest families (the strong linking rows).
+        the largest, simplest families (demand met, DC balance, the strong linking rows).
         """
         n = len(labels)
         if n == 0:
@@ -113,8 +113,7 @@ class Builder:
         if matrix:
             count = np.bincount(np.concatenate([t.row for t in terms]), minlength=n) if terms else np.zeros(n, int)
             for r in np.flatnonzero(count == 0).tolist():
-                s, v = senses[r], rhs[r]
-                if (s == "<=" and v < -1e-9) or (s == ">=" and v > 1e-9) or (s == "==" and abs(v) > 1e-9):
+                if _empty_row_fails(senses[r], rhs[r]):
                     self.empty_infeasible.append((name, r))
             self.matrix_rows[name] = MatrixRows(n, terms, np.asarray(senses), rhs)
             self.row_labels[name] = labels.reset_index(drop=True)
@@ -136,8 +135,7 @@ class Builder:
         def rule(m, r):
             a, b = starts_l[r], starts_l[r + 1]
             if a == b:
-                s, v = sense_l[r], rhs_l[r]
-                if (s == "<=" and v < -1e-9) or (s == ">=" and v > 1e-9) or (s == "==" and abs(v) > 1e-9):
+                if _empty_row_fails(sense_l[r], rhs_l[r]):
                     self.empty_infeasible.append((name, r))
                 return pyo.Constraint.Skip
             expr = LinearExpression([MonomialTermExpression((coef_l[k], vs[k])) for k in order_l[a:b]])
@@ -201,6 +199,11 @@ class Builder:
         for comp, c in self.cost_constant.items():
             out.setdefault(comp, c)
         return out
+
+
+def _empty_row_fails(sense: str, rhs: float) -> bool:
+    """A row with no variable (0 sense rhs) that cannot hold."""
+    return (sense == "<=" and rhs < -1e-9) or (sense == ">=" and rhs > 1e-9) or (sense == "==" and abs(rhs) > 1e-9)
 
 
 def group_index(frame: pd.DataFrame, keys: list[str]) -> tuple[pd.DataFrame, np.ndarray]:

@@ -18,8 +18,10 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from netopt.data.io import SETTINGS_FILE
 from netopt.data.result_views import COMPARISON_VIEW
 from netopt.data.results_schema import label_of
+from netopt.data.schema import TABLES
 from netopt.present.formats import cell_text, column_kind
 from netopt.present.labels import DISCLAIMER, comparison_notes
 from netopt.present.report import write_report
@@ -28,7 +30,7 @@ from netopt.studies.comparison import dc_decision_matrix, largest_share_changes,
 
 OUTPUT_MARK = ".netopt-results"  # file in every folder netopt writes: only such a folder is ever replaced
 MARK_TEXT = "Results written by netopt; netopt may replace this folder.\n"
-CASE_MARKS = ("settings.toml", "demand.csv", "dcs.csv", "customers.csv")  # files that make a folder a case
+CASE_MARKS = {SETTINGS_FILE} | {t.file_name for t in TABLES.values() if t.required}  # files of a case folder
 
 
 class OutputRefused(Exception):
