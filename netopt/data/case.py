@@ -3,11 +3,15 @@
 from __future__ import annotations
 
 import copy
+import re
+from collections import Counter
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import pandas as pd
+
+from netopt.data.limits import MAX_ERRORS_PER_COLUMN, MAX_PRINTED_PROBLEMS
 
 
 @dataclass(frozen=True)
@@ -42,12 +46,50 @@ class CaseError(Exception):
         super().__init__(self.report())
 
     def report(self) -> str:
+        """Every error, then every warning, one per line; capped as :func:`problem_lines` says
+        (``problems`` and ``warnings`` still hold them all)."""
         lines = [f"{len(self.problems)} error(s) in the case data:"]
-        lines += [f"  {p}" for p in self.problems]
+        room = MAX_PRINTED_PROBLEMS
+        shown = problem_lines(self.problems, room)
+        lines += shown
         if self.warnings:
             lines.append(f"{len(self.warnings)} warning(s):")
-            lines += [f"  {p}" for p in self.warnings]
+            lines += problem_lines(self.warnings, max(room - len(shown), 0))
         return "\n".join(lines)
+
+
+_VARIABLE = re.compile(r"'[^']*'|\"[^\"]*\"|[-+]?\d[\d.,eE+-]*")
+
+
+def _kind(message: str) -> str:
+    """A message with its quoted values and numbers blanked: messages of one kind share it."""
+    return _VARIABLE.sub("…", message)
+
+
+def problem_lines(problems: list[Problem], room: int = MAX_PRINTED_PROBLEMS) -> list[str]:
+    """Problems as indented report lines: at most :data:`~netopt.data.limits.MAX_ERRORS_PER_COLUMN` per
+    table, column and kind of message, each group's rest counted in one line, and at most ``room`` lines
+    of problems in all, the rest counted in a last line."""
+    groups = Counter((p.table, p.column, p.severity, _kind(p.message)) for p in problems)
+    seen: Counter = Counter()
+    lines: list[str] = []
+    told = 0  # problems printed or counted in a group's line
+    for p in problems:
+        key = (p.table, p.column, p.severity, _kind(p.message))
+        seen[key] += 1
+        if seen[key] > MAX_ERRORS_PER_COLUMN or len(lines) >= room:
+            continue
+        lines.append(f"  {p}")
+        told += 1
+        if seen[key] == MAX_ERRORS_PER_COLUMN and groups[key] > MAX_ERRORS_PER_COLUMN:
+            rest = groups[key] - MAX_ERRORS_PER_COLUMN
+            where = f"table {p.table}" + (f", column {p.column}" if p.column else "")
+            lines.append(f"  … and {rest:,} more in {where} (like the one above)")
+            told += rest
+    hidden = len(problems) - told
+    if hidden:
+        lines.append(f"  … and {hidden:,} more not shown (at most {room:,} lines are printed)")
+    return lines
 
 
 @dataclass

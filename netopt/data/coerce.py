@@ -8,12 +8,15 @@ cell becomes a :class:`~netopt.data.case.Problem` naming its table, row and colu
 from __future__ import annotations
 
 import math
+from types import SimpleNamespace
 
 import numpy as np
 import pandas as pd
 
 from netopt.data.case import Problem
 from netopt.data.declarations import Column, Setting
+from netopt.data.header_names import brief, resemblance_message, resembled
+from netopt.data.limits import MAX_CELL_CHARS
 from netopt.data.schema import INF, LEGS, TABLES
 from netopt.data.settings_schema import SETTINGS
 from netopt.data.text import (
@@ -30,6 +33,17 @@ _MISSING_WORDS = {"nan", "na", "n/a", "null", "none", "-nan"}  # read as blank i
 _TRUE_WORDS = {"true", "yes", "y", "t", "1", "1.0"}
 _FALSE_WORDS = {"false", "no", "n", "f", "0", "0.0"}
 _SETTING_CHOICES = {("lanes", "legs"): LEGS}
+_INF_WORDS = {"inf", "infinity"}  # with an optional sign: the only texts read as infinite in a number column
+
+
+def bound_text(item: Column | Setting, v: float) -> str:
+    """The bound ``v`` breaks, in words: the declared range, or, for netopt's own resource limit on the
+    largest value (``max_is_limit``), only the side broken."""
+    if not item.max_is_limit:
+        return range_text(item)
+    if item.min is not None and v < item.min:
+        return range_text(SimpleNamespace(min=item.min, max=None, unit=item.unit))
+    return f"at most {format_number(float(item.max or 0))} {item.unit}".rstrip() + " (the largest netopt accepts here)"
 
 
 def _empty_column(col: Column, n_index: pd.Index) -> pd.Series:
@@ -190,9 +204,18 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
             out.append(col.default)
             continue
         assert v is not None  # parsed above; None only for blanks, handled above
+        if math.isinf(v) and values is None and text.lower().lstrip("+-") not in _INF_WORDS:
+            problems.append(
+                Problem(table, r, col.name, f"number too large (beyond the range of a float), got {brief(text)}")
+            )
+            out.append(None)
+            continue
         if math.isinf(v) and not (col.default == INF and v > 0):
             problems.append(Problem(table, r, col.name, f"finite number expected, got '{text}'"))
             out.append(None)
+            continue
+        if math.isinf(v):  # "no limit", allowed above
+            out.append(v)
             continue
         if col.type == "int":
             if not float(v).is_integer():
@@ -201,7 +224,7 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
                 continue
             v = int(v)
         if (col.min is not None and v < col.min) or (col.max is not None and v > col.max):
-            problems.append(Problem(table, r, col.name, f"must be {range_text(col)}, got {format_number(v)}"))
+            problems.append(Problem(table, r, col.name, f"must be {bound_text(col, v)}, got {format_number(v)}"))
             out.append(None)
             continue
         out.append(v)
@@ -229,7 +252,10 @@ def coerce_table(name: str, frame: pd.DataFrame | None) -> tuple[pd.DataFrame, l
     columns = {}
     for c in frame.columns:
         cname = as_text(c)
-        if cname not in t.column_names:
+        like = resembled(cname, t.column_names) if cname not in t.column_names else None
+        if like is not None:
+            problems.append(Problem(name, None, cname, resemblance_message(cname, like, "column")))
+        elif cname not in t.column_names:
             problems.append(
                 Problem(
                     name,
@@ -265,9 +291,13 @@ def _setting_problem(label, rows, s: Setting, message, severity="error") -> Prob
 
 def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
     """Parse one setting value by its declared type; returns (value, error message or None)."""
+    if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 1023:
+        return s.default, f"number too large (beyond the range of a float), got {brief(value)}"
+    if isinstance(value, str) and len(value) > MAX_CELL_CHARS:
+        return s.default, f"{len(value):,} characters; at most {MAX_CELL_CHARS:,} are accepted"
     if s.type == "str":
         if isinstance(value, (dict, list)):
-            return s.default, f"text expected, got {value!r}"
+            return s.default, f"text expected, got {brief(value)}"
         return as_text(value), None
     if s.type == "list":
         if isinstance(value, str):
@@ -275,14 +305,14 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
         elif isinstance(value, (list, tuple)):
             items = [as_text(p) for p in value]
             if any(isinstance(p, (list, dict)) for p in value):
-                return s.default, f"list of names expected, got {value!r}"
+                return s.default, f"list of names expected, got {brief(value)}"
         else:
-            return s.default, f'list of names expected (e.g. ["a", "b"] or a|b), got {value!r}'
+            return s.default, f'list of names expected (e.g. ["a", "b"] or a|b), got {brief(value)}'
         allowed = _SETTING_CHOICES.get((s.section, s.name))
         if allowed is not None:
             bad = [p for p in items if p not in allowed]
             if bad:
-                return s.default, f"unknown value(s) {', '.join(repr(b) for b in bad)}; allowed: {', '.join(allowed)}"
+                return s.default, f"unknown value(s) {', '.join(brief(b) for b in bad)}; allowed: {', '.join(allowed)}"
         return items, None
     if s.type == "bool":
         if isinstance(value, (bool, np.bool_)):
@@ -293,10 +323,10 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
                 return True, None
             if low in _FALSE_WORDS:
                 return False, None
-        return s.default, f"true or false expected, got {value!r}"
+        return s.default, f"true or false expected, got {brief(value)}"
     # numbers
     if isinstance(value, (bool, np.bool_, list, dict)):
-        return s.default, f"{'whole number' if s.type == 'int' else 'number'} expected, got {value!r}"
+        return s.default, f"{'whole number' if s.type == 'int' else 'number'} expected, got {brief(value)}"
     if isinstance(value, str):
         v = parse_float(value.strip())
         if v is None:
@@ -304,15 +334,17 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
     elif isinstance(value, (int, float, np.integer, np.floating)):
         v = float(value)
     else:
-        return s.default, f"number expected, got {value!r}"
+        return s.default, f"number expected, got {brief(value)}"
+    if math.isinf(v) and isinstance(value, str) and value.strip().lower().lstrip("+-") not in _INF_WORDS:
+        return s.default, f"number too large (beyond the range of a float), got {brief(value.strip())}"
     if math.isnan(v) or math.isinf(v):
-        return s.default, f"finite number expected, got {value!r}"
+        return s.default, f"finite number expected, got {brief(value)}"
     if s.type == "int":
         if not v.is_integer():
-            return s.default, f"whole number expected, got {value!r}"
+            return s.default, f"whole number expected, got {brief(value)}"
         v = int(v)
     if (s.min is not None and v < s.min) or (s.max is not None and v > s.max):
-        return s.default, f"must be {range_text(s)}, got {format_number(v)}"
+        return s.default, f"must be {bound_text(s, v)}, got {format_number(v)}"
     return v, None
 
 
@@ -343,6 +375,10 @@ def coerce_settings(
         if not isinstance(entries, dict):
             problems.append(Problem(label, None, str(section), "setting outside any [section] (ignored)", "warning"))
             continue
+        like = resembled(str(section), sections) if section not in sections else None
+        if like is not None:
+            problems.append(Problem(label, None, f"[{section}]", resemblance_message(str(section), like, "section")))
+            continue
         if section not in sections:
             problems.append(
                 Problem(
@@ -357,6 +393,17 @@ def coerce_settings(
         names = [n for (sec, n) in declared if sec == section]
         for name, value in entries.items():
             s: Setting | None = declared.get((section, name))
+            like = resembled(str(name), names) if s is None else None
+            if like is not None:
+                problems.append(
+                    Problem(
+                        label,
+                        (rows or {}).get((section, name)),
+                        f"[{section}] {name}",
+                        resemblance_message(str(name), like, "setting"),
+                    )
+                )
+                continue
             if s is None:
                 problems.append(
                     Problem(

@@ -9,6 +9,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field
 
+from netopt.data.limits import MAX_DAYS, MAX_MAGNITUDE
+
 INF = math.inf  # a float column default meaning "no limit" when left blank
 
 
@@ -25,6 +27,10 @@ class Column:
     min: float | None = None  # smallest allowed value (numbers)
     max: float | None = None  # largest allowed value (numbers)
     choices: tuple[str, ...] | None = None  # allowed values (text)
+    max_is_limit: bool = False  # max is a resource limit of netopt (:mod:`netopt.data.limits`), not a range
+
+    def __post_init__(self) -> None:
+        _bound_numbers(self)
 
 
 @dataclass(frozen=True)
@@ -75,6 +81,18 @@ class Setting:
     meaning: str
     min: float | None = None
     max: float | None = None
+    max_is_limit: bool = False  # max is a resource limit of netopt (:mod:`netopt.data.limits`), not a range
+
+    def __post_init__(self) -> None:
+        _bound_numbers(self)
+
+
+def _bound_numbers(item: Column | Setting) -> None:
+    """A number column or setting declared without a maximum gets one from :mod:`netopt.data.limits`:
+    :data:`~netopt.data.limits.MAX_DAYS` when it counts days, else :data:`~netopt.data.limits.MAX_MAGNITUDE`."""
+    if item.type in ("float", "int") and item.max is None:
+        object.__setattr__(item, "max", MAX_DAYS if item.unit == "days" else MAX_MAGNITUDE)
+        object.__setattr__(item, "max_is_limit", True)
 
 
 def column(name, type_, unit, required, default, meaning, **kw) -> Column:

@@ -4,7 +4,10 @@ A case folder holds ``settings.toml``, one ``<table>.csv`` per table and optiona
 ``scenarios.toml`` (its ``[[scenario]]`` entries are kept as given).  A case workbook
 (``.xlsx``) holds one sheet per table, a sheet ``settings`` with columns
 section, name, value, optionally a ``scenarios`` sheet (:mod:`netopt.data.scenario_sheet`) and a
-``schema`` sheet (ignored).
+``schema`` sheet (ignored); the workbook itself is read by :mod:`netopt.data.workbook_read`.
+Every file is read within the limits of :mod:`netopt.data.limits` (file size, rows, columns, cell
+length), and a file, sheet, header or setting name that matches a known one but for case, spacing or
+invisible characters is an error (:mod:`netopt.data.header_names`).
 
 Every cell is read as text and then typed by the schema, so a wrong value becomes a
 :class:`~netopt.data.case.Problem` naming its table, row and column rather than an
@@ -27,82 +30,36 @@ from pathlib import Path
 
 import pandas as pd
 
+from netopt.data import limits
 from netopt.data.case import Case, CaseError, Problem
-from netopt.data.scenario_sheet import SHEET as SCENARIO_SHEET
-from netopt.data.scenario_sheet import scenarios_from_sheet
+from netopt.data.header_names import resemblance_message, resembled
+from netopt.data.records import frame_from_records
 from netopt.data.schema import TABLES
-from netopt.data.text import as_text, close_match_hint
+from netopt.data.text import close_match_hint
 from netopt.data.validate import sort_problems, validate_and_coerce
+from netopt.data.workbook_read import IGNORED_SHEETS, SCENARIOS_FILE, SETTINGS_SHEET, read_workbook
 
 SETTINGS_FILE = "settings.toml"
-SCENARIOS_FILE = "scenarios.toml"
-SETTINGS_SHEET = "settings"
-IGNORED_SHEETS = ("schema",)
+__all__ = [
+    "IGNORED_SHEETS",
+    "SCENARIOS_FILE",
+    "SETTINGS_FILE",
+    "SETTINGS_SHEET",
+    "case_from_tables",
+    "load_case",
+    "read_csv_table",
+]
 
 
 # --------------------------------------------------------------------------- reading
 
 
-def _frame_from_records(label: str, records: list[tuple[int, list[str]]]) -> tuple[pd.DataFrame | None, list[Problem]]:
-    """Table from (row number, cells) records; the first record is the header.
-
-    Blank records are skipped (their row numbers stay unused); cells past the header
-    must be blank; short records are padded with blanks.
-    """
-    problems: list[Problem] = []
-    records = [(n, [c.strip().lstrip("\ufeff").strip() for c in cells]) for n, cells in records]
-    records = [(n, cells) for n, cells in records if any(cells)]
-    if not records:
-        problems.append(Problem(label, None, None, "no header row: the first line must name the columns"))
-        return None, problems
-    hrow, header = records[0]
-    while header and header[-1] == "":
-        header = header[:-1]
-    width = len(header)
-    rows, index = [], []
-    for n, cells in records[1:]:
-        if len(cells) > width:
-            extra = cells[width:]
-            if any(extra):
-                problems.append(
-                    Problem(
-                        label,
-                        n,
-                        None,
-                        f"row has {width + max(i for i, c in enumerate(extra) if c) + 1} values but "
-                        f"the header names {width} columns",
-                    )
-                )
-            cells = cells[:width]
-        elif len(cells) < width:
-            cells = cells + [""] * (width - len(cells))
-        rows.append(cells)
-        index.append(n)
-    seen: set[str] = set()
-    keep = []
-    for j, name in enumerate(header):
-        if name == "":
-            if any(r[j] for r in rows):
-                problems.append(
-                    Problem(
-                        label, hrow, f"(column {j + 1})", "values under a column with no header (ignored)", "warning"
-                    )
-                )
-            continue
-        if name in seen:
-            problems.append(Problem(label, None, name, "column appears more than once in the header"))
-            continue
-        seen.add(name)
-        keep.append(j)
-    data = {header[j]: [r[j] for r in rows] for j in keep}
-    frame = pd.DataFrame(data, index=pd.Index(index, dtype="int64", name="row"), dtype=object)
-    if not keep:
-        frame = pd.DataFrame(index=pd.Index(index, dtype="int64", name="row"))
-    return frame, problems
-
-
-def _decode(path: Path, label: str) -> tuple[str | None, list[Problem]]:
+def _decode(path: Path, label: str, most: int) -> tuple[str | None, list[Problem]]:
+    """The file's text (UTF-8), refused unread when larger than ``most`` bytes."""
     try:
+        size = path.stat().st_size
+        if size > most:
+            return None, [Problem(label, None, None, f"file holds {size:,} bytes; at most {most:,} are read")]
         data = path.read_bytes()
     except OSError as e:
         return None, [Problem(label, None, None, f"cannot read the file: {e.strerror or e}")]
@@ -114,24 +71,31 @@ def _decode(path: Path, label: str) -> tuple[str | None, list[Problem]]:
 
 
 def read_csv_table(path: Path, table: str) -> tuple[pd.DataFrame | None, list[Problem]]:
-    """One CSV file as a text table indexed by file line (header = line 1)."""
-    text, problems = _decode(path, table)
+    """One CSV file as a text table indexed by file line (header = line 1), within the size limits
+    (:data:`~netopt.data.limits.MAX_CSV_FILE_BYTES`, :data:`~netopt.data.limits.MAX_TABLE_ROWS`,
+    :data:`~netopt.data.limits.MAX_TABLE_COLUMNS`)."""
+    text, problems = _decode(path, table, limits.MAX_CSV_FILE_BYTES)
     if text is None:
         return None, problems
     records = []
     reader = csv.reader(_stdio.StringIO(text, newline=""))
     last = 0
+    rows_most, cols_most = limits.MAX_TABLE_ROWS, limits.MAX_TABLE_COLUMNS
     try:
         for cells in reader:
             records.append((last + 1, cells))
             last = reader.line_num
+            if len(records) > rows_most + 1:
+                return None, [Problem(table, None, None, f"file has more than {rows_most:,} rows (MAX_TABLE_ROWS)")]
+            if len(cells) > cols_most:
+                return None, [Problem(table, last, None, f"row has more than {cols_most:,} values (MAX_TABLE_COLUMNS)")]
     except csv.Error as e:
         return None, [Problem(table, last + 1, None, f"not readable as CSV: {e}")]
-    return _frame_from_records(table, records)
+    return frame_from_records(table, records)
 
 
 def _read_toml(path: Path, label: str) -> tuple[dict | None, list[Problem]]:
-    text, problems = _decode(path, label)
+    text, problems = _decode(path, label, limits.MAX_TOML_FILE_BYTES)
     if text is None:
         return None, problems
     try:
@@ -139,6 +103,10 @@ def _read_toml(path: Path, label: str) -> tuple[dict | None, list[Problem]]:
     except tomllib.TOMLDecodeError as e:
         m = re.search(r"line (\d+)", str(e))
         return None, [Problem(label, int(m.group(1)) if m else None, None, f"not valid TOML: {e}")]
+    except RecursionError:
+        return None, [Problem(label, None, None, "not valid TOML: arrays or tables nested too deeply to read")]
+    except ValueError as e:  # e.g. an integer of more digits than Python converts
+        return None, [Problem(label, None, None, f"not valid TOML: {str(e)[:200]}")]
 
 
 def _scenarios_from_toml(data: dict, label: str) -> tuple[list[dict], list[Problem]]:
@@ -166,7 +134,10 @@ def _read_folder(folder: Path):
             sources[name] = t.file_name
     known = {t.file_name for t in TABLES.values()}
     for fname in sorted(files):
-        if fname.lower().endswith(".csv") and fname not in known:
+        like = resembled(fname, known | {SETTINGS_FILE, SCENARIOS_FILE}) if fname not in known else None
+        if like is not None and like not in files:
+            problems.append(Problem(fname, None, None, resemblance_message(fname, like, "case file")))
+        elif fname.lower().endswith(".csv") and fname not in known:
             problems.append(
                 Problem(fname, None, None, "unknown table file (ignored)" + close_match_hint(fname, known), "warning")
             )
@@ -187,97 +158,6 @@ def _read_folder(folder: Path):
             scenarios, probs = _scenarios_from_toml(data, SCENARIOS_FILE)
             problems += probs
     return tables, settings, sources, {}, scenarios, problems
-
-
-def _settings_from_frame(frame: pd.DataFrame, label: str):
-    """``{section: {name: value}}`` and the sheet row of each entry, from a section/name/value table."""
-    problems = []
-    cols = {as_text(c).lower(): c for c in frame.columns}
-    missing = [c for c in ("section", "name", "value") if c not in cols]
-    if missing:
-        return (
-            {},
-            {},
-            [
-                Problem(
-                    label, None, m, "required column is missing (the settings sheet has columns section, name, value)"
-                )
-                for m in missing
-            ],
-        )
-    settings: dict[str, dict[str, object]] = {}
-    rows: dict[tuple[str, str], int] = {}
-    for r, rec in frame.iterrows():
-        sec, name, value = as_text(rec[cols["section"]]), as_text(rec[cols["name"]]), as_text(rec[cols["value"]])
-        if not sec and not name:
-            continue
-        if not sec or not name:
-            problems.append(Problem(label, int(r), "section" if not sec else "name", "blank section or name"))
-            continue
-        if (sec, name) in rows:
-            problems.append(
-                Problem(label, int(r), "name", f"[{sec}] {name} is given twice: rows {rows[(sec, name)]} and {int(r)}")
-            )
-            continue
-        rows[(sec, name)] = int(r)
-        if value == "":
-            continue  # blank = default
-        settings.setdefault(sec, {})[name] = value
-    return settings, rows, problems
-
-
-def _read_workbook(path: Path):
-    problems: list[Problem] = []
-    try:
-        sheets = pd.read_excel(path, sheet_name=None, header=None, dtype=str, keep_default_na=False, engine="openpyxl")
-    except Exception as e:  # openpyxl raises many kinds on a damaged or foreign file
-        raise CaseError([Problem(path.name, None, None, f"cannot read the workbook: {e}")]) from None
-    tables: dict[str, pd.DataFrame] = {}
-    scenarios: list[dict] = []
-    sources: dict[str, str] = {"settings": SETTINGS_SHEET}
-    settings: dict = {}
-    rows: dict = {}
-    by_name = {str(k).strip(): v for k, v in sheets.items()}
-    for sheet, grid in by_name.items():
-        records = [(i + 1, [as_text(v) for v in rec]) for i, rec in enumerate(grid.itertuples(index=False))]
-        if sheet in TABLES:
-            frame, probs = _frame_from_records(sheet, records)
-            problems += probs
-            if frame is not None:
-                tables[sheet] = frame
-                sources[sheet] = f"sheet {sheet}"
-        elif sheet == SETTINGS_SHEET:
-            frame, probs = _frame_from_records(SETTINGS_SHEET, records)
-            problems += probs
-            if frame is not None:
-                settings, rows, probs = _settings_from_frame(frame, SETTINGS_SHEET)
-                problems += probs
-        elif sheet == SCENARIO_SHEET:
-            frame, probs = _frame_from_records(SCENARIO_SHEET, records)
-            problems += probs
-            if frame is not None:
-                scenarios, probs = scenarios_from_sheet(frame)
-                problems += probs
-        elif sheet not in IGNORED_SHEETS:
-            problems.append(
-                Problem(sheet, None, None, "unknown sheet (ignored)" + close_match_hint(sheet, TABLES), "warning")
-            )
-    if SETTINGS_SHEET not in by_name:
-        problems.append(
-            Problem(SETTINGS_SHEET, None, None, "no settings sheet: every setting takes its default", "warning")
-        )
-    beside = path.parent / SCENARIOS_FILE
-    if beside.exists():
-        problems.append(
-            Problem(
-                SCENARIOS_FILE,
-                None,
-                None,
-                f"{beside} is not read with the workbook {path.name}: a workbook case keeps its scenarios in its "
-                f"'{SCENARIO_SHEET}' sheet (netopt export converts a case folder with its scenarios.toml)",
-            )
-        )
-    return tables, settings, sources, rows, scenarios, problems
 
 
 def case_from_tables(
@@ -339,7 +219,7 @@ def load_case(path: str | os.PathLike) -> Case:
         tables, settings, sources, rows, scenarios, problems = _read_folder(p)
         name = p.resolve().name
     elif p.suffix.lower() in (".xlsx", ".xlsm"):
-        tables, settings, sources, rows, scenarios, problems = _read_workbook(p)
+        tables, settings, sources, rows, scenarios, problems = read_workbook(p)
         name = p.stem
     else:
         raise CaseError(

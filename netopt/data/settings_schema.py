@@ -1,6 +1,7 @@
 """The declared settings of a netopt case: ``[section] name = value`` entries of ``settings.toml``.
 
-Each :class:`~netopt.data.declarations.Setting` has a type, unit, default, meaning and range;
+Each :class:`~netopt.data.declarations.Setting` has a type, unit, default, meaning and range (every number
+has a maximum: its own, or the general one of :mod:`netopt.data.limits`);
 loading, validation, templates and the settings documentation are generated from them.
 """
 
@@ -9,14 +10,35 @@ from __future__ import annotations
 import pandas as pd
 
 from netopt.data.declarations import Setting
+from netopt.data.limits import MAX_SAFETY_STOCK_BREAKPOINTS, MAX_SITE_COUNT, MAX_THREADS, MAX_TIME_LIMIT_S
 from netopt.data.schema import LEGS
 
 SETTINGS: tuple[Setting, ...] = (
     Setting("case", "name", "str", "", "", "Case name shown in reports"),
     Setting("case", "currency", "str", "", "EUR", "Currency label for all money columns"),
-    Setting("solver", "time_limit_s", "float", "s", 300.0, "Stop the MIP search after this many seconds", min=0.1),
+    Setting(
+        "solver",
+        "time_limit_s",
+        "float",
+        "s",
+        300.0,
+        "Stop the MIP search after this many seconds",
+        min=0.1,
+        max=MAX_TIME_LIMIT_S,
+        max_is_limit=True,
+    ),
     Setting("solver", "mip_gap", "float", "ratio", 1e-4, "Stop when (cost − bound)/cost is below this", min=0, max=1),
-    Setting("solver", "threads", "int", "", 1, "Solver threads (1 keeps runs reproducible)", min=1),
+    Setting(
+        "solver",
+        "threads",
+        "int",
+        "",
+        1,
+        "Solver threads (1 keeps runs reproducible)",
+        min=1,
+        max=MAX_THREADS,
+        max_is_limit=True,
+    ),
     Setting(
         "solver",
         "plan_search",
@@ -77,6 +99,8 @@ SETTINGS: tuple[Setting, ...] = (
         1,
         "Least number of suppliers actually used per site and material (where that many exist)",
         min=1,
+        max=MAX_SITE_COUNT,
+        max_is_limit=True,
     ),
     Setting(
         "policy",
@@ -88,8 +112,20 @@ SETTINGS: tuple[Setting, ...] = (
         min=0,
         max=1,
     ),
-    Setting("policy", "min_open_dcs", "int", "", 0, "Least number of DCs open", min=0),
-    Setting("policy", "max_open_dcs", "int", "", -1, "Most DCs open; -1 = no limit", min=-1),
+    Setting(
+        "policy", "min_open_dcs", "int", "", 0, "Least number of DCs open", min=0, max=MAX_SITE_COUNT, max_is_limit=True
+    ),
+    Setting(
+        "policy",
+        "max_open_dcs",
+        "int",
+        "",
+        -1,
+        "Most DCs open; -1 = no limit",
+        min=-1,
+        max=MAX_SITE_COUNT,
+        max_is_limit=True,
+    ),
     Setting("policy", "single_sourcing", "bool", "", False, "Each customer and product served from one DC only"),
     Setting("policy", "one_mode_per_lane", "bool", "", False, "Each lane uses at most one mode"),
     Setting("policy", "allow_unmet_demand", "bool", "", False, "Allow demand to go unserved at the penalty below"),
@@ -173,6 +209,8 @@ SETTINGS: tuple[Setting, ...] = (
         "Breakpoints of each DC's piecewise-linear safety-stock curve, 0 included, spaced geometrically from the "
         "smallest customer demand to the DC's largest throughput; more = smaller error (reported), slower solve",
         min=2,
+        max=MAX_SAFETY_STOCK_BREAKPOINTS,
+        max_is_limit=True,
     ),
     Setting(
         "lanes",
