@@ -29,6 +29,7 @@ import pandas as pd
 from netopt.data.case import Case
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
+from netopt.engine.highs_check import ModelRejected, require_ok
 from netopt.engine.result import Result, fixed_options
 from netopt.model import build_model
 from netopt.model.safety_stock import add_held_lines, held_lines, held_lines_cost, prepare_solve
@@ -221,19 +222,28 @@ class HeldNetwork:
         h = self.hm.highs
         ci = np.array(sorted(plan.cols), dtype=np.int32)
         ri = np.array(sorted(plan.rows), dtype=np.int32)
-        if len(ci):
-            h.changeColsBounds(
-                len(ci), ci, np.array([plan.cols[c][0] for c in ci]), np.array([plan.cols[c][1] for c in ci])
-            )
-        if len(ri):
-            lo, hi = np.array([plan.rows[r][0] for r in ri]), np.array([plan.rows[r][1] for r in ri])
-            h.changeRowsBounds(len(ri), ri, lo, hi)  # type: ignore[attr-defined]  # in highspy, not in its stubs
         try:
+            if len(ci):
+                require_ok(
+                    h.changeColsBounds(
+                        len(ci), ci, np.array([plan.cols[c][0] for c in ci]), np.array([plan.cols[c][1] for c in ci])
+                    ),
+                    "change the scenario's variable bounds",
+                )
+            if len(ri):
+                lo, hi = np.array([plan.rows[r][0] for r in ri]), np.array([plan.rows[r][1] for r in ri])
+                require_ok(
+                    h.changeRowsBounds(len(ri), ri, lo, hi),  # type: ignore[attr-defined]  # in highspy, not in its stubs
+                    "change the scenario's rule bounds (a bound may be ≥ 1e20 or not a number)",
+                )
             if basis is not None:
                 h.setBasis(basis)
             info = self.hm.solve()
             values = self.hm.values() if info.has_solution else None
             x = np.asarray(h.getSolution().col_value, dtype=float) if info.has_solution else None
+        except ModelRejected as e:  # HiGHS refused the scenario's bounds: a clear failure, no plan
+            info = SolveInfo("error", float("nan"), float("nan"), float("inf"), 0.0, message=str(e))
+            values = x = None
         finally:
             if len(ci):
                 h.changeColsBounds(len(ci), ci, self.col_lo[ci], self.col_hi[ci])

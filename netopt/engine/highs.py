@@ -12,9 +12,11 @@ from dataclasses import dataclass, field
 
 import highspy
 import numpy as np
+import pandas as pd
 from pyomo.repn.plugins.standard_form import LinearStandardFormCompiler
 from scipy import sparse
 
+from netopt.engine.highs_check import ModelRejected, number_trouble, rejected, require_ok
 from netopt.model.core import Builder
 
 INF = highspy.kHighsInf
@@ -48,7 +50,7 @@ _BANNER_DONE = False
 class SolveInfo:
     """Solver outcome. Times in seconds; ``gap`` relative (0.01 = 1 %)."""
 
-    status: str  # optimal | time_limit | infeasible | unbounded | error
+    status: str  # optimal | time_limit | infeasible | unbounded | interrupted | … | error (HiGHS failed)
     objective: float
     bound: float
     gap: float
@@ -73,6 +75,7 @@ class HighsModel:
     pass_seconds: float
     timings: dict = field(default_factory=dict)
     row_index: dict[str, np.ndarray] = field(default_factory=dict, repr=False)  # rows_of cache
+    pyomo_rows: list = field(default_factory=list, repr=False)  # ConstraintData of each compiled Pyomo row
 
     # ---------------------------------------------------------------- solve
     def solve(
@@ -88,11 +91,11 @@ class HighsModel:
         if progress is not None:
             _attach_progress(h, progress)
         t0 = h.getRunTime()
-        h.run()
+        run_status = h.run()
         elapsed = h.getRunTime() - t0
-        return self._info(elapsed)
+        return self._info(elapsed, run_failed=run_status == highspy.HighsStatus.kError)
 
-    def _info(self, elapsed: float) -> SolveInfo:
+    def _info(self, elapsed: float, run_failed: bool = False) -> SolveInfo:
         h = self.highs
         ms = h.getModelStatus()
         info = h.getInfo()
@@ -107,7 +110,17 @@ class HighsModel:
             highspy.HighsModelStatus.kIterationLimit: "iteration_limit",
             highspy.HighsModelStatus.kSolutionLimit: "solution_limit",
         }.get(ms, "error")
-        has_sol = info.primal_solution_status == 2  # kSolutionStatusFeasible
+        message = h.modelStatusToString(ms)
+        if run_failed or name == "error":
+            name = "error"
+            message = (
+                f"HiGHS failed: its run {'returned an error' if run_failed else 'ended'} with model status "
+                f"'{message}', so there is no usable plan"
+            )
+            trouble = self.number_trouble()
+            if trouble:
+                message += f"; {trouble}"
+        has_sol = info.primal_solution_status == 2 and name != "error"  # kSolutionStatusFeasible
         obj = float(info.objective_function_value) if has_sol else float("nan")
         if is_mip:
             bound = float(info.mip_dual_bound)
@@ -128,13 +141,34 @@ class HighsModel:
             nodes=nodes,
             iterations=int(info.simplex_iteration_count),
             has_solution=has_sol,
-            message=h.modelStatusToString(ms),
+            message=message,
+        )
+
+    def number_trouble(self) -> str | None:
+        """The first number of the model now in HiGHS that HiGHS cannot take (text), or None."""
+        lp = self.highs.getLp()
+        m, n = int(lp.num_row_), int(lp.num_col_)
+        A = sparse.csc_matrix(
+            (np.asarray(lp.a_matrix_.value_), np.asarray(lp.a_matrix_.index_), np.asarray(lp.a_matrix_.start_)),
+            shape=(m, n),
+        )
+        return number_trouble(
+            np.asarray(lp.col_cost_),
+            A,
+            np.asarray(lp.row_lower_),
+            np.asarray(lp.row_upper_),
+            np.asarray(lp.col_lower_),
+            np.asarray(lp.col_upper_),
+            float(lp.offset_),
+            _namer(self.builder, self.col_of, self.pyomo_rows, self.row_index),
         )
 
     # ---------------------------------------------------------------- values
     def values(self) -> dict[str, np.ndarray]:
         """Solution value of every variable block (units as declared by each block)."""
         x = np.asarray(self.highs.getSolution().col_value, dtype=float)
+        if len(x) < len(self.integrality):
+            raise ModelRejected("HiGHS holds no solution of the model (its run gave none); no values to read")
         out = {}
         for name, cols in self.col_of.items():
             v = np.zeros(len(cols))
@@ -156,8 +190,11 @@ class HighsModel:
             if np.ndim(upper)
             else np.full(m.sum(), INF if np.isinf(upper) else float(upper))
         )
-        self.highs.changeColsBounds(
-            int(m.sum()), cols[m].astype(np.int32), np.asarray(lo, float), np.asarray(hi, float)
+        require_ok(
+            self.highs.changeColsBounds(
+                int(m.sum()), cols[m].astype(np.int32), np.asarray(lo, float), np.asarray(hi, float)
+            ),
+            f"change the bounds of variables '{block}'",
         )
 
     def free_rows(self, rows: np.ndarray) -> None:
@@ -195,7 +232,10 @@ class HighsModel:
         """Make every column continuous (after fixing the binaries, the model is an LP)."""
         n = len(self.integrality)
         if self.integrality.any():
-            self.highs.changeColsIntegrality(n, np.arange(n, dtype=np.int32), np.zeros(n, dtype=np.uint8))
+            require_ok(
+                self.highs.changeColsIntegrality(n, np.arange(n, dtype=np.int32), np.zeros(n, dtype=np.uint8)),
+                "make the columns continuous",
+            )
             self.integrality = np.zeros(n, dtype=np.uint8)  # now reported as an LP: bound = objective, gap 0
 
     def row(self, constraint) -> int:
@@ -286,7 +326,19 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
         row_lo = np.concatenate([row_lo, *los])
         row_hi = np.concatenate([row_hi, *his])
 
-    h = pass_matrices(c, A, row_lo, row_hi, lb, ub, integrality=integ, offset=offset, options=options)
+    pyomo_rows = [cd for cd, _ in info.rows]
+    h = pass_matrices(
+        c,
+        A,
+        row_lo,
+        row_hi,
+        lb,
+        ub,
+        integrality=integ,
+        offset=offset,
+        options=options,
+        name=_namer(b, col_of, pyomo_rows, row_index),
+    )
     t2 = time.perf_counter()
     row_of = {id(cd): k for k, (cd, _) in enumerate(info.rows)}
     return HighsModel(
@@ -299,6 +351,7 @@ def compile_model(b: Builder, options: dict | None = None) -> HighsModel:
         compile_seconds=t1 - t0,
         pass_seconds=t2 - t1,
         row_index=row_index,
+        pyomo_rows=pyomo_rows,
     )
 
 
@@ -334,14 +387,22 @@ def pass_matrices(
     integrality: np.ndarray | None = None,
     offset: float = 0.0,
     options: dict | None = None,
+    name=None,
 ) -> highspy.Highs:
     """The one hand-over to HiGHS: ``min c·x + offset`` s.t. ``row_lo ≤ A x ≤ row_hi``, column bounds.
 
     ``A`` is any scipy sparse matrix; ±inf bounds become HiGHS's infinity.  A quiet,
     single-thread instance (``options`` override).  Used by :func:`compile_model` and by
     studies that state a small LP directly as matrices.
+
+    Raises:
+        ModelRejected: a number HiGHS cannot take (:func:`~netopt.engine.highs_check.number_trouble`,
+            rows and columns named by ``name(kind, index)``), or HiGHS refused the model itself.
     """
     A = sparse.csc_matrix(A)
+    trouble = number_trouble(c, A, row_lo, row_hi, col_lo, col_hi, offset, name)
+    if trouble:
+        raise rejected(trouble)
     n = A.shape[1]
     lp = highspy.HighsLp()
     lp.num_col_ = n
@@ -365,5 +426,35 @@ def pass_matrices(
     h.setOptionValue("threads", 1)
     for k, v in (options or {}).items():
         h.setOptionValue(k, v)
-    h.passModel(lp)
+    if h.passModel(lp) == highspy.HighsStatus.kError:
+        raise rejected("HiGHS's own check of the model's numbers failed (it holds an empty model)")
     return h
+
+
+def _namer(b: Builder, col_of: dict[str, np.ndarray], pyomo_rows: list, row_index: dict[str, np.ndarray]):
+    """``name(kind, index)``: a compiled row or column in the case's terms (family or block, and its labels)."""
+
+    def labelled(family: str, frame: pd.DataFrame | None, k: int) -> str:
+        if frame is None or k >= len(frame):
+            return family
+        where = ", ".join(f"{c} {v}" for c in frame.columns if str(v := frame[c].iloc[k]) not in ("", "nan"))
+        return f"{family} ({where})" if where else family
+
+    def name(kind: str, i: int) -> str:
+        if kind == "column":
+            for block, cols in col_of.items():
+                hit = np.flatnonzero(cols == i)
+                if len(hit):
+                    return "variable " + labelled(block, b.var_labels.get(block), int(hit[0]))
+            return f"column {i}"
+        if i < len(pyomo_rows):
+            cd = pyomo_rows[i]
+            family = cd.parent_component().local_name
+            return "rule " + labelled(family, b.row_labels.get(family), int(cd.index()))
+        for family, rows in row_index.items():
+            hit = np.flatnonzero(rows == i)
+            if len(hit):
+                return "rule " + labelled(family, b.row_labels.get(family), int(hit[0]))
+        return f"row {i}"
+
+    return name

@@ -28,6 +28,7 @@ import numpy as np
 from scipy import sparse
 
 from netopt.engine.highs import HighsModel, pass_matrices
+from netopt.engine.highs_check import require_ok
 
 TAIL_OFF = 1e-5  # the relaxation stops adding linking rows once a round raises its bound by less (relative)
 
@@ -72,7 +73,10 @@ class OpeningsProgram:
         free = self.new_row[np.flatnonzero(only_open)].astype(np.int32)
         if len(free):
             k = len(free)
-            self.h.changeRowsBounds(k, free, np.full(k, -highspy.kHighsInf), np.full(k, highspy.kHighsInf))  # type: ignore[attr-defined]
+            require_ok(
+                self.h.changeRowsBounds(k, free, np.full(k, -highspy.kHighsInf), np.full(k, highspy.kHighsInf)),  # type: ignore[attr-defined]
+                "free the rows on the openings alone",
+            )
         self.h.setOptionValue("presolve", "off")
         self.evaluations = 0
         self.reduced_cost = np.zeros(0)  # the relaxation's reduced costs (reduced-cost fixing)
@@ -89,9 +93,9 @@ class OpeningsProgram:
         used = np.zeros(self.link.shape[0], dtype=bool)
         rounds, bound, x, last = 0, -np.inf, None, -np.inf
         while True:
-            h.run()
+            run = h.run()
             rounds += 1
-            if h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+            if run == highspy.HighsStatus.kError or h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
                 return -np.inf, None, used, False, rounds
             bound = float(h.getInfo().objective_function_value)
             x = np.asarray(h.getSolution().col_value, float)
@@ -104,14 +108,17 @@ class OpeningsProgram:
             last = bound
             sub = self.link[viol].tocsr()
             k = sub.shape[0]
-            h.addRows(
-                k,
-                np.full(k, -highspy.kHighsInf),
-                np.zeros(k),
-                sub.nnz,
-                sub.indptr[:-1].astype(np.int32),
-                sub.indices.astype(np.int32),
-                sub.data.astype(float),
+            require_ok(
+                h.addRows(
+                    k,
+                    np.full(k, -highspy.kHighsInf),
+                    np.zeros(k),
+                    sub.nnz,
+                    sub.indptr[:-1].astype(np.int32),
+                    sub.indices.astype(np.int32),
+                    sub.data.astype(float),
+                ),
+                "add the violated linking rows",
             )
             used |= viol
 
@@ -126,10 +133,10 @@ class OpeningsProgram:
         """Cost of the program with the option columns fixed at ``y_bounds`` (inf: infeasible)."""
         cols = self.open_cols[self.open_cols >= 0].astype(np.int32)
         v = np.asarray(y_bounds, float)[self.open_cols >= 0]
-        self.h.changeColsBounds(len(cols), cols, v, v)
-        self.h.run()
+        require_ok(self.h.changeColsBounds(len(cols), cols, v, v), "fix the openings of a plan")
+        run = self.h.run()
         self.evaluations += 1
-        if self.h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
+        if run == highspy.HighsStatus.kError or self.h.getModelStatus() != highspy.HighsModelStatus.kOptimal:
             return float("inf"), None
         return float(self.h.getInfo().objective_function_value), self.h.getSolution()
 

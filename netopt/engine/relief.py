@@ -27,6 +27,7 @@ import highspy
 import numpy as np
 
 from netopt.engine.highs import HighsModel
+from netopt.engine.highs_check import require_ok
 
 INF = highspy.kHighsInf
 
@@ -81,15 +82,18 @@ def add_slack(
     hrows = np.array(hrow, dtype=np.int32)
     prices = np.asarray(price(hrows), dtype=float) if n else np.zeros(0)
     if n:
-        h.addCols(
-            n,
-            prices,
-            np.zeros(n),
-            np.full(n, INF),
-            n,
-            np.arange(n, dtype=np.int32),
-            hrows,
-            np.array(sign, dtype=float),
+        require_ok(
+            h.addCols(
+                n,
+                prices,
+                np.zeros(n),
+                np.full(n, INF),
+                n,
+                np.arange(n, dtype=np.int32),
+                hrows,
+                np.array(sign, dtype=float),
+            ),
+            "add the slack columns (a slack price may be too large)",
         )
     return Slack(
         cols=np.arange(n0, n0 + n),

@@ -17,6 +17,7 @@ from netopt.data.case import Case
 from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
+from netopt.engine.highs_check import ModelRejected
 from netopt.engine.plan_search import best_of, search_plan
 from netopt.engine.result import Result, fixed_options
 from netopt.model import build_model
@@ -79,7 +80,11 @@ def solve(
     timings["build"] = time.perf_counter() - t0
     say("build", {"arcs": len(net.arcs), "seconds": timings["build"]})
 
-    hm = compile_model(b)
+    try:
+        hm = compile_model(b)
+    except ModelRejected as e:  # a number HiGHS cannot take: a clear failure, no plan
+        info = SolveInfo("error", float("nan"), float("nan"), float("inf"), 0.0, message=str(e))
+        return Result.of(case.name, info, timings=timings, message=info.message, network=net, lanes=lanes)
     timings["compile"] = hm.compile_seconds
     timings["handover"] = hm.pass_seconds
     lp = hm.highs.getLp()
@@ -124,51 +129,57 @@ def solve(
             message=f"{len(b.empty_infeasible)} rule(s) with no variable cannot hold",
         )
     else:
-        aids = prepare_solve(hm, time_limit=time_limit, mip_gap=mip_gap)  # safety-stock binaries only
-        if aids:
-            timings["safety_stock_aids"] = aids["seconds"]
-            size["pooling_cuts"] = int(aids["cuts"])
-        start_open = fixed_options(net, start)
-        if bool(sset["plan_search"]) and hold is None and hm.integrality.any():
-            seed = start_plan["open"] if start_plan is not None else start_open
-            search = search_plan(
-                hm, float(sset["plan_search_share"]) * time_limit, start_open=seed, progress=cb, min_gain=mip_gap
-            )
-            timings["plan_search"] = search.seconds
-            say("plan search", {"message": search.summary()})
-            if search.relaxation:
-                size["linking_rows_needed"] = search.relaxation["linking_rows_needed"]
-                needed = search.relaxation["linking_rows_needed"] / max(1, search.relaxation["linking_rows"])
-                if needed <= float(sset["lazy_linking_rows_share"]) and search.relaxation["linking_rows"]:
-                    hm.free_rows(search.relaxation["unneeded_rows"])
-                    size["linking_rows_left_out"] = len(search.relaxation["unneeded_rows"])
-            if search.values is not None:  # reduced-cost fixing: safe only with the search's plan as incumbent
-                hm.set_bounds(
-                    "open", search.fixed_closed, np.zeros(len(search.fixed_closed)), np.zeros(len(search.fixed_closed))
+        try:
+            aids = prepare_solve(hm, time_limit=time_limit, mip_gap=mip_gap)  # safety-stock binaries only
+            if aids:
+                timings["safety_stock_aids"] = aids["seconds"]
+                size["pooling_cuts"] = int(aids["cuts"])
+            start_open = fixed_options(net, start)
+            if bool(sset["plan_search"]) and hold is None and hm.integrality.any():
+                seed = start_plan["open"] if start_plan is not None else start_open
+                search = search_plan(
+                    hm, float(sset["plan_search_share"]) * time_limit, start_open=seed, progress=cb, min_gain=mip_gap
                 )
-                hm.set_bounds(
-                    "open", search.fixed_open, np.ones(len(search.fixed_open)), np.ones(len(search.fixed_open))
-                )
-                size["dc_options_fixed"] = len(search.fixed_closed) + len(search.fixed_open)
-        # The caller's plan stays the start when the search's is not cheaper (it may differ by O(ε)).
-        if (
-            search is not None
-            and search.values is not None
-            and start_plan is not None
-            and sum(b.component_values(start_plan).values()) <= search.cost
-        ):
-            search.values, search.cost = None, float("inf")
-            search.note = "its plan was not cheaper than the plan handed over, which starts the MIP search"
-        if search is not None and search.values is not None:
-            hm.set_plan_start(search.values)
-        elif start_plan is not None:
-            hm.set_plan_start(start_plan)
-        elif start_open is not None:
-            hm.set_start("open", start_open)
-        left = max(time_limit - (time.perf_counter() - t_run), 0.05 * time_limit)
-        info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads, progress=cb)
-        if search is not None:
-            info, kept = best_of(info, search)
+                timings["plan_search"] = search.seconds
+                say("plan search", {"message": search.summary()})
+                if search.relaxation:
+                    size["linking_rows_needed"] = search.relaxation["linking_rows_needed"]
+                    needed = search.relaxation["linking_rows_needed"] / max(1, search.relaxation["linking_rows"])
+                    if needed <= float(sset["lazy_linking_rows_share"]) and search.relaxation["linking_rows"]:
+                        hm.free_rows(search.relaxation["unneeded_rows"])
+                        size["linking_rows_left_out"] = len(search.relaxation["unneeded_rows"])
+                if search.values is not None:  # reduced-cost fixing: safe only with the search's plan as incumbent
+                    hm.set_bounds(
+                        "open",
+                        search.fixed_closed,
+                        np.zeros(len(search.fixed_closed)),
+                        np.zeros(len(search.fixed_closed)),
+                    )
+                    hm.set_bounds(
+                        "open", search.fixed_open, np.ones(len(search.fixed_open)), np.ones(len(search.fixed_open))
+                    )
+                    size["dc_options_fixed"] = len(search.fixed_closed) + len(search.fixed_open)
+            # The caller's plan stays the start when the search's is not cheaper (it may differ by O(ε)).
+            if (
+                search is not None
+                and search.values is not None
+                and start_plan is not None
+                and sum(b.component_values(start_plan).values()) <= search.cost
+            ):
+                search.values, search.cost = None, float("inf")
+                search.note = "its plan was not cheaper than the plan handed over, which starts the MIP search"
+            if search is not None and search.values is not None:
+                hm.set_plan_start(search.values)
+            elif start_plan is not None:
+                hm.set_plan_start(start_plan)
+            elif start_open is not None:
+                hm.set_start("open", start_open)
+            left = max(time_limit - (time.perf_counter() - t_run), 0.05 * time_limit)
+            info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads, progress=cb)
+            if search is not None:
+                info, kept = best_of(info, search)
+        except ModelRejected as e:  # HiGHS refused a step: a clear failure, no plan
+            info = SolveInfo("error", float("nan"), float("nan"), float("inf"), 0.0, message=str(e))
     timings["highs"] = info.solver_seconds
 
     res = Result.of(

@@ -118,6 +118,9 @@ class Builder:
             self.matrix_rows[name] = MatrixRows(n, terms, np.asarray(senses), rhs)
             self.row_labels[name] = labels.reset_index(drop=True)
             return
+        # Entries with a zero coefficient are no entries (the compiler drops them too): a row left with
+        # none is a constant row, caught below as an empty row that cannot hold (not a compiler error).
+        terms = [t for t in (_nonzero(t) for t in terms) if len(t.idx)]
         row = np.concatenate([t.row for t in terms]) if terms else np.zeros(0, int)
         coef = np.concatenate([t.coef for t in terms]).astype(float) if terms else np.zeros(0)
         vs: list = []
@@ -199,6 +202,15 @@ class Builder:
         for comp, c in self.cost_constant.items():
             out.setdefault(comp, c)
         return out
+
+
+def _nonzero(t: Term) -> Term:
+    """``t`` without its zero-coefficient entries."""
+    coef = np.broadcast_to(np.asarray(t.coef, dtype=float), np.shape(t.idx))
+    keep = coef != 0.0
+    if keep.all():
+        return t
+    return Term(t.block, np.asarray(t.idx)[keep], coef[keep], None if t.row is None else np.asarray(t.row)[keep])
 
 
 def _empty_row_fails(sense: str, rhs: float) -> bool:
