@@ -770,12 +770,16 @@ def test_infeasible_case_names_what_cannot_be_met(via_dc):
     assert res.status == "infeasible" and not res.has_solution
     d = res.diagnosis
     assert d is not None and len(d)
-    assert d["amount"].sum() == pytest.approx(200.0, rel=1e-6)
-    for _, r in d.iterrows():
+    binding = d["meaning"].str.startswith("binding capacity")  # the capacity that caused it (issue 13, defect 9)
+    assert d.loc[~binding, "amount"].sum() == pytest.approx(200.0, rel=1e-6)
+    for _, r in d[~binding].iterrows():
         if r["rule"] == "demand_met":
             assert "CU" in r["where"] and "widget" in r["where"]
         else:
             assert r["rule"] == "dc_throughput" and "DC" in r["where"]
+    if not via_dc:  # the plant's capacity (800) is named, 200 units/yr short
+        assert d.loc[binding, "rule"].tolist() == ["plant_capacity"]
+        assert d.loc[binding, "amount"].iloc[0] == pytest.approx(200.0, rel=1e-6)
 
 
 # ----------------------------------------------------------------------------- bill of materials
