@@ -1,4 +1,9 @@
-"""Terminal output of a solve, a run and a frontier: rich tables with the declared labels and units."""
+"""Terminal output of a solve, a run and a frontier: rich tables with the declared labels and units.
+
+Every text that may hold user input (names, codes, the currency, messages) is escaped with
+``rich.markup.escape`` before it reaches rich, so "[red]" or "[/bold]" in a site code is shown as
+written, never read as console markup.
+"""
 
 from __future__ import annotations
 
@@ -62,20 +67,22 @@ def print_result(result, console=None) -> None:
         for c in result.diagnosis.columns:
             t.add_column(label_of("diagnosis", str(c)))
         for row in result.diagnosis.itertuples(index=False):
-            t.add_row(*[f"{v:,.1f}" if isinstance(v, float) else escape(str(v)) for v in row])
+            t.add_row(*[escape(f"{v:,.1f}") if isinstance(v, float) else escape(str(v)) for v in row])
         con.print(t)
         return
     if not result.has_solution:
+        if result.message:  # why there is no plan (e.g. HiGHS rejected the model)
+            con.print(escape(result.message))
         return
     currency = _currency(result)
-    t = Table(title=f"Annual landed cost ({unit_text('currency/yr', currency)})")
+    t = Table(title=escape(f"Annual landed cost ({unit_text('currency/yr', currency)})"))
     t.add_column(label_of("cost", "component"))
     t.add_column(label_of("cost", "amount"), justify="right")
     t.add_column("share", justify="right")
     total = sum(result.cost.values())
     for k, v in result.cost.items():
         if abs(v) > 0.5:
-            t.add_row(k.replace("_", " "), money_text(v), f"{v / total:.1%}" if total else "")
+            t.add_row(escape(k.replace("_", " ")), money_text(v), f"{v / total:.1%}" if total else "")
     t.add_row("[bold]total[/bold]", f"[bold]{money_text(total)}[/bold]", "100%")
     con.print(t)
     d = result.tables["dcs"]
@@ -93,14 +100,18 @@ def print_result(result, console=None) -> None:
     t.add_column("unit")
     for row in k.itertuples(index=False):
         kind = kpi_kind(row.kpi)
-        t.add_row(kpi_label(row.kpi), cell_text(row.value, kind), unit_text(_kpi_unit(row.kpi, row.unit), currency))
+        t.add_row(
+            escape(kpi_label(row.kpi)),
+            escape(cell_text(row.value, kind)),
+            escape(unit_text(_kpi_unit(row.kpi, row.unit), currency)),
+        )
     con.print(t)
     v = result.verification
     if v is not None:
         con.print(
             f"Independent check: {'[green]passed[/green]' if v.passed else '[red]FAILED[/red]'} — recomputed cost "
             f"{money_text(v.recomputed_objective)}, largest violation {v.largest_violation:.2e} "
-            f"({v.largest_violation_rule})"
+            f"({escape(str(v.largest_violation_rule))})"
         )
 
 

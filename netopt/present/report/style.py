@@ -73,6 +73,7 @@ COST_COLOURS = {
 
 
 def chart_rc():
+    """The matplotlib settings of every chart and map of the report (one place)."""
     return {
         "font.family": "DejaVu Sans",
         "font.size": 9,
@@ -89,6 +90,9 @@ def chart_rc():
         "axes.spines.top": False,
         "axes.spines.right": False,
         "legend.frameon": False,
+        # Every text drawn is literal: a name or currency holding "$" (e.g. "$\\frac$") is no TeX.
+        "text.parse_math": False,
+        "text.usetex": False,
     }
 
 
@@ -168,8 +172,8 @@ def note_at(ax, *args, **kw):
 
 
 def plain(s) -> str:
-    """Text safe for matplotlib (no mathtext)."""
-    return str(s).replace("$", r"\$")
+    """Text for a chart, as written: ``chart_rc`` turns mathtext off, so "$" needs no escape."""
+    return str(s)
 
 
 def short_number(x: float) -> str:
