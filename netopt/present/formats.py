@@ -68,7 +68,8 @@ def excel_format(kind: str, currency: str = "") -> str | None:
     f = EXCEL_FORMATS.get(base)
     if f is None:
         return None
-    f = f.replace("{cur}", currency) if currency else f.replace('" {cur}"', "")
+    # The currency sits inside a quoted literal: a quote in it closes the literal, so it is written escaped.
+    f = f.replace("{cur}", currency.replace('"', '"\\""')) if currency else f.replace('" {cur}"', "")
     return f"+{f};-{f};{f}" if signed else f
 
 

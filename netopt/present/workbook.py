@@ -58,12 +58,60 @@ def _sheet_name(name: str, taken: set[str]) -> str:
     return out
 
 
+def run_facts(summary: dict) -> list[tuple[str, object, str | None]]:
+    """(fact, value, Excel number format with ``{cur}``) of a solve, from its ``Result.summary()``:
+    the solver's status and message, objective, bound, gap, time and the independent check."""
+    timings = summary.get("timings_s") or {}
+    checked = summary.get("largest_violation") is not None
+    check = ("passed" if summary.get("verified") else "FAILED") if checked else "not run (no plan)"
+    return [
+        ("case", summary.get("case"), None),
+        ("solver status", summary.get("status"), None),
+        ("solver message", summary.get("message"), None),
+        ("total landed cost (objective), {cur}/yr", summary.get("objective"), "#,##0"),
+        ("lower bound, {cur}/yr", summary.get("bound"), "#,##0"),
+        ("optimality gap", summary.get("gap"), "0.00%"),
+        ("run time, s", float(sum(timings.values())) if timings else None, "0.0"),
+        ("independent check", check, None),
+        ("recomputed cost, {cur}/yr", summary.get("recomputed_objective"), "#,##0"),
+        ("largest violation (the rule's own unit)", summary.get("largest_violation"), "0.00E+00"),
+        ("rule of the largest violation", summary.get("largest_violation_rule"), None),
+        ("lost demand allowed by netopt (not by the settings)", bool(summary.get("lost_demand_allowed")), None),
+    ]
+
+
+def _write_about(ws, notes: str | None, summary: dict | None, currency: str) -> None:
+    """The first sheet: the notes (the disclaimer), then the solve's facts (:func:`run_facts`)."""
+    from openpyxl.styles import Font
+
+    row = 1
+    for line in (notes or "").splitlines():
+        _text_cell(ws, row, 1, line)
+        row += 1
+    ws.column_dimensions["A"].width = 120 if summary is None else 52
+    if summary is None:
+        return
+    row += 1 if notes else 0
+    _text_cell(ws, row, 1, "this solve").font = Font(bold=True)
+    for fact, value, fmt in run_facts(summary):
+        row += 1
+        _text_cell(ws, row, 1, fact.replace("{cur}", currency or "currency"))
+        if isinstance(value, str):
+            _text_cell(ws, row, 2, value)
+        elif value is not None:
+            cell = ws.cell(row=row, column=2, value=value)
+            if fmt and not isinstance(value, bool):
+                cell.number_format = fmt
+    ws.column_dimensions["B"].width = 60
+
+
 def write_workbook(
     sheets: dict[str, pd.DataFrame],
     path: str | Path,
     notes: str | None = None,
     currency: str = "",
     tables: dict[str, str] | None = None,
+    summary: dict | None = None,
 ) -> None:
     """One sheet per table: bold header, frozen header row, number formats, column widths; values only.
 
@@ -71,6 +119,8 @@ def write_workbook(
     as %, days, money in ``currency``; the ``kpis`` sheet is formatted row by row from each
     indicator's unit.  ``tables`` maps a sheet name to the declared table it holds (default: the
     sheet name itself, e.g. ``comparison``, ``spof_ranking``); undeclared columns stay unformatted.
+    ``notes`` (the disclaimer) and a solve's ``summary`` (``Result.summary()``: status, message,
+    objective, bound, gap, time, the independent check) go on a first sheet, "about".
     """
     from openpyxl import Workbook
     from openpyxl.styles import Alignment, Font, PatternFill
@@ -79,11 +129,8 @@ def write_workbook(
     wb.remove(wb.active)
     header_fill = PatternFill("solid", fgColor="DCE6E4")
     taken: set[str] = set()
-    if notes:
-        ws = wb.create_sheet(_sheet_name("about", taken))
-        for i, line in enumerate(notes.splitlines(), start=1):
-            _text_cell(ws, i, 1, line)
-        ws.column_dimensions["A"].width = 120
+    if notes or summary is not None:
+        _write_about(wb.create_sheet(_sheet_name("about", taken)), notes, summary, currency)
     for name, df in sheets.items():
         ws = wb.create_sheet(_sheet_name(name, taken))
         cols = [str(c) for c in df.columns]
