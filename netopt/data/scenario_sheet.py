@@ -18,6 +18,7 @@ import math
 import pandas as pd
 
 from netopt.data.case import Problem
+from netopt.data.names import name_problem
 
 SHEET = "scenarios"
 SCENARIO_COLUMNS = ("scenario", "description", "based_on", "resolve", "frontier_points")
@@ -55,10 +56,14 @@ def scenarios_from_sheet(frame: pd.DataFrame) -> tuple[list[dict], list[Problem]
             if cells:
                 problems.append(Problem(SHEET, int(row), "scenario", "a row with values needs a scenario name"))
             continue
+        if name not in out and (bad := name_problem(name, "the scenario name")) is not None:
+            problems.append(Problem(SHEET, int(row), "scenario", bad))
         sc = out.setdefault(name, {"name": name, "change": []})
         for col in SCENARIO_COLUMNS[1:]:
             if col in cells:
                 v = _value(cells[col]) if col in INT_FIELDS else cells[col]
+                if col == "based_on" and (bad := name_problem(v, "based_on")) is not None:
+                    problems.append(Problem(SHEET, int(row), col, f"scenario '{name}': {bad}"))
                 if col in sc and sc[col] != v:
                     problems.append(
                         Problem(SHEET, int(row), col, f"scenario '{name}' has two {col} values: '{sc[col]}' and '{v}'")

@@ -17,18 +17,20 @@ docs read the registry.
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.data.names import shown
 from netopt.data.schema import TABLES
 from netopt.engine.held import BoundPlan, HeldNetwork
 from netopt.engine.result import Result
 from netopt.network.lanes import build_lanes
-from netopt.studies.case_edit import CaseEdit, append_row
+from netopt.studies.case_edit import CaseEdit, Fields, append_row, change_problems
 from netopt.studies.change_costs import (
+    COST_TARGETS,
     edit_scale_cost,
     edit_set_capacity,
     edit_share_cap,
@@ -47,6 +49,7 @@ class ChangeKind:
     edit_case: Callable[[CaseEdit, Change], None]
     held_bounds: Callable[[HeldNetwork, Change, Case], BoundPlan | None] | None = None
     edits_lanes: bool = False  # the lane table must be rebuilt after this change
+    fields: Fields = field(default_factory=Fields)  # what the parser checks before the case is touched
 
 
 # ---------------------------------------------------------------------------------- sites
@@ -312,6 +315,9 @@ def _held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPla
 
 # ---------------------------------------------------------------------------------- the registry
 
+LANE_ENDS = ("origin", "destination")
+AT_LEAST_0 = (0.0, None)  # (minimum, maximum) of a field that is a count, a capacity or a factor
+
 CHANGE_KINDS: dict[str, ChangeKind] = {
     k.name: k
     for k in (
@@ -320,14 +326,22 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             "Add a candidate DC: dc, lat, lon and any dcs column (fixed_cost, capacity, handling_cost, …)",
             _edit_add_dc,
             edits_lanes=True,
+            fields=Fields(required=("dc", "lat", "lon"), codes=("dc",), open="dcs columns"),
         ),
-        ChangeKind("force_dc", "Force a DC's decision: dc, to = open | closed | free", _edit_force_dc, _held_force_dc),
+        ChangeKind(
+            "force_dc",
+            "Force a DC's decision: dc, to = open | closed | free",
+            _edit_force_dc,
+            _held_force_dc,
+            fields=Fields(required=("dc", "to"), codes=("dc",), choices={"to": ("open", "closed", "free")}),
+        ),
         ChangeKind(
             "close_lane",
             "Remove a lane: origin, destination, mode (blank = every mode), product (blank = all)",
             _edit_close_lane,
             _held_close_lane,
             edits_lanes=True,
+            fields=Fields(required=LANE_ENDS, codes=(*LANE_ENDS, "mode", "product")),
         ),
         ChangeKind(
             "cap_lane",
@@ -335,6 +349,11 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             _edit_cap_lane,
             _held_cap_lane,
             edits_lanes=True,
+            fields=Fields(
+                required=(*LANE_ENDS, "capacity"),
+                codes=(*LANE_ENDS, "mode", "product"),
+                numbers={"capacity": AT_LEAST_0},
+            ),
         ),
         ChangeKind(
             "site_out",
@@ -342,45 +361,84 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             "is held; a redesign may close it)",
             _edit_site_out,
             _held_site_out,
+            fields=Fields(required=("site",), codes=("site",)),
         ),
         ChangeKind(
             "policy",
             "Change policy settings: any [policy] name = value (e.g. max_supplier_share = 0.6)",
             _edit_policy,
+            fields=Fields(open="[policy] settings"),
         ),
-        ChangeKind("setting", "Change any setting: section, then name = value", _edit_setting),
+        ChangeKind(
+            "setting",
+            "Change any setting: section, then name = value",
+            _edit_setting,
+            fields=Fields(required=("section",), codes=("section",), open="settings of that section"),
+        ),
         ChangeKind(
             "service_class",
             "Change a service class: service_class, and max_days (days), target_share (share of demand) "
             "and/or late_cost_per_unit (currency/unit; 0 = hard)",
             _edit_service_class,
+            fields=Fields(
+                required=("service_class",),
+                codes=("service_class",),
+                numbers=dict.fromkeys(SERVICE_CLASS_FIELDS, AT_LEAST_0),
+            ),
         ),
         ChangeKind(
             "scale_demand",
             "Scale demand: factor; optional region, customer, product filters",
             _edit_scale_demand,
             _held_scale_demand,
+            fields=Fields(
+                required=("factor",), codes=("region", "customer", "product"), numbers={"factor": AT_LEAST_0}
+            ),
         ),
         ChangeKind(
             "scale_cost",
             "Scale a cost: factor and target = mode_rate (mode) | supplier_price (supplier, product) | "
             "dc_fixed_cost (dc) | production_cost (plant, product) | handling_cost (dc)",
             edit_scale_cost,
+            fields=Fields(
+                required=("target", "factor"),
+                codes=("mode", "supplier", "product", "dc", "plant"),
+                choices={"target": COST_TARGETS},
+                numbers={"factor": AT_LEAST_0},
+            ),
         ),
         ChangeKind(
             "share_cap",
             "Cap one supplier's share: supplier (optional product) for its cap at every site, or site (plant "
             "or DC) for that site's cap on any one supplier; max_share (share); the policy's cap still applies",
             edit_share_cap,
+            fields=Fields(
+                required=("max_share",), codes=("supplier", "site", "product"), numbers={"max_share": (0.0, 1.0)}
+            ),
         ),
         ChangeKind(
             "set_capacity",
             "Change a capacity: site (supplier, plant or DC), optional product, capacity or factor",
             edit_set_capacity,
             held_set_capacity,
+            fields=Fields(
+                required=("site",), codes=("site", "product"), numbers={"capacity": AT_LEAST_0, "factor": AT_LEAST_0}
+            ),
         ),
     )
 }
+
+
+def check_change(ch: object) -> list[str]:
+    """Every problem with change ``ch`` found without the case: a known kind, its fields present, of the
+    right type and in range (a number too large for a float, NaN or infinite is refused)."""
+    if not isinstance(ch, dict):
+        return change_problems(ch, Fields())
+    kind = ch.get("kind")
+    if not isinstance(kind, str) or kind.strip() not in CHANGE_KINDS:
+        what = "kind is missing" if kind is None else f"unknown kind {shown(kind)}"
+        return [f"{what} (one of: {', '.join(CHANGE_KINDS)})"]
+    return change_problems(ch, CHANGE_KINDS[kind.strip()].fields)
 
 
 def held_plan(held: HeldNetwork, changes: list[Change], sc_case: Case) -> BoundPlan | None:
