@@ -5,10 +5,12 @@ why.  A capacity is a *candidate* when the elastic plan loads it to its limit (w
 ``AT_LIMIT`` of it): a plant's production capacity (the bound of ``make``), an arc's own
 capacity (the bound of ``flow``), a supplier offer (``supplier_capacity``), a DC's throughput
 (``dc_throughput``, the open options' capacity) or a lane shared by products (``lane_capacity``).
-Every candidate is then lifted at once and the elastic model re-solved: the load a candidate
+Every candidate may then be exceeded at ``LIFT_SHARE`` of the elastic penalty per unit — far
+below the penalty on unmet demand, far above any cost per unit of the plan — and the elastic model
+is re-solved: the plan serves the demand with the least capacity added, and the load a candidate
 carries then is what serving the demand *needs* there.  A candidate is *binding* when that need
 exceeds its capacity; the amount reported is the capacity missing (units/yr; 0 for a capacity at
-its limit that the plan without the limits does not need more of).
+its limit that the demand needs no more of).
 
 | symbol | meaning | unit | name in code |
 |---|---|---|---|
@@ -24,10 +26,12 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from netopt.engine.highs import HighsModel
+from netopt.engine.highs import INF, HighsModel
+from netopt.engine.highs_check import require_ok
 from netopt.engine.relief import Slack
 from netopt.model.core import Builder
 
+LIFT_SHARE = 1e-3  # price of a unit above a capacity, as a share of the elastic penalty (unmet demand)
 AT_LIMIT = 1e-6  # a load within this share of its capacity (and at least 1e-6 units) is at its limit
 RULE_OF_BLOCK = {"make": "plant_capacity", "flow": "arc_capacity"}
 ROW_FAMILIES = ("supplier_capacity", "lane_capacity", "dc_throughput")
@@ -122,18 +126,46 @@ def capacities_at_limit(
     return out
 
 
-def lift(hm: HighsModel, limits: list[Limit]) -> None:
-    """Remove every capacity of ``limits`` from the model in HiGHS (bounds to ∞, rules free)."""
+def lift(hm: HighsModel, slack: Slack, limits: list[Limit], price: float) -> None:
+    """Let every capacity of ``limits`` be exceeded at ``price`` per unit (currency/unit) in the model in HiGHS.
+
+    A variable bound x ≤ U becomes x − e ≤ U with a new column e ≥ 0 at ``price``; a rule's own slack
+    column (the excess over its limit) gets ``price`` instead of the elastic penalty.
+    """
+    h = hm.highs
     for block in RULE_OF_BLOCK:
-        idx = np.array([lim.index for lim in limits if lim.block == block], dtype=np.int64)
-        if len(idx):
-            lo = hm.builder.var_bounds[block][0][idx]
-            hm.set_bounds(block, idx, lo, np.full(len(idx), np.inf))
-    hm.free_rows(np.array(sorted({lim.row for lim in limits if lim.row >= 0}), dtype=np.int32))
+        picked = [lim for lim in limits if lim.block == block]
+        if not picked:
+            continue
+        idx = np.array([lim.index for lim in picked], dtype=np.int64)
+        cols = hm.col_of[block][idx]
+        ok = cols >= 0
+        idx, cols, cap = idx[ok], cols[ok].astype(np.int32), np.array([lim.capacity for lim in picked])[ok]
+        k = len(cols)
+        if not k:
+            continue
+        first = int(h.getNumCol())
+        zero = np.zeros(0, dtype=np.int32)
+        require_ok(
+            h.addCols(k, np.full(k, price), np.zeros(k), np.full(k, INF), 0, zero, zero, np.zeros(0)),
+            "add the capacity excess columns",
+        )
+        starts = np.arange(0, 2 * k, 2, dtype=np.int32)
+        index = np.column_stack([cols, np.arange(first, first + k, dtype=np.int32)]).ravel()
+        value = np.tile([1.0, -1.0], k)
+        require_ok(h.addRows(k, np.full(k, -INF), cap, 2 * k, starts, index, value), "add the capacity excess rows")
+        hm.set_bounds(block, idx, hm.builder.var_bounds[block][0][idx], np.full(k, np.inf))
+    rows = {lim.row for lim in limits if not lim.block and lim.row >= 0}
+    own = np.flatnonzero(np.isin(slack.hrow, list(rows)) & (slack.sign < 0)) if rows else np.zeros(0, int)
+    if len(own):
+        require_ok(
+            h.changeColsCost(len(own), slack.cols[own].astype(np.int32), np.full(len(own), price)),
+            "price the excess over the capacities",
+        )
 
 
 def binding_rows(hm: HighsModel, slack: Slack, limits: list[Limit], vals: dict[str, np.ndarray], x, row_value):
-    """Diagnosis rows of the capacities of ``limits`` whose load in the lifted plan ``vals`` exceeds them."""
+    """Diagnosis rows of the capacities of ``limits``, the ones the lifted plan ``vals`` exceeds first."""
     need_of: dict[str, np.ndarray] = {}
     rows: list[dict] = []
     binding: list[bool] = []
@@ -154,8 +186,8 @@ def binding_rows(hm: HighsModel, slack: Slack, limits: list[Limit], vals: dict[s
                     f"binding capacity: {lim.capacity:,.6g} units/yr, loaded to its limit; serving the demand "
                     f"needs {need:,.6g} units/yr here (amount: the capacity missing, units/yr)"
                     if short
-                    else f"capacity {lim.capacity:,.6g} units/yr, loaded to its limit (the plan without these "
-                    f"limits needs {need:,.6g} units/yr here)"
+                    else f"capacity {lim.capacity:,.6g} units/yr, loaded to its limit (serving the demand with the "
+                    f"least capacity added needs {need:,.6g} units/yr here)"
                 ),
             }
         )

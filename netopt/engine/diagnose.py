@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from netopt.engine.binding import binding_rows, capacities_at_limit, lift
+from netopt.engine.binding import LIFT_SHARE, binding_rows, capacities_at_limit, lift
 from netopt.engine.highs import compile_model
 from netopt.engine.highs_check import ModelRejected
 from netopt.engine.relief import add_slack
@@ -98,7 +98,7 @@ def _binding_capacities(hm, slack, vals, x, row_value) -> list[dict]:
     if not limits:
         return []
     try:
-        lift(hm, limits)
+        lift(hm, slack, limits, LIFT_SHARE * hm.builder.elastic_penalty)
         # A fresh MIP solve: HiGHS re-running a MIP after bound changes was seen to report the old
         # plan with an objective that is not that plan's (highspy 1.16).
         hm.highs.clearSolver()
@@ -111,7 +111,7 @@ def _binding_capacities(hm, slack, vals, x, row_value) -> list[dict]:
                 "rule": lim.rule,
                 "where": lim.where,
                 "amount": float("nan"),
-                "meaning": f"capacity {lim.capacity:,.6g} units/yr, loaded to its limit (the re-solve without it "
+                "meaning": f"capacity {lim.capacity:,.6g} units/yr, loaded to its limit (the re-solve allowing more of it "
                 "gave no plan, so the need is not known)",
             }
             for lim in limits
