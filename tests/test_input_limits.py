@@ -190,6 +190,14 @@ def test_a_workbook_header_differing_only_in_case_is_an_error(tmp_path):
     assert "'capacity'" in p.message
 
 
+def test_two_sheets_of_one_name_but_for_spaces_are_an_error(tmp_path):
+    book = _tiny_workbook(tmp_path)
+    wb = openpyxl.load_workbook(book)
+    wb.copy_worksheet(wb["demand"]).title = " demand "
+    wb.save(book)
+    find(problems_of(book).problems, "demand", None, None, "two sheets")
+
+
 # --------------------------------------------------------------------------- formulas in workbooks (defect 6)
 
 

@@ -142,8 +142,13 @@ def _read_sheets(path: Path, wb):
     settings: dict = {}
     rows: dict = {}
     names = [str(ws.title).strip() for ws in wb.worksheets]
-    for ws, sheet in zip(wb.worksheets, names):
+    for i, (ws, sheet) in enumerate(zip(wb.worksheets, names)):
         if sheet in IGNORED_SHEETS:
+            continue
+        if sheet in names[:i]:
+            problems.append(
+                Problem(sheet, None, None, f"two sheets are named '{sheet}' (spaces around a name do not count)")
+            )
             continue
         if sheet not in KNOWN_SHEETS:
             like = resembled(sheet, KNOWN_SHEETS)
