@@ -15,11 +15,12 @@ import pytest
 import tomllib
 from casekit import make_case_dir
 
+from netopt.api import load_case
 from netopt.cli import main
 from netopt.data.case import CaseError
 from netopt.data.limits import MAX_FRONTIER_POINTS
 from netopt.data.scenario_sheet import scenarios_from_sheet
-from netopt.studies.scenarios import parse_scenarios
+from netopt.studies.scenarios import parse_scenarios, scenario_cases
 
 DEMO = Path(__file__).resolve().parents[1] / "cases" / "brackenholt"
 BIG = "1" + "0" * 400  # a TOML integer too large for a float
@@ -246,3 +247,51 @@ def test_the_cli_exits_2_before_solving_with_no_traceback(tmp_path, capsys, verb
     err = capsys.readouterr().err
     assert e.value.code == 2 and says in err and "Traceback" not in err
     assert not (tmp_path / "out").exists()
+
+
+# ------------------------------------------------------------------------ found by hostile input (item 6)
+
+ADD = {"dc": '"DC_X"', "lat": "45", "lon": "4"}
+
+
+@pytest.mark.parametrize(
+    ("fields", "says"),
+    [
+        ({**ADD, "region": "[1]"}, "region must be text (a code), not [1]"),
+        ({**ADD, "capacity": "true"}, "capacity must be a number, not True"),
+        ({**ADD, "status": '"maybe"'}, "status must be one of existing, candidate"),
+        ({"dc": '"DC_X"', "lat": "45"}, "lon is required"),
+    ],
+)
+def test_an_added_dc_s_fields_are_typed_as_the_dcs_table_declares(fields, says):
+    """add_dc took a list as a region and true as a capacity (both became cells of the new DC row)."""
+    assert f"change 1 (add_dc): {says}" in refused(change("add_dc", **fields))
+
+
+def test_set_capacity_refuses_both_capacity_and_factor_and_a_factor_on_an_unlimited_capacity(tmp_path):
+    """capacity and factor together silently dropped the factor; factor 0 on a blank (unlimited) capacity
+    gave NaN, read as unlimited again."""
+    toml = change("set_capacity", site='"ORE-N"', factor="0") + change(
+        "set_capacity", site='"DC-FRA"', capacity="1", factor="2"
+    ).replace('"s"', '"t"')
+    case = load_case(make_case_dir(tmp_path, scenarios=toml))
+    with pytest.raises(CaseError) as e:
+        scenario_cases(case, parse_scenarios(case.scenarios))
+    text = e.value.report()
+    assert "scenario 's', change 1 (set_capacity): 'ORE-N' has no capacity limit" in text
+    assert "scenario 't', change 1 (set_capacity): give capacity or factor, not both" in text
+
+
+def test_a_long_based_on_chain_parses_and_a_long_loop_is_named_briefly():
+    raw = [{"name": f"s{i}", "based_on": f"s{i - 1}" if i else ""} for i in range(3000)]
+    assert len(parse_scenarios(raw)) == 3000
+    raw[0]["based_on"] = "s2999"
+    with pytest.raises(CaseError) as e:
+        parse_scenarios(raw)
+    (p,) = e.value.problems
+    assert "based_on forms a loop (s0 → s2999 → s2998 → s2997 → … 2996 more → s0)" in p.message
+
+
+def test_a_sheet_code_with_leading_zeros_stays_text():
+    entries, _ = scenarios_from_sheet(sheet([{"scenario": "a", "kind": "site_out", "site": "007"}]))
+    assert entries[0]["change"] == [{"kind": "site_out", "site": "007"}]

@@ -27,15 +27,18 @@ INT_FIELDS = ("frontier_points",)
 
 
 def _value(text: str):
-    """A cell's text as the TOML value it stands for: a whole number, a number, true/false, or text."""
+    """A cell's text as the TOML value it stands for: a whole number, a number, true/false, or text
+    (a whole number written with leading zeros or a sign, such as a code ``007``, stays text)."""
     t = text.strip()
     low = t.lower()
     if low in ("true", "false"):
         return low == "true"
     try:
-        return int(t)
+        whole = int(t)
     except ValueError:
         pass
+    else:
+        return whole if str(whole) == t else t  # "007" stays a code, not the number 7
     try:
         v = float(t)
     except (ValueError, OverflowError):

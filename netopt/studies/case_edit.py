@@ -20,7 +20,7 @@ Change = dict  # one change: {"kind": ..., field: value, ...}
 class Fields:
     """The fields a change kind reads, checked when scenarios are parsed (before the case is touched).
 
-    ``codes`` are site, product, mode, region or class codes (text, or a whole number written bare);
+    ``codes`` are site, product, mode, region or class codes (text, or a number written bare);
     ``choices`` are text from a list; ``numbers`` map a field to its (minimum, maximum), None = no bound.
     ``open`` names the other fields a kind takes, checked when it is applied (dcs columns, settings):
     their values must be plain values (text, numbers, true/false, or a list of them).
@@ -55,8 +55,10 @@ def number_problem(key: str, value: object, minimum: float | None = 0.0, maximum
 
 
 def code_problem(key: str, value: object) -> str | None:
-    """Why field ``key`` = ``value`` is not a code (text, or a whole number written bare)."""
+    """Why field ``key`` = ``value`` is not a code (text, or a number written bare, as a sheet cell reads)."""
     if isinstance(value, str) or (isinstance(value, int) and not isinstance(value, bool) and abs(value) < 10**18):
+        return None
+    if isinstance(value, float) and math.isfinite(value):
         return None
     return f"{key} must be text (a code), not {shown(value)}"
 

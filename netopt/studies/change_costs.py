@@ -83,17 +83,26 @@ def capacity_rows(ed: CaseEdit, ch: Change) -> tuple[pd.DataFrame | None, pd.Ser
 
 
 def edit_set_capacity(ed: CaseEdit, ch: Change) -> None:
+    """A new capacity (units/yr), or the present one times ``factor``; an unlimited capacity has no
+    size to scale, so a factor on it is refused."""
     df, mask = capacity_rows(ed, ch)
-    if "capacity" in ch:
+    if ("capacity" in ch) == ("factor" in ch):
+        ed.errors.append("give capacity or factor" + (", not both" if "capacity" in ch else ""))
+    elif "capacity" in ch:
         v = ed.number(ch, "capacity")
         if df is not None and not ed.errors:
             df.loc[mask, "capacity"] = v
-    elif "factor" in ch:
+    else:
         v = ed.number(ch, "factor")
         if df is not None and not ed.errors:
-            df.loc[mask, "capacity"] = df.loc[mask, "capacity"] * v
-    else:
-        ed.errors.append("give capacity or factor")
+            unlimited = mask & ~np.isfinite(df["capacity"].astype(float))
+            if unlimited.any():
+                ed.errors.append(
+                    f"'{ed.text(ch, 'site')}' has no capacity limit (blank) on {int(unlimited.sum())} row(s): a factor "
+                    "cannot scale it; give capacity instead"
+                )
+            else:
+                df.loc[mask, "capacity"] = df.loc[mask, "capacity"] * v
 
 
 def held_set_capacity(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:

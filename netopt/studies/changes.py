@@ -315,6 +315,19 @@ def _held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPla
 
 # ---------------------------------------------------------------------------------- the registry
 
+
+def table_fields(table: str) -> Fields:
+    """The fields of a change that adds a row to ``table``: its columns as the schema declares them
+    (ranges are checked with the table once the row is added)."""
+    cols = TABLES[table].columns
+    return Fields(
+        required=tuple(c.name for c in cols if c.required),
+        codes=tuple(c.name for c in cols if c.type == "str" and not c.choices),
+        choices={c.name: tuple(c.choices) for c in cols if c.type == "str" and c.choices},
+        numbers={c.name: (None, None) for c in cols if c.type in ("float", "int")},
+    )
+
+
 LANE_ENDS = ("origin", "destination")
 AT_LEAST_0 = (0.0, None)  # (minimum, maximum) of a field that is a count, a capacity or a factor
 
@@ -326,7 +339,7 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             "Add a candidate DC: dc, lat, lon and any dcs column (fixed_cost, capacity, handling_cost, …)",
             _edit_add_dc,
             edits_lanes=True,
-            fields=Fields(required=("dc", "lat", "lon"), codes=("dc",), open="dcs columns"),
+            fields=table_fields("dcs"),
         ),
         ChangeKind(
             "force_dc",

@@ -15,8 +15,11 @@ A case may hold ``scenarios.toml`` with ``[[scenario]]`` entries::
       destination = "PLANT_POZNAN"
       mode = "ocean"         # blank or absent = every mode
 
-Change kinds (see :data:`netopt.studies.changes.CHANGE_KINDS`, where each kind's two meanings live): add_dc, force_dc, close_lane, cap_lane,
-site_out, policy, setting, scale_demand, scale_cost, set_capacity.
+Change kinds (see :data:`netopt.studies.changes.CHANGE_KINDS`, where each kind's fields and two meanings
+live): add_dc, force_dc, close_lane, cap_lane, site_out, policy, setting, service_class, scale_demand,
+scale_cost, share_cap, set_capacity.  A single ``[scenario.change]`` table counts as one change.  The
+definitions are read and checked (names, fields, limits, result folders) in
+:mod:`netopt.studies.scenario_defs`, before anything is solved.
 
 *Hold the network* keeps the base's DC decisions and re-routes only (short-term
 recovery); DCs taken out are closed.  With openings fixed the model is a linear
@@ -38,156 +41,24 @@ from dataclasses import dataclass, field
 import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
-from netopt.data.limits import MAX_FRONTIER_POINTS
-from netopt.data.names import folder_clashes, label_problem, name_problem, shown
-from netopt.data.scenario_sheet import SHEET
-from netopt.data.text import close_match_hint
 from netopt.data.validate import validate_and_coerce
 from netopt.engine.held import HeldNetwork, held_decisions, settings_with_lost_demand
 from netopt.engine.result import Result
 from netopt.engine.solve import solve
 from netopt.studies.case_edit import CaseEdit, site_kinds
-from netopt.studies.changes import CHANGE_KINDS, check_change, resolve_held
+from netopt.studies.changes import CHANGE_KINDS, resolve_held
 from netopt.studies.comparison import comparison_row, dc_decisions, share_changes
 from netopt.studies.frontier import scenario_frontier
-
-RESOLVE = ("redesign", "hold", "both")
-
-
-# ---------------------------------------------------------------------------------- parsing
-
-
-@dataclass
-class Scenario:
-    """One named scenario: its changes (dicts with a ``kind``) and how to re-solve it."""
-
-    name: str
-    changes: list[dict]
-    description: str = ""
-    based_on: str = ""
-    resolve: str = "redesign"
-    frontier_points: int = 0  # ≥ 2: also sweep this scenario's cost–CO2 frontier (netopt.studies.frontier)
-    source: str = "scenarios.toml"  # where it was read: named in its problems
-
-
-SCENARIO_ENTRIES = ("name", "description", "based_on", "resolve", "change", "frontier_points")
-"""What a ``[[scenario]]`` table may hold; anything else is refused (a typo would be ignored silently)."""
-
-
-def _changes(sc: dict, where: str, label: str, problems: list[Problem]) -> list[dict]:
-    """The scenario's changes, each checked (:func:`check_change`); a single ``[scenario.change]``
-    table counts as one change."""
-    changes = sc.get("change", [])
-    if isinstance(changes, dict):
-        changes = [changes]
-    if not isinstance(changes, list):
-        msg = f"{where}: change must be tables written as [[scenario.change]], not {shown(changes)}"
-        problems.append(Problem(label, None, None, msg))
-        return []
-    for i, ch in enumerate(changes, start=1):
-        kind = ch.get("kind") if isinstance(ch, dict) else None
-        head = f"{where}, change {i}" + (f" ({kind})" if isinstance(kind, str) and kind.strip() in CHANGE_KINDS else "")
-        problems += [Problem(label, None, None, f"{head}: {p}") for p in check_change(ch)]
-    return [dict(c, kind=str(c["kind"]).strip()) for c in changes if isinstance(c, dict) and "kind" in c]
-
-
-def _frontier_points(sc: dict, where: str, label: str, problems: list[Problem]) -> int:
-    """frontier_points: 0 (none) or a whole number from 2 to :data:`MAX_FRONTIER_POINTS` (one solve each)."""
-    points = sc.get("frontier_points", 0)
-    bad = isinstance(points, bool) or not isinstance(points, int) or (points != 0 and points < 2)
-    if bad or points > MAX_FRONTIER_POINTS:
-        limit = f"from 2 to {MAX_FRONTIER_POINTS} (each point is one full solve), or 0 for none"
-        problems.append(
-            Problem(label, None, None, f"{where}: frontier_points must be a whole number {limit}, not {shown(points)}")
-        )
-        return 0
-    return points
-
-
-def _text_entries(sc: dict, where: str, label: str, problems: list[Problem]) -> tuple[str, str, str]:
-    """description, based_on and resolve, each checked: text, based_on a scenario name, resolve a choice."""
-    out = []
-    for key, default in (("description", ""), ("based_on", ""), ("resolve", "redesign")):
-        value = sc.get(key, default)
-        if not isinstance(value, str):
-            problems.append(Problem(label, None, None, f"{where}: {key} must be text in quotes, not {shown(value)}"))
-            value = default
-        out.append(value if key == "description" else value.strip() or default)
-    description, based_on, resolve = out
-    if based_on and (bad := name_problem(based_on, "based_on")):
-        problems.append(Problem(label, None, None, f"{where}: {bad}"))
-        based_on = ""
-    if resolve not in RESOLVE:
-        problems.append(
-            Problem(label, None, None, f"{where}: resolve must be one of {', '.join(RESOLVE)}, not {shown(resolve)}")
-        )
-    return description, based_on, resolve
-
-
-def scenario_source(case: Case) -> str:
-    """Where ``case``'s scenarios were read: ``scenarios.toml``, or the workbook's scenarios sheet."""
-    return SHEET if case.path is not None and case.path.suffix.lower() in (".xlsx", ".xlsm") else "scenarios.toml"
-
-
-def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml") -> list[Scenario]:
-    """Scenario definitions from the TOML structure (or the workbook's scenarios sheet, ``label`` naming
-    it); every problem reported at once, before anything is solved."""
-    if raw is None:
-        return []
-    if isinstance(raw, dict):
-        raw = raw.get("scenario", [])
-    if not isinstance(raw, list):
-        msg = f"expected an array of tables written as [[scenario]], not {shown(raw)}"
-        raise CaseError([Problem(label, None, None, msg)])
-    problems: list[Problem] = []
-    out: list[Scenario] = []
-    seen: dict[str, int] = {}
-    for k, sc in enumerate(raw, start=1):
-        if not isinstance(sc, dict):
-            msg = f"scenario {k} must be a table written as [[scenario]], not {shown(sc)}"
-            problems.append(Problem(label, None, None, msg))
-            continue
-        bad = name_problem(sc["name"]) if "name" in sc else "every scenario needs a name"
-        name = sc["name"].strip() if bad is None else ""
-        where = f"scenario {k}" + (f" '{name}'" if name else "")
-        if bad is None and (name in seen or name.casefold() == "base"):
-            bad = f"the name is used twice or is 'base' ({f'scenario {seen[name]} has it too' if name in seen else 'reserved'})"
-        if bad is not None:
-            problems.append(Problem(label, None, None, f"{where}: {bad}"))
-        seen.setdefault(name, k)
-        description, based_on, resolve = _text_entries(sc, where, label, problems)
-        changes = _changes(sc, where, label, problems)
-        points = _frontier_points(sc, where, label, problems)
-        for u in sorted(set(sc) - set(SCENARIO_ENTRIES), key=str):
-            hint = close_match_hint(str(u), SCENARIO_ENTRIES)
-            msg = f"{where}: unknown entry {shown(u)}{hint} (a scenario takes: {', '.join(SCENARIO_ENTRIES)})"
-            problems.append(Problem(label, None, None, msg))
-        if name and bad is None:
-            out.append(Scenario(name, changes, description, based_on, resolve, points, label))
-    problems += [Problem(label, None, None, m) for m in label_problems(out)]
-    names = {s.name for s in out}
-    for s in out:
-        if s.based_on and s.based_on not in names:
-            problems.append(
-                Problem(label, None, None, f"scenario '{s.name}': based_on '{s.based_on}' is not a scenario")
-            )
-    # cycles
-    by = {s.name: s for s in out}
-    for s in out:
-        chain: list[str] = []
-        cur: Scenario | None = s
-        while cur is not None and cur.based_on:
-            if cur.name in chain:
-                problems.append(
-                    Problem(label, None, None, f"scenario '{s.name}': based_on forms a loop ({' → '.join(chain)})")
-                )
-                break
-            chain.append(cur.name)
-            cur = by.get(cur.based_on)
-    if any(p.severity == "error" for p in problems):
-        raise CaseError(problems)
-    return out
-
+from netopt.studies.scenario_defs import (  # the definitions are read there; callers may import them from here
+    PRICED_SUFFIX,  # noqa: F401
+    RESOLVE,  # noqa: F401
+    Scenario,
+    parse_scenarios,
+    priced_label,
+    scenario_chain,
+    scenario_source,
+    solve_labels,
+)
 
 # ---------------------------------------------------------------------------------- applying
 
@@ -223,17 +94,6 @@ def apply_changes(case: Case, sc: Scenario, changes: list[dict] | None = None) -
     return Case(c.name, typed, typed_settings, c.path, c.scenarios, c.warnings, lanes)
 
 
-def scenario_chain(scenarios: list[Scenario], name: str) -> list[Scenario]:
-    """Scenario ``name`` and the scenarios it is ``based_on``, the first of the chain first."""
-    by = {s.name: s for s in scenarios}
-    chain: list[Scenario] = []
-    cur: Scenario | None = by[name]
-    while cur is not None:
-        chain.append(cur)
-        cur = by.get(cur.based_on) if cur.based_on else None
-    return chain[::-1]
-
-
 def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
     """The case of scenario ``name``, its based_on chain applied first."""
     out = case
@@ -243,17 +103,30 @@ def scenario_case(case: Case, scenarios: list[Scenario], name: str) -> Case:
 
 
 def scenario_cases(case: Case, scenarios: list[Scenario], chosen: list[Scenario] | None = None) -> dict[str, Case]:
-    """The case of each chosen scenario (all by default), every problem of every scenario at once."""
-    cases: dict[str, Case] = {}
+    """The case of each chosen scenario (all by default), every problem of every scenario at once.
+
+    A based_on parent's case is made once and shared by its children (a long chain costs one edit per
+    link, and a parent's problems are reported once)."""
+    by = {s.name: s for s in scenarios}
+    built: dict[str, Case | None] = {}
     problems: list[Problem] = []
     for sc in scenarios if chosen is None else chosen:
-        try:
-            cases[sc.name] = scenario_case(case, scenarios, sc.name)
-        except CaseError as e:
-            problems += e.problems
+        todo: list[Scenario] = []  # sc and its parents not made yet, the nearest first
+        cur: Scenario | None = sc
+        while cur is not None and cur.name not in built:
+            todo.append(cur)
+            cur = by[cur.based_on] if cur.based_on else None
+        for link in reversed(todo):
+            parent = built[link.based_on] if link.based_on else case
+            built[link.name] = None
+            if parent is not None:
+                try:
+                    built[link.name] = apply_changes(parent, link)
+                except CaseError as e:
+                    problems += e.problems
     if problems:
         raise CaseError(problems)
-    return cases
+    return {sc.name: c for sc in (scenarios if chosen is None else chosen) if (c := built[sc.name]) is not None}
 
 
 def all_changes(scenarios: list[Scenario], name: str) -> list[dict]:
@@ -276,34 +149,6 @@ class ScenarioRun:
     dc_decisions: pd.DataFrame = field(default_factory=pd.DataFrame)  # DC × solve: decision, throughput
     supplier_share_changes: pd.DataFrame = field(default_factory=pd.DataFrame)  # each solve against the base
     mode_mix_changes: pd.DataFrame = field(default_factory=pd.DataFrame)  # each solve against the base
-
-
-PRICED_SUFFIX = "lost demand priced"
-"""Label part of the priced alternative's row: ``name [hold, lost demand priced]``."""
-
-
-def solve_labels(s: Scenario) -> list[tuple[str, str]]:
-    """(re-solve, comparison label) of each solve of ``s``: its name, or ``name [hold]`` and
-    ``name [redesign]`` when it asks for both."""
-    modes = ["hold", "redesign"] if s.resolve == "both" else [s.resolve]
-    return [(how, s.name if len(modes) == 1 else f"{s.name} [{how}]") for how in modes]
-
-
-def label_problems(scenarios: list[Scenario]) -> list[str]:
-    """Labels of the rows a run may write (each solve and its priced alternative) that give no folder,
-    too long a folder or the folder of another label (:mod:`netopt.data.names`); frontier files are
-    named by the scenario names, so those may not share a folder name either."""
-    labels = [(lab, s.name) for s in scenarios for _, row in solve_labels(s) for lab in (row, priced_label(row))]
-    out = [f"scenario {shown(s)}: {p}" for lab, s in labels if (p := label_problem(lab)) is not None]
-    places = [(lab, s, "scenarios/") for lab, s in labels] + [(s.name, s.name, "frontier_") for s in scenarios]
-    return out + folder_clashes(places)
-
-
-def priced_label(label: str) -> str:
-    """The comparison label of the priced alternative beside infeasible row ``label``."""
-    if label.endswith("]"):
-        return f"{label[:-1]}, {PRICED_SUFFIX}]"
-    return f"{label} [{PRICED_SUFFIX}]"
 
 
 def _infeasible(r: Result) -> bool:
