@@ -19,6 +19,7 @@ from netopt.api import load_case
 from netopt.cli import main
 from netopt.data.case import CaseError
 from netopt.data.limits import MAX_FRONTIER_POINTS
+from netopt.data.names import folder_name
 from netopt.data.scenario_sheet import scenarios_from_sheet
 from netopt.studies.scenarios import parse_scenarios, scenario_cases
 
@@ -295,3 +296,27 @@ def test_a_long_based_on_chain_parses_and_a_long_loop_is_named_briefly():
 def test_a_sheet_code_with_leading_zeros_stays_text():
     entries, _ = scenarios_from_sheet(sheet([{"scenario": "a", "kind": "site_out", "site": "007"}]))
     assert entries[0]["change"] == [{"kind": "site_out", "site": "007"}]
+
+
+# ------------------------------------------------------------------------ the folder-name mapping itself
+
+
+@pytest.mark.parametrize(
+    ("label", "folder"),
+    [
+        ("lane_out_ningbo_poznan", "lane_out_ningbo_poznan"),
+        ("a/b", "a_b"),
+        ("lost [hold]", "lost__hold"),
+        ("x [hold, lost demand priced]", "x__hold__lost_demand_priced"),
+        ("...", ""),
+        ("CON", "CON_"),
+        ("nul", "nul_"),
+        ("COM1", "COM1_"),
+        ("CON [hold]", "CON__hold"),
+        ("Cafe\u0301", "Caf\u00e9"),  # NFD e + combining accent → the NFC é a macOS folder matches
+    ],
+)
+def test_folder_name_keeps_letters_digits_dash_underscore_and_avoids_windows_device_names(label, folder):
+    """Windows device names (CON, PRN, AUX, NUL, COM1-9, LPT1-9) cannot be folders there (common
+    practice, no source): they get a trailing underscore."""
+    assert folder_name(label) == folder
