@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from casekit import make_case_dir
+from casekit import make_case_dir, tiny_rows
 from scipy import sparse
 
 from netopt.data.io import load_case
@@ -91,3 +91,19 @@ def test_zero_capacity_everywhere_is_infeasible_not_a_compiler_error(tmp_path):
         case.tables[table]["capacity"] = 0.0
     r = solve(case)
     assert r.status == "infeasible" and r.diagnosis is not None and len(r.diagnosis)
+
+
+def test_a_changed_mip_is_solved_afresh_when_highs_keeps_an_old_plan(tmp_path):
+    """highspy 1.16: re-solving a solved MIP after a bound is loosened to infinity kept the old plan
+    (1,000 made, 500 units unmet) and reported another objective; the answer must cost what it says."""
+    rows = tiny_rows()
+    rows["plants"][0]["capacity"] = "1000"
+    case = load_case(make_case_dir(tmp_path, **rows))
+    hm = compile_model(build_model(build_network(case, case_lanes(case)), elastic=True))
+    assert hm.solve().objective > 1e8  # 500 units unmet at the elastic penalty
+    hm.set_bounds("make", np.array([0]), np.zeros(1), np.full(1, np.inf))
+    info = hm.solve()
+    lp = hm.highs.getLp()
+    x = np.asarray(hm.highs.getSolution().col_value)
+    assert info.objective == pytest.approx(float(np.asarray(lp.col_cost_) @ x + lp.offset_), rel=1e-9)
+    assert hm.values()["make"][0] == pytest.approx(1500.0)

@@ -92,8 +92,24 @@ class HighsModel:
             _attach_progress(h, progress)
         t0 = h.getRunTime()
         run_status = h.run()
+        if self._answer_is_stale():  # solved afresh: HiGHS re-solving a changed MIP kept an old plan
+            h.clearSolver()
+            run_status = h.run()
         elapsed = h.getRunTime() - t0
         return self._info(elapsed, run_failed=run_status == highspy.HighsStatus.kError)
+
+    def _answer_is_stale(self) -> bool:
+        """A MIP answer whose plan does not cost what HiGHS reports (seen with highspy 1.16 re-solving a
+        MIP after a bound was loosened to ∞: presolve kept the old plan and reported another objective)."""
+        h = self.highs
+        info = h.getInfo()
+        if not self.integrality.any() or info.primal_solution_status != 2:
+            return False
+        lp = h.getLp()
+        x = np.asarray(h.getSolution().col_value, dtype=float)
+        cost = float(np.asarray(lp.col_cost_, dtype=float) @ x + lp.offset_)
+        reported = float(info.objective_function_value)
+        return abs(cost - reported) > 1e-7 * max(1.0, abs(reported))
 
     def _info(self, elapsed: float, run_failed: bool = False) -> SolveInfo:
         h = self.highs
