@@ -417,3 +417,30 @@ def test_demo_still_loads_as_folder_and_workbook(tmp_path):
     shutil.copytree(DEMO, tmp_path / "demo")
     case = load_case(tmp_path / "demo")
     load_case(write_case_workbook(case, tmp_path / "demo.xlsx"))
+
+
+# --------------------------------------------------------------------------- entries that would be dropped (defect 6)
+
+
+def test_a_known_section_written_as_a_value_is_an_error_not_ignored(tmp_path):
+    folder = make_case_dir(tmp_path, settings="inventory = 5\n[case]\nname = 'tiny'\n")
+    find(problems_of(folder).problems, "settings.toml", None, "[inventory]", "is a section")
+
+
+def test_an_unknown_value_outside_any_section_stays_a_warning(tmp_path):
+    folder = make_case_dir(tmp_path, settings="colour = 5\n[case]\nname = 'tiny'\n")
+    find(load_case(folder).warnings, "settings.toml", None, "colour", "outside any [section]")
+
+
+@pytest.mark.parametrize("value", ["nan", "2024", "true", "[1]"])
+def test_a_text_setting_given_no_text_is_an_error(tmp_path, value):
+    folder = make_case_dir(tmp_path, settings=f"[case]\nname = {value}\n")
+    find(problems_of(folder).problems, "settings.toml", None, "[case] name", "text expected")
+
+
+@pytest.mark.parametrize(
+    "entry, key", [('scenarios = "text"', "scenarios"), ("x = 1", "x"), ("[[scenarios]]\nname = 'a'", "scenarios")]
+)
+def test_an_entry_outside_the_scenario_tables_is_an_error_not_ignored(tmp_path, entry, key):
+    folder = make_case_dir(tmp_path, scenarios=entry + "\n")
+    find(problems_of(folder).problems, "scenarios.toml", None, key, "outside [[scenario]]")

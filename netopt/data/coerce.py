@@ -296,8 +296,8 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
     if isinstance(value, str) and len(value) > MAX_CELL_CHARS:
         return s.default, f"{len(value):,} characters; at most {MAX_CELL_CHARS:,} are accepted"
     if s.type == "str":
-        if isinstance(value, (dict, list)):
-            return s.default, f"text expected, got {brief(value)}"
+        if not isinstance(value, str):
+            return s.default, f"text expected (in quotes), got {brief(value)}"
         return as_text(value), None
     if s.type == "list":
         if isinstance(value, str):
@@ -373,7 +373,20 @@ def coerce_settings(
         )
     for section, entries in (raw or {}).items():
         if not isinstance(entries, dict):
-            problems.append(Problem(label, None, str(section), "setting outside any [section] (ignored)", "warning"))
+            if section in sections:
+                problems.append(
+                    Problem(
+                        label,
+                        None,
+                        f"[{section}]",
+                        f"{section} is a section: write it as a [{section}] heading with name = value lines, "
+                        f"not as a value ({brief(entries)})",
+                    )
+                )
+            else:
+                problems.append(
+                    Problem(label, None, str(section), "setting outside any [section] (ignored)", "warning")
+                )
             continue
         like = resembled(str(section), sections) if section not in sections else None
         if like is not None:

@@ -113,8 +113,17 @@ def _scenarios_from_toml(data: dict, label: str) -> tuple[list[dict], list[Probl
     items = data.get("scenario", [])
     if not isinstance(items, list) or not all(isinstance(x, dict) for x in items):
         return [], [Problem(label, None, "[[scenario]]", "expected an array of tables written as [[scenario]]")]
-    extra = [k for k in data if k != "scenario"]
-    probs = [Problem(label, None, k, "unknown entry outside [[scenario]] (ignored)", "warning") for k in extra]
+    probs = [
+        Problem(
+            label,
+            None,
+            k,
+            f"unknown entry outside [[scenario]]: {label} holds only [[scenario]] tables"
+            + close_match_hint(str(k), ["scenario"]),
+        )
+        for k in data
+        if k != "scenario"
+    ]
     return [dict(x) for x in items], probs
 
 
