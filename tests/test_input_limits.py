@@ -149,7 +149,7 @@ def test_blank_and_inf_capacity_still_mean_no_limit_and_the_demo_validates(tmp_p
 
 @pytest.mark.parametrize(
     "header",
-    ["Capacity", "CAPACITY", "capa city", "capacity\u200b", "cap\u200bacity", "\u00a0Capacity"],
+    ["Capacity", "CAPACITY", "capa city", "capacity\u200b", "cap\u200bacity", "\u00a0Capacity", "\ufeffcapacity"],
 )
 def test_a_header_differing_from_a_column_only_in_case_spacing_or_invisibles_is_an_error(tmp_path, header):
     rows = tiny_rows()

@@ -251,7 +251,7 @@ def coerce_table(name: str, frame: pd.DataFrame | None) -> tuple[pd.DataFrame, l
     index = frame.index
     columns = {}
     for c in frame.columns:
-        cname = as_text(c)
+        cname = c.strip() if isinstance(c, str) else as_text(c)  # a byte-order mark in a header stays
         like = resembled(cname, t.column_names) if cname not in t.column_names else None
         if like is not None:
             problems.append(Problem(name, None, cname, resemblance_message(cname, like, "column")))

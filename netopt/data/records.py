@@ -65,12 +65,16 @@ def frame_from_records(label: str, records: list[tuple[int, list[str]]]) -> tupl
     error (and read as blank).
     """
     problems: list[Problem] = _long_cells(label, records)
+    raw = dict(records)
     records = [(n, [c.strip().lstrip("\ufeff").strip() for c in cells]) for n, cells in records]
     records = [(n, cells) for n, cells in records if any(cells)]
     if not records:
         problems.append(Problem(label, None, None, "no header row: the first line must name the columns"))
         return None, problems
     hrow, header = records[0]
+    # A byte-order mark inside a header cell stays (the decoder drops the file's own): the column is then
+    # reported as resembling the known one, not silently renamed.
+    header = [c.strip() if h else "" for c, h in zip(raw[hrow], header)]
     while header and header[-1] == "":
         header = header[:-1]
     width = len(header)
