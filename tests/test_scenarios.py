@@ -70,6 +70,18 @@ def test_force_open_dc_is_open(base_case, base):
     assert r.objective >= base.objective * (1 - REL)  # forcing a decision never lowers cost
 
 
+def test_force_open_dc_in_hold_mode_opens_it_and_verifies(base_case, base):
+    """Hold keeps the base's DC decisions except those the scenario itself forces: a DC the base kept
+    closed and the scenario forces open is open in the held re-solve, and the plan verifies."""
+    d = base.tables["dcs"]
+    dc = d.loc[~d["open"], "dc"].iloc[0]
+    run = run_scenarios(base_case, scenarios=[sc("x", {"kind": "force_dc", "dc": dc, "to": "open"}, resolve="hold")])
+    r = run.results["x"]
+    assert r.has_solution and r.verification.passed, r.status
+    assert r.tables["dcs"].set_index("dc").loc[dc, "open"]
+    assert r.objective >= base.objective * (1 - REL)  # forcing a decision never lowers cost
+
+
 def test_supplier_share_cap_respected_per_site_and_material(base_case):
     r = cost(apply_changes(base_case, sc("x", {"kind": "policy", "max_supplier_share": 0.6})))
     s = r.tables["supplier_shares"]

@@ -91,12 +91,19 @@ def safety_stock_lines_of(
 
 def held_decisions(held: dict[str, str | bool], sc_case: Case) -> dict[str, str | bool]:
     """Held DC decisions (dc → size/True/False) as a hold of scenario case ``sc_case``: DCs the scenario
-    forces closed are closed, DCs the held decisions do not know (added by the scenario) stay closed;
-    a DC the scenario takes out keeps its decision (still paid for; nothing moves through it)."""
+    forces closed are closed, DCs it forces open are opened (True: at their first listed size when they
+    have sizes, as :func:`~netopt.engine.result.fixed_options` reads it; a DC already open keeps its size),
+    DCs the held decisions do not know (added by the scenario) otherwise stay closed; a DC the scenario
+    takes out keeps its decision (still paid for; nothing moves through it)."""
     hold = dict(held)
     forced = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
     for d in sc_case.tables["dcs"]["dc"]:
-        if forced.get(d, "") == "closed" or d not in hold:
+        f = forced.get(d, "")
+        if f == "closed":
+            hold[d] = False
+        elif f == "open" and not hold.get(d, False):
+            hold[d] = True
+        elif d not in hold:
             hold[d] = False
     return hold
 
