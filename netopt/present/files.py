@@ -8,11 +8,12 @@ earlier complete one is only replaced by a complete new one.
 from __future__ import annotations
 
 import contextlib
+import glob
 import json
 import math
 import os
 import shutil
-import tempfile
+import uuid
 from pathlib import Path
 
 import numpy as np
@@ -34,15 +35,20 @@ CASE_MARKS = {SETTINGS_FILE} | {t.file_name for t in TABLES.values() if t.requir
 
 
 class OutputRefused(Exception):
-    """A results path netopt will not write to (it would replace what it did not write)."""
+    """A results path netopt will not write to (it would replace what it did not write, or cannot write there)."""
+
+
+class OutputFailed(Exception):
+    """Writing the results failed (disk full, read-only, no permission); the earlier results are kept."""
 
 
 def check_output_folder(target: str | Path, case: str | Path | None = None) -> Path:
     """``target`` as a results folder netopt may (re)place, or :class:`OutputRefused` saying why.
 
     Allowed: a path that does not exist, an empty folder, or a folder netopt wrote before (it holds
-    ``OUTPUT_MARK``).  Refused: a file, a folder holding anything else (a user's documents, a case),
-    the case folder itself or a folder that contains it.
+    ``OUTPUT_MARK``), in a folder netopt can write to.  Refused: a file, a folder holding anything else
+    (a user's documents, a case), the case folder itself or a folder that contains it, and a target whose
+    parent folder cannot be written (read-only, no permission, full disk: checked with a probe file).
     """
     target = Path(target)
     full = target.resolve()
@@ -62,7 +68,28 @@ def check_output_folder(target: str | Path, case: str | Path | None = None) -> P
             raise OutputRefused(
                 f"--out {target} already holds {what}: choose a new or empty folder, or one netopt wrote before"
             )
+    _probe_writable(target, full.parent)
     return target
+
+
+def _probe_writable(target: Path, parent: Path) -> None:
+    """Create and remove a probe file in ``parent`` (or its nearest existing ancestor, where the missing
+    folders would be made): :class:`OutputRefused` when that fails, before any work is done."""
+    where = parent
+    while not where.exists() and where != where.parent:
+        where = where.parent
+    probe = where / f".netopt-probe-{os.getpid()}-{uuid.uuid4().hex[:8]}"
+    try:
+        fd = os.open(probe, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600)
+        try:
+            os.write(fd, b"netopt")
+        finally:
+            os.close(fd)
+        os.unlink(probe)
+    except OSError as e:
+        raise OutputRefused(
+            f"--out {target}: cannot write in {where} ({e.strerror or e}): choose a folder you can write to"
+        ) from e
 
 
 def _older_results(folder: Path) -> bool:
@@ -73,13 +100,38 @@ def _older_results(folder: Path) -> bool:
         return False
 
 
-def mark_output_folder(target: str | Path) -> Path:
-    """Create results folder ``target`` (it must pass :func:`check_output_folder`) and mark it as netopt's,
-    for writers that keep a file in it while they work (the stress sweep's resume journal)."""
+def work_file(target: str | Path, name: str) -> Path:
+    """A file a writer keeps while it works on results folder ``target`` (the stress sweep's resume journal):
+    a hidden sibling ``.TARGET.NAME``, so the earlier results in ``target`` stay untouched until the new ones
+    replace them whole.  ``target`` must pass :func:`check_output_folder`; the parent folder is created."""
     target = check_output_folder(target)
-    target.mkdir(parents=True, exist_ok=True)
-    (target / OUTPUT_MARK).write_text(MARK_TEXT)
-    return target
+    target.parent.mkdir(parents=True, exist_ok=True)
+    return target.parent / f".{target.name}.{name}"
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
+
+
+def _clear_leftovers(target: Path) -> None:
+    """Tidy what a killed earlier write of ``target`` left: its temporary folder is removed, and a previous
+    result it had moved aside (``.NAME.old-PID``) is moved back when ``target`` is missing, else removed.
+    Only leftovers of processes that no longer run are touched."""
+    for p in target.parent.glob(f".{glob.escape(target.name)}.*-*"):
+        kind, _, rest = p.name[len(target.name) + 2 :].partition("-")
+        pid = rest.split("-", 1)[0]
+        if kind not in ("tmp", "old") or not pid.isdigit() or _pid_alive(int(pid)) or not p.is_dir():
+            continue
+        if kind == "old" and not target.exists():
+            p.rename(target)
+        else:
+            shutil.rmtree(p, ignore_errors=True)
 
 
 @contextlib.contextmanager
@@ -87,25 +139,48 @@ def atomic_folder(target: str | Path):
     """Yield a temporary folder that replaces ``target`` only if the block completes.
 
     ``target`` must pass :func:`check_output_folder` (checked before and again at the swap); the
-    folder written carries ``OUTPUT_MARK``, so a later run may replace it.
+    folder written carries ``OUTPUT_MARK``, so a later run may replace it, and has the mode a plain
+    ``mkdir`` gives (0o777 less the umask).  An ``OSError`` while writing (disk full, read-only, no
+    permission) is raised as :class:`OutputFailed`, the temporary folder removed and ``target`` kept.
     """
     target = check_output_folder(target)
     target.parent.mkdir(parents=True, exist_ok=True)
-    tmp = Path(tempfile.mkdtemp(prefix=f".{target.name}.tmp-", dir=target.parent))
+    _clear_leftovers(target)
+    tmp = target.parent / f".{target.name}.tmp-{os.getpid()}-{uuid.uuid4().hex[:8]}"
+    tmp.mkdir()
     try:
         yield tmp
         (tmp / OUTPUT_MARK).write_text(MARK_TEXT)
         check_output_folder(target)
+        _swap(tmp, target)
+    except OSError as e:
+        shutil.rmtree(tmp, ignore_errors=True)
+        kept = "the earlier results there are kept" if target.exists() else "nothing was written"
+        raise OutputFailed(
+            f"could not write the results to {target}: {e.strerror or e}"
+            + (f" ({e.filename})" if e.filename else "")
+            + f"; {kept}"
+        ) from e
     except BaseException:
         shutil.rmtree(tmp, ignore_errors=True)
         raise
+
+
+def _swap(tmp: Path, target: Path) -> None:
+    """Move finished ``tmp`` to ``target``; an existing ``target`` is set aside first and removed after
+    (moved back when the second rename fails)."""
     old = None
     if target.exists():
         old = target.parent / f".{target.name}.old-{os.getpid()}"
         if old.exists():
             shutil.rmtree(old)
         target.rename(old)
-    tmp.rename(target)
+    try:
+        tmp.rename(target)
+    except OSError:
+        if old is not None:
+            old.rename(target)
+        raise
     if old is not None:
         shutil.rmtree(old, ignore_errors=True)
 
@@ -280,6 +355,7 @@ def comparison_labels(comparison: pd.DataFrame) -> dict[str, str]:
 __all__ = [
     "DISCLAIMER",
     "OUTPUT_MARK",
+    "OutputFailed",
     "OutputRefused",
     "atomic_folder",
     "check_output_folder",
@@ -287,6 +363,7 @@ __all__ = [
     "comparison_view",
     "markdown_table",
     "safe_text",
+    "work_file",
     "write_result",
     "write_result_csv",
     "write_result_files",

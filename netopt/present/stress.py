@@ -25,7 +25,8 @@ from netopt.present.files import (
     DISCLAIMER,
     _jsonable,
     atomic_folder,
-    mark_output_folder,
+    check_output_folder,
+    work_file,
     write_result_csv,
     write_result_files,
     write_workbook,
@@ -33,7 +34,7 @@ from netopt.present.files import (
 from netopt.present.report import write_report
 from netopt.studies.exposure import exposure
 from netopt.studies.resilience import StressError, run_sweep
-from netopt.studies.sweep_exec import JOURNAL
+from netopt.studies.sweep_exec import CONNECT_TIMEOUT_S, JOURNAL, SchedulerUnreachable, connect_scheduler
 
 
 def stress(
@@ -53,16 +54,17 @@ def stress(
 ) -> dict[str, pd.DataFrame]:
     """Solve the base, run the single-point-of-failure sweep and the TTS/TTR exposure; write ``out_dir``.
 
-    Written (atomically, the journal excepted while running): ``spof_ranking.csv``,
-    ``exposure.csv``, ``stress.xlsx``, ``summary.json``, ``report.html``, ``sweep_journal.jsonl`` and the
-    base solve's tables in ``base/``.  Raises :class:`StressError` when the base has no
+    Written (atomically): ``spof_ranking.csv``, ``exposure.csv``, ``stress.xlsx``, ``summary.json``,
+    ``report.html``, ``sweep_journal.jsonl`` and the base solve's tables in ``base/``.  While the sweep runs,
+    its journal is a hidden sibling of ``out_dir`` (:func:`running_journal`): an earlier result there is
+    left whole until the new one replaces it.  Raises :class:`StressError` when the base has no
     solution.
 
     Returns:
         {"spof": ranked sweep table, "exposure": exposure table, "info": run facts (key, value)}.
     """
     tell = say or (lambda s: None)
-    out = Path(out_dir)
+    out = check_output_folder(out_dir)  # refuse before the base is solved
     t0 = time.perf_counter()
     if base is None:
         tell("solving the base case …")
@@ -70,8 +72,7 @@ def stress(
     if not base.has_solution:
         raise StressError(f"the base case has no solution to stress ({base.status}): {base.message}", base.status)
     base_seconds = time.perf_counter() - t0
-    mark_output_folder(out)  # the resume journal lives in the results folder from the first re-solve on
-    jpath = out / JOURNAL
+    jpath = running_journal(out, fresh)
     spof, info = run_sweep(
         case,
         base,
@@ -131,7 +132,20 @@ def stress(
         write_result_files(base, tmp / "base", workbook=False)
         if report:
             write_report(base, tmp / "report.html", extra={"spof": spof, "exposure": expo})
+    jpath.unlink(missing_ok=True)  # its rows are in the results folder now
     return tables
+
+
+def running_journal(out: Path, fresh: bool = False) -> Path:
+    """Where the sweep journals while it runs: a hidden sibling of ``out`` (``.OUT.sweep_journal.jsonl``), so
+    the earlier results in ``out`` stay whole until the new ones replace them, and a killed sweep resumes from
+    it.  A new running journal starts as a copy of the earlier results' journal (read only), which the sweep
+    reuses only when it belongs to the same case, settings and options (its key), else starts afresh."""
+    jpath = work_file(out, JOURNAL)
+    done = out / JOURNAL
+    if not fresh and not jpath.exists() and done.is_file():
+        shutil.copyfile(done, jpath)
+    return jpath
 
 
 STRESS_NOTES = """netopt stress: single points of failure and time-to-survive exposure.
@@ -162,10 +176,12 @@ def stress_command(
     rules: str = "priced",
     quiet: bool = False,
     report: bool = True,
+    connect_timeout_s: float = CONNECT_TIMEOUT_S,
 ) -> int:
     """``netopt stress CASE --out DIR``: load, stress, print the summary; the exit code.
 
-    0 done; 3 the base is infeasible; 4 the base has no solution for another reason
+    0 done; 2 the scheduler cannot be reached (checked within ``connect_timeout_s`` seconds, before
+    the base is solved); 3 the base is infeasible; 4 the base has no solution for another reason
     (time limit, solver error).  Bad input raises :class:`CaseError` (the CLI's exit code 2).
     """
     case = load_case(case_path)
@@ -174,12 +190,19 @@ def stress_command(
         say(f"{len(case.warnings)} warning(s):")
         for p in case.warnings:
             say(f"  {p}")
+    client = None
+    if scheduler is not None:
+        try:
+            client = connect_scheduler(scheduler, connect_timeout_s)
+        except SchedulerUnreachable as e:
+            print(f"error: {e}", file=sys.stderr)
+            return 2
     try:
         tables = stress(
             case,
             out_dir,
             workers=workers,
-            scheduler=scheduler,
+            scheduler=client,
             redesign=redesign,
             elements=only,
             progress=not quiet,
@@ -191,6 +214,9 @@ def stress_command(
     except StressError as e:
         print(f"error: {e}", file=sys.stderr)
         return 3 if e.status in ("infeasible", "unbounded") else 4
+    finally:
+        if client is not None:
+            client.close()
     if not quiet:
         for line in summary_lines(tables):
             print(line)

@@ -32,8 +32,9 @@ from the base basis.
 **Execution.** A local process pool (all cores by default, forkserver start so no worker
 is forked from a process holding solver threads; a progress bar with done/total and
 ETA) or, given a scheduler address, the same task function on a Dask distributed
-cluster.  Every finished re-solve is appended (flushed and fsynced) to a journal in the
-output folder; a restarted sweep skips the elements already in it.  The final tables do
+cluster.  Every finished re-solve is appended (flushed and fsynced) to a journal (while
+``netopt stress`` runs, a hidden sibling of its output folder, then kept in it); a restarted
+sweep skips the elements already in it.  Pool workers end when the sweep's process dies.  The final tables do
 not depend on where or in which order tasks ran: every re-solve starts from the base basis.
 
 **Exposure.** Time-to-survive and time-to-recover per node: :mod:`netopt.exposure`.
@@ -57,6 +58,7 @@ from netopt.studies.changes import element_changes, held_plan
 from netopt.studies.scenarios import Scenario, apply_changes, solve_or_lose
 from netopt.studies.sweep_exec import (
     append_row,
+    check_workers,
     open_journal,
     progress_bar,
     read_journal,
@@ -309,7 +311,8 @@ def run_sweep(
     """Take each element out one at a time and re-solve; the ranked table and run facts.
 
     Args:
-        workers: local pool size (None = all cores; 0 = in this process, no pool).
+        workers: local pool size (None = all cores; 0 = in this process, no pool; at most
+            :data:`~netopt.studies.sweep_exec.MAX_WORKERS`, else ValueError).
         scheduler: Dask scheduler address (or a ``distributed.Client``): run the tasks there.
         redesign: also re-solve each disruption with openings re-optimised (a MIP each).
         elements: filter (types, ids or site codes), see :func:`sweep_elements`.
@@ -325,6 +328,7 @@ def run_sweep(
         (table, info): the ranked table (:data:`SPOF_COLUMNS`) and a dict with tasks, reused,
         run, seconds, resolves_per_second, executor, journal.
     """
+    check_workers(workers)
     spec = make_spec(case, base, redesign, rules)
     el = sweep_elements(case, base, elements)
     todo_all = el.to_dict("records")
@@ -343,7 +347,8 @@ def run_sweep(
     new_rows: list[dict] = []
     errors: list[str] = []
     if scheduler is not None:
-        executor = f"dask ({scheduler if isinstance(scheduler, str) else 'client'})"
+        where = scheduler if isinstance(scheduler, str) else getattr(scheduler.scheduler, "address", "client")
+        executor = f"dask ({where})"
     elif workers == 0:
         executor = "in-process"
     else:

@@ -5,6 +5,9 @@ pickles by reference).  It runs in a local process pool (forkserver start: no wo
 forked from a process holding solver threads), on a Dask distributed cluster, or in this
 process.  Every finished row is appended, flushed and fsynced, to a JSONL journal whose
 first line names the sweep's key, so a restarted sweep skips what is already done.
+
+A pool worker ends itself when the process that started the pool dies (even by kill -9): it
+watches its parent's sentinel, so no worker, forkserver or resource tracker outlives a killed run.
 """
 
 from __future__ import annotations
@@ -12,6 +15,7 @@ from __future__ import annotations
 import json
 import multiprocessing as mp
 import os
+import threading
 import time
 import uuid
 from collections.abc import Callable
@@ -26,6 +30,12 @@ JOURNAL = "sweep_journal.jsonl"
 JOURNAL_FORMAT = "netopt stress sweep journal v2"  # v2: safety stock on held lines, a DC out stays paid for
 
 Task = Callable[[Any, dict], dict]  # task(spec, element) -> row
+
+MAX_WORKERS = 256
+"""Most local worker processes a sweep starts (each holds its own copy of the model)."""
+CONNECT_TIMEOUT_S = 10.0
+"""Default time to reach a Dask scheduler before the sweep gives up (s)."""
+ORPHAN_EXIT = 70  # exit code of a pool worker whose parent died (EX_SOFTWARE)
 
 
 def where_running() -> str:
@@ -43,6 +53,7 @@ _POOL: dict = {}
 
 
 def _pool_init(task: Task, spec: object, prepare: Callable[[object], object] | None) -> None:
+    end_with_parent()
     _POOL["task"], _POOL["spec"] = task, spec
     if prepare is not None:
         prepare(spec)  # e.g. build the worker's kept model now, not inside the first task
@@ -50,6 +61,28 @@ def _pool_init(task: Task, spec: object, prepare: Callable[[object], object] | N
 
 def _pool_task(el: dict) -> dict:
     return _POOL["task"](_POOL["spec"], el)
+
+
+def end_with_parent() -> None:
+    """In a pool worker: end this process (``os._exit``) as soon as the process that started it dies.
+
+    A daemon thread waits on the parent's sentinel (with forkserver the parent is the process that asked
+    for the worker, not the forkserver; the sentinel is a pipe that reads end-of-file when it is gone), so
+    a worker busy in a re-solve ends too.  The forkserver and the resource tracker end by themselves
+    once no worker holds their pipes.  Nothing happens outside a child process.
+    """
+    parent = mp.parent_process()
+    if parent is None:
+        return
+
+    def watch() -> None:
+        try:
+            parent.join()
+        except (OSError, ValueError):  # the sentinel was closed: this process is ending anyway
+            return
+        os._exit(ORPHAN_EXIT)
+
+    threading.Thread(target=watch, name="netopt-parent-watch", daemon=True).start()
 
 
 # ---------------------------------------------------------------------------------- journal
@@ -120,6 +153,15 @@ def pool_context():
     return ctx
 
 
+def check_workers(workers: int | None) -> None:
+    """ValueError unless ``workers`` is None (all cores) or 0 (in this process) to :data:`MAX_WORKERS`."""
+    if workers is not None and not (isinstance(workers, int) and 0 <= workers <= MAX_WORKERS):
+        raise ValueError(
+            f"workers must be a whole number from 0 (in this process) to {MAX_WORKERS}, or None (all cores), "
+            f"not {workers!r}"
+        )
+
+
 def run_local(task: Task, spec, todo: list[dict], workers: int, done_cb, prepare=None) -> None:
     """Run ``task(spec, el)`` for each element on a local process pool; ``done_cb(el, row)`` as each finishes."""
     ex = ProcessPoolExecutor(
@@ -141,16 +183,40 @@ def run_local(task: Task, spec, todo: list[dict], workers: int, done_cb, prepare
     ex.shutdown(wait=True)
 
 
-def run_dask(task: Task, spec, todo: list[dict], scheduler, done_cb) -> None:
-    """Run ``task(spec, el)`` for each element on a Dask cluster (address or ``distributed.Client``)."""
+class SchedulerUnreachable(Exception):
+    """The Dask scheduler address is malformed or no scheduler answered there in time."""
+
+
+def connect_scheduler(address: str, timeout_s: float = CONNECT_TIMEOUT_S):
+    """A ``distributed.Client`` connected to the scheduler at ``address`` within ``timeout_s`` seconds, or
+    :class:`SchedulerUnreachable` naming the address, the time waited and the reason."""
     try:
-        from distributed import Client, as_completed
+        from distributed import Client
     except ImportError as e:  # pragma: no cover - the cluster extra is not installed
-        raise RuntimeError(
+        raise SchedulerUnreachable(
             "running on a Dask cluster needs the 'distributed' package (pip install 'netopt[cluster]')"
         ) from e
+    t0 = time.perf_counter()
+    try:
+        return Client(address, timeout=timeout_s)
+    except (ValueError, TypeError) as e:  # distributed's words for an address it cannot parse
+        raise SchedulerUnreachable(
+            f"--scheduler {address!r} is not a scheduler address ({e}): give it as tcp://HOST:PORT"
+        ) from e
+    except Exception as e:  # any other failure to connect: refused, timed out, not a scheduler answering
+        raise SchedulerUnreachable(
+            f"could not connect to the Dask scheduler at {address!r} within {timeout_s:g} s "
+            f"({type(e).__name__}: {e}; gave up after {time.perf_counter() - t0:.1f} s): check that the "
+            "scheduler runs and is reachable from here"
+        ) from e
+
+
+def run_dask(task: Task, spec, todo: list[dict], scheduler, done_cb) -> None:
+    """Run ``task(spec, el)`` for each element on a Dask cluster (address or ``distributed.Client``)."""
+    from distributed import as_completed
+
     own = isinstance(scheduler, str)
-    client = Client(scheduler) if own else scheduler
+    client = connect_scheduler(scheduler) if own else scheduler
     futs = []
     try:
         token = uuid.uuid4().hex[:12]
