@@ -1,77 +1,17 @@
-"""Command line: ``netopt <verb> ...``.
+"""Command line: ``netopt <verb> ...`` (the parser, the verbs and :func:`main` are in :mod:`netopt.cli.app`).
 
-Each verb is two functions: ``add_<verb>(subparsers)`` declares its arguments and
-sets ``func=cmd_<verb>``; ``cmd_<verb>(args) -> int`` does the work and returns the
-exit code.  To add a verb, write both and append the ``add_`` function to
-:data:`VERBS`.  :func:`main` turns a :class:`~netopt.data.case.CaseError` into a report
-on stderr and exit code 2 (never a traceback).
-
-Exit codes: 0 ok, 2 invalid input, 3 infeasible, 4 solver failure.
+Loading the command line imports pandas, Pyomo and HiGHS (a second or two): Ctrl-C meanwhile ends with
+"interrupted" and exit code 130, as Ctrl-C during a verb does, never a traceback.
 """
 
 from __future__ import annotations
 
-import argparse
 import sys
-from collections.abc import Callable
-from importlib.metadata import version as package_version
 
-from netopt.cli.case_verbs import add_check, add_export, add_template
-from netopt.cli.common import EXIT_INVALID
-from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
-from netopt.data.case import CaseError
-from netopt.present.files import OutputRefused, check_output_folder
+try:
+    from netopt.cli.app import RESULT_VERBS, VERBS, build_parser, main
+except KeyboardInterrupt:
+    print("interrupted", file=sys.stderr)
+    raise SystemExit(130) from None  # EXIT_INTERRUPTED of netopt.cli.common, whose import was interrupted
 
-# --------------------------------------------------------------------------- main
-
-RESULT_VERBS = ("solve", "run", "stress", "frontier")  # verbs whose --out is a results folder
-VERBS: list[Callable] = [add_template, add_check, add_export, add_solve, add_run, add_stress, add_frontier]
-"""Functions that each add one verb's subparser (in the order shown by --help)."""
-
-
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser with every verb of :data:`VERBS`."""
-
-    parser = argparse.ArgumentParser(
-        prog="netopt",
-        description="Supply-chain network and sourcing design: which DCs to open, which suppliers and plants "
-        "serve which customers, and by which transport mode, at the least total landed cost "
-        "(supply, production, DC fixed and handling, freight, inventory, carbon) within capacity, "
-        "sourcing and service rules.",
-        epilog="Exit codes: 0 ok, 2 invalid input, 3 infeasible, 4 solver failure.",
-    )
-    parser.add_argument("--version", action="version", version=f"netopt {package_version('netopt')}")
-    sub = parser.add_subparsers(dest="verb", metavar="VERB")
-    for add in VERBS:
-        add(sub)
-    return parser
-
-
-def main(argv: list[str] | None = None) -> None:
-    """Run one verb and exit with its code (SystemExit)."""
-    parser = build_parser()
-    args = parser.parse_args(argv)
-    if getattr(args, "func", None) is None:
-        parser.print_help(sys.stderr)
-        raise SystemExit(EXIT_INVALID)
-    try:
-        if getattr(args, "out", None) and args.verb in RESULT_VERBS:  # refuse before any work is done
-            check_output_folder(args.out, getattr(args, "case", None))
-        code = args.func(args)
-    except OutputRefused as e:
-        print(f"error: {e}", file=sys.stderr)
-        code = EXIT_INVALID
-    except CaseError as e:
-        print(e.report(), file=sys.stderr)
-        code = EXIT_INVALID
-    except (FileNotFoundError, PermissionError, IsADirectoryError, NotADirectoryError) as e:
-        print(f"error: {e.strerror or e}: {e.filename or ''}", file=sys.stderr)
-        code = EXIT_INVALID
-    except KeyboardInterrupt:
-        print("interrupted", file=sys.stderr)
-        code = 130
-    raise SystemExit(code)
-
-
-if __name__ == "__main__":
-    main()
+__all__ = ["RESULT_VERBS", "VERBS", "build_parser", "main"]

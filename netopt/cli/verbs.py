@@ -12,8 +12,19 @@ import math
 import sys
 import time
 
-from netopt.cli.common import COMMON, EXIT_INFEASIBLE, EXIT_OK, EXIT_SOLVER, print_warnings, say, warn
+from netopt.cli.common import (
+    COMMON,
+    EXIT_INFEASIBLE,
+    EXIT_OK,
+    EXIT_SOLVER,
+    number_option,
+    print_warnings,
+    say,
+    setting_option,
+    warn,
+)
 from netopt.data.io import load_case
+from netopt.data.limits import MAX_FRONTIER_POINTS
 from netopt.engine.solve import solve
 from netopt.present.files import (
     _jsonable,
@@ -36,6 +47,7 @@ from netopt.present.terminal import (
 from netopt.studies.comparison import dc_decision_matrix, largest_share_changes, mode_mix_matrix
 from netopt.studies.frontier import sweep
 from netopt.studies.scenarios import parse_scenarios, run_scenarios
+from netopt.studies.sweep_exec import CONNECT_TIMEOUT_S, MAX_WORKERS
 
 SOLVER_OPTIONS = argparse.ArgumentParser(add_help=False)
 SOLVER_OPTIONS.add_argument(
@@ -47,18 +59,23 @@ SOLVER_OPTIONS.add_argument(
 )
 SOLVER_OPTIONS.add_argument(
     "--time-limit",
-    type=float,
+    type=setting_option("solver", "time_limit_s"),
     metavar="S",
     help="time limit of the whole solve in seconds (lanes, model, plan search and the MIP search); the best "
     "plan found is kept with its proven gap (default: settings)",
 )
 SOLVER_OPTIONS.add_argument(
     "--gap",
-    type=float,
+    type=setting_option("solver", "mip_gap"),
     metavar="G",
     help="stop when the plan is proven within G of the best possible cost, e.g. 0.001 = 0.1%% (default: settings)",
 )
-SOLVER_OPTIONS.add_argument("--threads", type=int, metavar="N", help="solver threads (default: settings, usually 1)")
+SOLVER_OPTIONS.add_argument(
+    "--threads",
+    type=setting_option("solver", "threads"),
+    metavar="N",
+    help="solver threads (default: settings, usually 1)",
+)
 SOLVER_OPTIONS.add_argument(
     "--json", action="store_true", help="print the summary as JSON on stdout (for scripts) instead of tables"
 )
@@ -282,12 +299,24 @@ def add_stress(sub) -> None:
         help="results folder (spof_ranking.csv, exposure.csv, stress.xlsx, summary.json; the sweep journal lets an interrupted run resume)",
     )
     p.add_argument(
-        "--workers", type=int, metavar="N", help="local worker processes (default: all cores; 0 = in this process)"
+        "--workers",
+        type=number_option("workers", "int", "", 0, MAX_WORKERS, "0 = in this process"),
+        metavar="N",
+        help=f"local worker processes, 0 to {MAX_WORKERS} (default: all cores; 0 = in this process); each ends "
+        "when this process ends",
     )
     p.add_argument(
         "--scheduler",
         metavar="ADDR",
-        help="address of a running Dask scheduler (e.g. tcp://10.0.0.5:8786) to run the sweep there",
+        help="address of a running Dask scheduler (e.g. tcp://10.0.0.5:8786) to run the sweep there; "
+        "connected before the base is solved",
+    )
+    p.add_argument(
+        "--connect-timeout",
+        type=number_option("connect-timeout", "float", "s", 1e-9, None, "time to reach the scheduler"),
+        default=CONNECT_TIMEOUT_S,
+        metavar="S",
+        help=f"seconds to reach the --scheduler before giving up with exit code 2 (default {CONNECT_TIMEOUT_S:g})",
     )
     p.add_argument("--redesign", action="store_true", help="also re-optimise DC decisions for each loss (slower)")
     p.add_argument("--only", metavar="TYPES", help="comma-separated element types to sweep: supplier,plant,dc,lane")
@@ -316,6 +345,7 @@ def cmd_stress(args: argparse.Namespace) -> int:
         rules="hard" if args.hard_rules else "priced",
         quiet=args.quiet,
         report=not args.no_report,
+        connect_timeout_s=args.connect_timeout,
     )
 
 
@@ -336,16 +366,19 @@ def add_frontier(sub) -> None:
     p.add_argument(
         "--out", required=True, metavar="DIR", help="results folder (frontier.csv, frontier.xlsx, report.html)"
     )
-    p.add_argument("--points", type=int, default=5, metavar="N", help="points on the curve, ends included (default 5)")
+    p.add_argument(
+        "--points",
+        type=number_option("points", "int", "", 2, MAX_FRONTIER_POINTS, "each point is one full solve"),
+        default=5,
+        metavar="N",
+        help=f"points on the curve, ends included, 2 to {MAX_FRONTIER_POINTS} (default 5)",
+    )
     p.add_argument("--json", action="store_true", help="print the frontier as JSON on stdout")
     p.add_argument("--no-report", action="store_true", help="skip the HTML report")
     p.set_defaults(func=cmd_frontier)
 
 
 def cmd_frontier(args: argparse.Namespace) -> int:
-    if args.points < 2:
-        print("error: --points must be at least 2 (the two ends of the curve)", file=sys.stderr)
-        return 2
     case = load_case(args.case)
     print_warnings(args, case)
     curve = sweep(case, points=args.points)

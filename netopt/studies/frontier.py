@@ -36,6 +36,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.data.limits import MAX_FRONTIER_POINTS
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.result import Result, fixed_options
@@ -74,15 +75,18 @@ def sweep(
     progress=None,
     cost_optimal: Result | None = None,
 ) -> FrontierRun:
-    """Solve the epsilon-constraint sweep (see module docstring); ``points`` ≥ 2 networks.
+    """Solve the epsilon-constraint sweep (see module docstring); 2 ≤ ``points`` ≤ MAX_FRONTIER_POINTS networks.
 
     ``cost_optimal``: an existing cost-optimal solve of ``case`` (a run's base or scenario row).
     It *is* point 0 (its tables and figures, not a second solve that could land elsewhere within
     the gap); the CO2-minimal solve holds lost demand at its lost units and starts from its DCs.
     """
     points = int(points)
-    if points < 2:
-        raise ValueError("a frontier needs at least 2 points (the cost-optimal and the CO2-minimal network)")
+    if not 2 <= points <= MAX_FRONTIER_POINTS:
+        raise ValueError(
+            f"a frontier needs 2 to {MAX_FRONTIER_POINTS} points (the cost-optimal and the CO2-minimal network "
+            f"and caps between them, one full solve each), not {points}"
+        )
     say = progress or (lambda event, info=None: None)
     sset = case.settings["solver"]
     time_limit = float(sset["time_limit_s"] if time_limit is None else time_limit)
