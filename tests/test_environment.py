@@ -25,12 +25,14 @@ import netopt.cli.verbs as verbs
 import netopt.present.files as files
 import netopt.present.stress as stress_mod
 from netopt.cli import main
+from netopt.data.io import load_case
 from netopt.data.limits import MAX_FRONTIER_POINTS
 from netopt.data.settings_schema import SETTINGS
 from netopt.data.text import range_text
 from netopt.present.files import OUTPUT_MARK, atomic_folder
+from netopt.present.stress import stress
 from netopt.studies.resilience import run_sweep
-from netopt.studies.sweep_exec import MAX_WORKERS
+from netopt.studies.sweep_exec import JOURNAL, MAX_WORKERS
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -292,3 +294,36 @@ def test_ctrl_c_while_importing_ends_with_130_and_no_traceback(tmp_path, how, mo
     proc = subprocess.run([sys.executable, str(script)], capture_output=True, text=True, env=env, timeout=120)
     assert proc.returncode == 130, proc.stderr[-2000:]
     assert "interrupted" in proc.stderr and "Traceback" not in proc.stderr
+
+
+# --------------------------------------------------------------------------- the stress journal beside the result
+
+
+def test_a_sweep_of_other_options_reuses_nothing_of_the_old_result(tiny_case_dir, tmp_path, monkeypatch):
+    """The old result's journal seeds a new sweep only when it is the same sweep (case, settings, options):
+    a sweep with hard rules over a priced one re-solves every element, and the old result, its journal
+    included, is untouched until the new one replaces it at the end."""
+    case = load_case(tiny_case_dir)
+    out = tmp_path / "st"
+    stress(case, out, workers=0, progress=False, report=False)
+    running = tmp_path / f".st.{JOURNAL}"
+    assert not running.exists()
+    old = _snapshot(out)
+    real_sweep = stress_mod.run_sweep
+
+    def sweep_then_look(*args, **kwargs):
+        result = real_sweep(*args, **kwargs)
+        assert _snapshot(out) == old, "the sweep wrote into the old result"
+        return result
+
+    monkeypatch.setattr(stress_mod, "run_sweep", sweep_then_look)
+    facts = _facts(stress(case, out, workers=0, progress=False, report=False, rules="hard"))
+    monkeypatch.setattr(stress_mod, "run_sweep", real_sweep)
+    assert facts["sweep_reused_from_journal"] == "0" and facts["sweep_resolved_now"] == facts["sweep_elements"]
+    facts = _facts(stress(case, out, workers=0, progress=False, report=False, rules="hard"))
+    assert facts["sweep_reused_from_journal"] == facts["sweep_elements"] and facts["sweep_resolved_now"] == "0"
+    assert not running.exists()
+
+
+def _facts(tables) -> dict[str, str]:
+    return dict(zip(tables["info"]["key"], tables["info"]["value"]))
