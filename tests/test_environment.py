@@ -25,10 +25,10 @@ import netopt.cli.verbs as verbs
 import netopt.present.files as files
 import netopt.present.stress as stress_mod
 from netopt.cli import main
+from netopt.data.coerce import coerce_setting
 from netopt.data.io import load_case
 from netopt.data.limits import MAX_FRONTIER_POINTS
 from netopt.data.settings_schema import SETTINGS
-from netopt.data.text import range_text
 from netopt.present.files import OUTPUT_MARK, atomic_folder
 from netopt.present.stress import stress
 from netopt.studies.resilience import run_sweep
@@ -178,7 +178,8 @@ def test_cli_overrides_are_checked_like_settings(tmp_path, capsys, monkeypatch, 
     case = make_case_dir(tmp_path)
     code, err = _run([verb, str(case), "--out", str(tmp_path / "out"), option, value], capsys)
     assert code == 2 and option in err and "Traceback" not in err
-    assert range_text(_setting(*setting)) in err  # the range the schema declares, read from it
+    _, problem = coerce_setting(_setting(*setting), value)  # what settings.toml says of the same value
+    assert problem and problem in err and "must be" in problem
     assert f"[{setting[0]}] {setting[1]}" in err
 
 
