@@ -277,14 +277,7 @@ _CTRL_C_CHILD = textwrap.dedent("""
     [
         "netopt.cli.app",
         "netopt.cli.verbs",
-        pytest.param(
-            "pandas",
-            marks=pytest.mark.xfail(
-                reason="netopt/__init__.py imports the API (pandas, Pyomo) before netopt.cli can catch Ctrl-C; "
-                "needs lazy re-exports there",
-                strict=False,
-            ),
-        ),
+        "pandas",
     ],
 )
 def test_ctrl_c_while_importing_ends_with_130_and_no_traceback(tmp_path, how, module):
