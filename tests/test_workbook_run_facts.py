@@ -7,9 +7,12 @@ format holds a literal text inside double quotes, and a quote inside it is writt
 
 from __future__ import annotations
 
+import json
+
 from casekit import make_case_dir
 from openpyxl import load_workbook
 
+from netopt.cli import main
 from netopt.data.io import load_case
 from netopt.engine.result import Result
 from netopt.engine.solve import solve
@@ -52,3 +55,17 @@ def test_a_solve_without_a_plan_says_why(tmp_path):
 
 def test_a_quote_in_the_currency_keeps_the_number_format_whole():
     assert excel_format("money", 'EU"R') == '#,##0" EU"\\""R"'
+
+
+def test_netopt_solve_writes_the_facts_into_results_xlsx(tmp_path):
+    """End to end: the results.xlsx that `netopt solve` writes carries the status and gap of summary.json."""
+    out = tmp_path / "out"
+    try:
+        main(["solve", str(make_case_dir(tmp_path)), "--out", str(out), "-q", "--no-report"])
+    except SystemExit as e:
+        assert e.code == 0
+    summary = json.loads((out / "summary.json").read_text())
+    _, facts = _facts(out / "results.xlsx")
+    assert facts["solver status"].value == summary["status"]
+    assert facts["optimality gap"].value == summary["gap"]
+    assert facts["independent check"].value == ("passed" if summary["verified"] else "FAILED")

@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.io import SETTINGS_FILE
+from netopt.data.names import folder_name
 from netopt.data.result_views import COMPARISON_VIEW
 from netopt.data.results_schema import label_of
 from netopt.data.schema import TABLES
@@ -237,7 +238,9 @@ def write_result_files(result, folder: Path, workbook: bool = True) -> None:
             sheets["verification"] = result.verification.checks
         if result.diagnosis is not None:
             sheets["diagnosis"] = result.diagnosis
-        write_workbook(sheets, folder / "results.xlsx", notes=DISCLAIMER, currency=_currency_of(result))
+        write_workbook(
+            sheets, folder / "results.xlsx", notes=DISCLAIMER, currency=_currency_of(result), summary=summary
+        )
 
 
 def write_result(result, out: str | Path, workbook: bool = True) -> Path:
@@ -268,10 +271,6 @@ def markdown_table(df: pd.DataFrame, table: str = "", labels: dict[str, str] | N
     return "\n".join(lines) + "\n"
 
 
-def _label_folder(label: str) -> str:
-    return "".join(ch if ch.isalnum() or ch in "-_" else "_" for ch in label).strip("_")
-
-
 def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None = None, report: bool = True) -> Path:
     """Write a base-plus-scenarios run atomically.
 
@@ -299,11 +298,9 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         for label, r in run.results.items():
             if label == "base":
                 continue
-            write_result_files(r, tmp / "scenarios" / _label_folder(label), workbook=False)
+            write_result_files(r, tmp / "scenarios" / folder_name(label), workbook=False)
         frontiers = {
-            f"frontier_{_label_folder(name)}": df
-            for name, df in getattr(run, "frontiers", {}).items()
-            if df is not None
+            f"frontier_{folder_name(name)}": df for name, df in getattr(run, "frontiers", {}).items() if df is not None
         }
         for name, df in frontiers.items():
             write_result_csv(df, tmp / f"{name}.csv")
@@ -322,7 +319,9 @@ def write_run(run, out: str | Path, extra_sheets: dict[str, pd.DataFrame] | None
         sheets.update({f"base_{k}": v for k, v in run.base.tables.items()})
         sheets.update(extra_sheets or {})
         kinds = dict.fromkeys(frontiers, "frontier") | {f"base_{k}": k for k in run.base.tables}
-        write_workbook(sheets, tmp / "results.xlsx", notes=DISCLAIMER, currency=currency, tables=kinds)
+        write_workbook(
+            sheets, tmp / "results.xlsx", notes=DISCLAIMER, currency=currency, tables=kinds, summary=run.base.summary()
+        )
         summary = {
             "case": run.base.case_name,
             "disclaimer": DISCLAIMER,
