@@ -20,9 +20,10 @@ from collections.abc import Callable
 from importlib.metadata import version as package_version
 
 from netopt.cli.case_verbs import add_check, add_export, add_template
-from netopt.cli.common import EXIT_INTERRUPTED, EXIT_INVALID
+from netopt.cli.common import EXIT_INTERRUPTED, EXIT_INVALID, EXIT_SOLVER
 from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
 from netopt.data.case import CaseError
+from netopt.engine.highs_check import ModelRejected
 from netopt.present.files import OutputFailed, OutputRefused, check_output_folder
 
 # --------------------------------------------------------------------------- main
@@ -68,6 +69,9 @@ def main(argv: list[str] | None = None) -> None:
     except CaseError as e:
         print(e.report(), file=sys.stderr)
         code = EXIT_INVALID
+    except ModelRejected as e:  # a model HiGHS cannot take (numbers beyond its range) in a study's own model
+        print(f"error: {e}", file=sys.stderr)
+        code = EXIT_SOLVER
     except OSError as e:  # reading the case or writing a journal: missing, no permission, disk full, …
         print(f"error: {e.strerror or e}" + (f": {e.filename}" if e.filename else ""), file=sys.stderr)
         code = EXIT_INVALID

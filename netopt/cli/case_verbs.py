@@ -13,7 +13,7 @@ from netopt.data.schema import TABLES
 from netopt.data.templates import write_blank_case, write_template_workbook
 from netopt.data.writing import write_case_csv, write_case_workbook
 from netopt.network.lanes import case_lanes
-from netopt.studies.scenarios import parse_scenarios, scenario_cases
+from netopt.studies.scenarios import parse_scenarios, scenario_cases, scenario_source
 
 # --------------------------------------------------------------------------- template
 
@@ -126,7 +126,7 @@ def case_summary(case: Case) -> list[str]:
 
 def cmd_check(args: argparse.Namespace) -> int:
     case = load_case(args.case)
-    scenarios = parse_scenarios(case.scenarios)
+    scenarios = parse_scenarios(case.scenarios, scenario_source(case))
     scenario_cases(case, scenarios)  # each scenario's changes applied and the result checked, as `run` does
     print_warnings(args, case)
     for line in case_summary(case):

@@ -7,7 +7,7 @@ import argparse
 import sys
 from collections.abc import Callable
 
-from netopt.data.case import Case
+from netopt.data.case import Case, problem_lines
 from netopt.data.coerce import coerce_setting
 from netopt.data.declarations import Setting
 from netopt.data.settings_schema import SETTINGS
@@ -67,5 +67,5 @@ def print_warnings(args: argparse.Namespace, case: Case) -> None:
     """The case's warnings on stderr (unless ``--quiet``)."""
     if case.warnings:
         warn(args, f"{len(case.warnings)} warning(s):")
-        for p in case.warnings:
-            warn(args, f"  {p}")
+        for line in problem_lines(case.warnings):  # capped per table and column, the rest counted
+            warn(args, line)

@@ -46,7 +46,7 @@ from netopt.present.terminal import (
 )
 from netopt.studies.comparison import dc_decision_matrix, largest_share_changes, mode_mix_matrix
 from netopt.studies.frontier import sweep
-from netopt.studies.scenarios import parse_scenarios, run_scenarios
+from netopt.studies.scenarios import parse_scenarios, run_scenarios, scenario_source
 from netopt.studies.sweep_exec import CONNECT_TIMEOUT_S, MAX_WORKERS
 
 SOLVER_OPTIONS = argparse.ArgumentParser(add_help=False)
@@ -172,8 +172,14 @@ def cmd_solve(args: argparse.Namespace) -> int:
         print_result(r)
         say(args, f"results written to {args.out}")
     if r.diagnosis is not None or r.status in ("infeasible", "unbounded"):
+        rows = 0 if r.diagnosis is None else len(r.diagnosis)
+        print(  # said even with -q: the verdict is the answer
+            f"infeasible: the case cannot be met as stated; {rows} diagnosis row(s) in {args.out}/diagnosis.csv",
+            file=sys.stderr,
+        )
         return EXIT_INFEASIBLE
     if not r.has_solution:
+        print(f"error: no plan ({r.status}): {r.message}", file=sys.stderr)
         return EXIT_SOLVER
     if r.verification is not None and not r.verification.passed:
         print(
@@ -217,7 +223,7 @@ def add_run(sub) -> None:
 def cmd_run(args: argparse.Namespace) -> int:
     case = load_case(args.case)
     print_warnings(args, case)
-    scenarios = parse_scenarios(case.scenarios)
+    scenarios = parse_scenarios(case.scenarios, scenario_source(case))
     if args.list:
         for s in scenarios:
             print(f"{s.name:32s} {s.resolve:9s} {s.description}")
@@ -263,6 +269,7 @@ def cmd_run(args: argparse.Namespace) -> int:
             f"results written to {args.out} (comparison.csv, comparison.md, comparison.xlsx, results.xlsx, report.html)",
         )
     if not run.base.has_solution:
+        print(f"error: the base case has no plan ({run.base.status}): {run.base.message}", file=sys.stderr)
         return EXIT_INFEASIBLE if run.base.status in ("infeasible", "unbounded") else EXIT_SOLVER
     comp = run.comparison
     planned = comp["total_cost"].notna()
