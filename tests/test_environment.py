@@ -27,12 +27,12 @@ import netopt.present.stress as stress_mod
 from netopt.cli import main
 from netopt.data.coerce import coerce_setting
 from netopt.data.io import load_case
-from netopt.data.limits import MAX_FRONTIER_POINTS
+from netopt.data.limits import MAX_FRONTIER_POINTS, MAX_WORKERS
 from netopt.data.settings_schema import SETTINGS
 from netopt.present.files import OUTPUT_MARK, atomic_folder
 from netopt.present.stress import stress
 from netopt.studies.resilience import run_sweep
-from netopt.studies.sweep_exec import JOURNAL, MAX_WORKERS
+from netopt.studies.sweep_exec import JOURNAL
 
 ROOT = Path(__file__).resolve().parents[1]
 

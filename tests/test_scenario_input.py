@@ -18,7 +18,7 @@ from casekit import make_case_dir
 from netopt.api import load_case
 from netopt.cli import main
 from netopt.data.case import CaseError
-from netopt.data.limits import MAX_FRONTIER_POINTS
+from netopt.data.limits import MAX_FRONTIER_POINTS, MAX_SCENARIOS
 from netopt.data.names import folder_name
 from netopt.data.scenario_sheet import scenarios_from_sheet
 from netopt.studies.scenarios import parse_scenarios, scenario_cases
@@ -57,6 +57,14 @@ def test_frontier_points_beyond_the_limit_or_not_a_whole_number_are_refused(poin
 def test_frontier_points_at_the_limit_are_accepted():
     (s,) = parse_scenarios(tomllib.loads(SC + f"frontier_points = {MAX_FRONTIER_POINTS}\n"))
     assert s.frontier_points == MAX_FRONTIER_POINTS
+
+
+def test_more_scenarios_than_the_limit_are_refused_before_any_is_read():
+    """Each scenario is at least one solve and a run keeps every result: the count is bounded."""
+    raw = [{"name": f"s{k}", "change": [{"kind": "scale_demand", "factor": 1.1}]} for k in range(MAX_SCENARIOS + 1)]
+    with pytest.raises(CaseError, match=f"more than the {MAX_SCENARIOS:,}"):
+        parse_scenarios(raw)
+    assert len(parse_scenarios(raw[:MAX_SCENARIOS])) == MAX_SCENARIOS
 
 
 # ------------------------------------------------------------------------ defect 4: numbers in changes

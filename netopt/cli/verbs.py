@@ -24,7 +24,7 @@ from netopt.cli.common import (
     warn,
 )
 from netopt.data.io import load_case
-from netopt.data.limits import MAX_FRONTIER_POINTS
+from netopt.data.limits import CONNECT_TIMEOUT_S, MAX_FRONTIER_POINTS, MAX_WORKERS
 from netopt.engine.solve import solve
 from netopt.present.files import (
     _jsonable,
@@ -47,7 +47,6 @@ from netopt.present.terminal import (
 from netopt.studies.comparison import dc_decision_matrix, largest_share_changes, mode_mix_matrix
 from netopt.studies.frontier import sweep
 from netopt.studies.scenarios import parse_scenarios, run_scenarios, scenario_source
-from netopt.studies.sweep_exec import CONNECT_TIMEOUT_S, MAX_WORKERS
 
 SOLVER_OPTIONS = argparse.ArgumentParser(add_help=False)
 SOLVER_OPTIONS.add_argument(

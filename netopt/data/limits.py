@@ -60,3 +60,12 @@ MAX_ERRORS_PER_COLUMN = 20
 
 MAX_PRINTED_PROBLEMS = 200
 """Most problem lines a report prints in all (errors first); the rest are counted."""
+
+MAX_SCENARIOS = 1_000
+"""Most scenarios in one case (each is at least one solve, and a run keeps every result)."""
+
+MAX_WORKERS = 256
+"""Most local worker processes a sweep starts (each holds its own copy of the model)."""
+
+CONNECT_TIMEOUT_S = 10.0
+"""Default time to reach a Dask scheduler before the sweep gives up (s)."""

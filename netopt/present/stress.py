@@ -20,6 +20,7 @@ import pandas as pd
 
 from netopt.data.case import Case
 from netopt.data.io import load_case
+from netopt.data.limits import CONNECT_TIMEOUT_S
 from netopt.engine.solve import solve
 from netopt.present.files import (
     DISCLAIMER,
@@ -34,7 +35,7 @@ from netopt.present.files import (
 from netopt.present.report import write_report
 from netopt.studies.exposure import exposure
 from netopt.studies.resilience import StressError, run_sweep
-from netopt.studies.sweep_exec import CONNECT_TIMEOUT_S, JOURNAL, SchedulerUnreachable, connect_scheduler
+from netopt.studies.sweep_exec import JOURNAL, SchedulerUnreachable, connect_scheduler
 
 
 def stress(

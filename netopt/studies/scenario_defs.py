@@ -13,7 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from netopt.data.case import Case, CaseError, Problem
-from netopt.data.limits import MAX_FRONTIER_POINTS
+from netopt.data.limits import MAX_FRONTIER_POINTS, MAX_SCENARIOS
 from netopt.data.names import folder_clashes, label_problem, name_problem, shown
 from netopt.data.scenario_sheet import SHEET
 from netopt.data.text import close_match_hint
@@ -122,6 +122,9 @@ def parse_scenarios(raw: list[dict] | dict | None, label: str = "scenarios.toml"
         raw = raw.get("scenario", [])
     if not isinstance(raw, list):
         msg = f"expected an array of tables written as [[scenario]], not {shown(raw)}"
+        raise CaseError([Problem(label, None, None, msg)])
+    if len(raw) > MAX_SCENARIOS:
+        msg = f"{len(raw)} scenarios, more than the {MAX_SCENARIOS:,} one case may hold (split them into several cases)"
         raise CaseError([Problem(label, None, None, msg)])
     problems: list[Problem] = []
     out: list[Scenario] = []

@@ -26,15 +26,13 @@ from typing import Any
 from rich.console import Console
 from rich.progress import BarColumn, MofNCompleteColumn, Progress, TextColumn, TimeElapsedColumn, TimeRemainingColumn
 
+from netopt.data.limits import CONNECT_TIMEOUT_S, MAX_WORKERS
+
 JOURNAL = "sweep_journal.jsonl"
 JOURNAL_FORMAT = "netopt stress sweep journal v2"  # v2: safety stock on held lines, a DC out stays paid for
 
 Task = Callable[[Any, dict], dict]  # task(spec, element) -> row
 
-MAX_WORKERS = 256
-"""Most local worker processes a sweep starts (each holds its own copy of the model)."""
-CONNECT_TIMEOUT_S = 10.0
-"""Default time to reach a Dask scheduler before the sweep gives up (s)."""
 ORPHAN_EXIT = 70  # exit code of a pool worker whose parent died (EX_SOFTWARE)
 
 
