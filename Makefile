@@ -31,6 +31,9 @@ lint: $(STAMP)
 test: lint
 	$(PY) -m pytest -q
 
+fuzz: $(STAMP)
+	$(PY) -m pytest -q -m fuzz_long tests/test_fuzz.py
+
 bench: $(STAMP)
 	$(PY) benchmarks/run.py
 

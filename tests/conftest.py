@@ -18,3 +18,13 @@ from casekit import make_case_dir  # noqa: E402
 def tiny_case_dir(tmp_path):
     """The tiny valid case written as a folder (see tests/casekit.py)."""
     return make_case_dir(tmp_path)
+
+
+def pytest_collection_modifyitems(config, items):
+    """Tests marked ``fuzz_long`` run only when asked for by ``-m fuzz_long`` (``make fuzz``)."""
+    if "fuzz_long" in (config.getoption("markexpr") or ""):
+        return
+    skip = pytest.mark.skip(reason="long fuzz: run with `make fuzz` (pytest -m fuzz_long)")
+    for item in items:
+        if "fuzz_long" in item.keywords:
+            item.add_marker(skip)
