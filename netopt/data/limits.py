@@ -6,8 +6,19 @@ a limit is refused with a message naming the limit, never truncated silently.
 
 from __future__ import annotations
 
+# --------------------------------------------------------------------------- studies
+
 MAX_FRONTIER_POINTS = 50
 """Most points on a cost–CO2 frontier (each point is one full solve)."""
+
+MAX_SCENARIOS = 1_000
+"""Most scenarios in one case (each is at least one solve, and a run keeps every result)."""
+
+MAX_WORKERS = 256
+"""Most local worker processes a sweep starts (each holds its own copy of the model)."""
+
+CONNECT_TIMEOUT_S = 10.0
+"""Default time to reach a Dask scheduler before the sweep gives up (s)."""
 
 # --------------------------------------------------------------------------- numbers in tables and settings
 
@@ -60,12 +71,3 @@ MAX_ERRORS_PER_COLUMN = 20
 
 MAX_PRINTED_PROBLEMS = 200
 """Most problem lines a report prints in all (errors first); the rest are counted."""
-
-MAX_SCENARIOS = 1_000
-"""Most scenarios in one case (each is at least one solve, and a run keeps every result)."""
-
-MAX_WORKERS = 256
-"""Most local worker processes a sweep starts (each holds its own copy of the model)."""
-
-CONNECT_TIMEOUT_S = 10.0
-"""Default time to reach a Dask scheduler before the sweep gives up (s)."""
