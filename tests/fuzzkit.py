@@ -27,8 +27,10 @@ from pathlib import Path
 
 import openpyxl
 import tomllib
+from casekit import settings_text
 
 from netopt.cli import main
+from netopt.data.writing import toml_value
 
 DEMO = Path(__file__).resolve().parent.parent / "cases" / "brackenholt"
 
@@ -104,45 +106,13 @@ HOSTILE_TOML: tuple[object, ...] = (
 )
 
 
-def toml_text(value: object) -> str:
-    """Any Python value as TOML text, hostile ones included (huge ints, nan, nested arrays)."""
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, int):
-        return str(value)
-    if isinstance(value, float):
-        if math.isnan(value):
-            return "nan"
-        if math.isinf(value):
-            return "inf" if value > 0 else "-inf"
-        return repr(value)
-    if isinstance(value, str):
-        return json.dumps(value)  # a JSON string is a valid TOML basic string
-    if isinstance(value, list):
-        return "[" + ", ".join(toml_text(v) for v in value) + "]"
-    if isinstance(value, dict):
-        return "{" + ", ".join(f"{json.dumps(k)} = {toml_text(v)}" for k, v in value.items()) + "}"
-    raise TypeError(value)
-
-
-def settings_text(settings: dict) -> str:
-    lines = []
-    for section, entries in settings.items():
-        if not isinstance(entries, dict):
-            lines.insert(0, f"{json.dumps(section)} = {toml_text(entries)}")
-            continue
-        lines.append(f"[{json.dumps(section)}]")
-        lines += [f"{json.dumps(k)} = {toml_text(v)}" for k, v in entries.items()]
-    return "\n".join(lines) + "\n"
-
-
 def scenarios_text(doc: dict) -> str:
     """A scenarios document (``{"scenario": [...]}``, possibly mangled) as TOML text."""
     lines = []
     scen = doc.get("scenario")
     for k, v in doc.items():
         if k != "scenario" or not isinstance(v, list) or not all(isinstance(s, dict) for s in v):
-            lines.append(f"{json.dumps(k)} = {toml_text(v)}")
+            lines.append(f"{toml_value(str(k))} = {toml_value(v)}")
     if isinstance(scen, list) and all(isinstance(s, dict) for s in scen):
         for s in scen:
             lines.append("[[scenario]]")
@@ -150,11 +120,11 @@ def scenarios_text(doc: dict) -> str:
             for k, v in s.items():
                 if k == "change" and isinstance(v, list) and v and all(isinstance(c, dict) for c in v):
                     continue
-                lines.append(f"{json.dumps(k)} = {toml_text(v)}")
+                lines.append(f"{toml_value(str(k))} = {toml_value(v)}")
             if isinstance(changes, list) and changes and all(isinstance(c, dict) for c in changes):
                 for c in changes:
                     lines.append("[[scenario.change]]")
-                    lines += [f"{json.dumps(k)} = {toml_text(v)}" for k, v in c.items()]
+                    lines += [f"{toml_value(str(k))} = {toml_value(v)}" for k, v in c.items()]
     return "\n".join(lines) + "\n"
 
 
@@ -270,7 +240,7 @@ def _mutate_settings(rng: random.Random, case: Path) -> tuple[str, bool]:
         name = rng.choice(sorted(settings[section]))
         value = rng.choice(HOSTILE_TOML)
         settings[section][name] = value
-        what = f"settings [{section}] {name} = {toml_text(value)[:40]}"
+        what = f"settings [{section}] {name} = {toml_value(value)[:40]}"
         path.write_text(settings_text(settings), encoding="utf-8")
         return what, _unusable(value)
 
@@ -310,17 +280,17 @@ def _mutate_scenarios(rng: random.Random, case: Path) -> tuple[str, bool]:
     if op == "field":
         key = rng.choice(["name", "description", "based_on", "resolve", "frontier_points"])
         s[key] = rng.choice(HOSTILE_TOML + (10**30, 3, "hold", "both", "nope") + UNUSABLE_NAMES)
-        what = f"scenario {i + 1} {key} = {toml_text(s[key])[:40]}"
+        what = f"scenario {i + 1} {key} = {toml_value(s[key])[:40]}"
         must_refuse = (key == "name" and s[key] in UNUSABLE_NAMES) or (key == "frontier_points" and s[key] == 10**30)
     elif op == "change_field" and s.get("change"):
         ch = rng.choice(s["change"])
         key = rng.choice(sorted(ch))
         ch[key] = rng.choice(HOSTILE_TOML + ("DC_NOWHERE", "SUP_NINGBO", "closed", "open"))
-        what = f"scenario {i + 1} change {ch.get('kind')!r} {key} = {toml_text(ch[key])[:40]}"
+        what = f"scenario {i + 1} change {ch.get('kind')!r} {key} = {toml_value(ch[key])[:40]}"
         must_refuse = _unusable(ch[key]) or ch[key] == "DC_NOWHERE"
     elif op == "change_shape":
         s["change"] = rng.choice([[1, 2], 5, "site_out", [[1]], [{}], [{"kind": "site_out"}]])
-        what = f"scenario {i + 1} change = {toml_text(s['change'])}"
+        what = f"scenario {i + 1} change = {toml_value(s['change'])}"
     elif op == "dup_name":
         s["name"] = scen[(i + 1) % len(scen)]["name"]
         what = f"scenario {i + 1} named like the next"
@@ -337,7 +307,7 @@ def _mutate_scenarios(rng: random.Random, case: Path) -> tuple[str, bool]:
     else:
         key = rng.choice(["scenario", "scenarios", "x"])
         doc = {**doc, key: rng.choice(HOSTILE_TOML)}
-        what = f"scenarios.toml top-level {key} = {toml_text(doc[key])[:40]}"
+        what = f"scenarios.toml top-level {key} = {toml_value(doc[key])[:40]}"
     path.write_text(scenarios_text(doc), encoding="utf-8")
     return what, must_refuse
 
