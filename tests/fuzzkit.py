@@ -154,16 +154,18 @@ def _write_csv(path: Path, rows: list[list[str]]) -> None:
         csv.writer(f).writerows(rows)
 
 
-NEAR_MISS_HEADERS = (str.capitalize, str.upper, lambda n: f" {n} ", lambda n: n + "\u200b", lambda n: "\ufeff" + n)
-"""Ways of writing a known column that differ only by case, spacing or invisible characters: refused."""
+NEAR_MISS_HEADERS = (str.capitalize, str.upper, lambda n: n + "\u200b", lambda n: "\ufeff" + n)
+"""Ways of writing a known column that differ only by case or invisible characters: refused (a byte-order
+mark before the file's first header is the file's own and is dropped)."""
 
 
-def _header_variant(rng: random.Random, name: str) -> tuple[str, bool]:
-    """A changed header, and whether it is a near miss of ``name`` (which netopt must refuse)."""
+def _header_variant(rng: random.Random, name: str, first: bool) -> tuple[str, bool]:
+    """A changed header, and whether it is a near miss of ``name`` (which netopt must refuse). Spaces around
+    a header are trimmed, so the column is read as itself (common practice, no source)."""
     if rng.random() < 0.6:
         variant = rng.choice(NEAR_MISS_HEADERS)(name)
-        return variant, variant != name
-    return rng.choice([name.replace("_", " "), name[:-1] if len(name) > 2 else name + "x", name + "s", ""]), False
+        return variant, variant != name and not (first and variant == "\ufeff" + name)
+    return rng.choice([f" {name} ", name[:-1] if len(name) > 2 else name + "x", name + "s", ""]), False
 
 
 def _mutate_table(rng: random.Random, case: Path) -> tuple[str, bool]:
@@ -186,7 +188,7 @@ def _mutate_table(rng: random.Random, case: Path) -> tuple[str, bool]:
     if op == "header":
         c = rng.randrange(len(rows[0]))
         old = rows[0][c]
-        rows[0][c], near_miss = _header_variant(rng, old)
+        rows[0][c], near_miss = _header_variant(rng, old, first=c == 0)
         _write_csv(path, rows)
         return f"{name} header {old!r} -> {rows[0][c]!r}", near_miss
     if op == "drop_col":
@@ -442,6 +444,12 @@ def judge(m: Mutation, o: Outcome, out: Path | None = None) -> str | None:
     if o.code != 0:
         return f"solve exit {o.code}: {o.stderr[-300:]}"
     summary = json.loads((out / "summary.json").read_text(encoding="utf-8")) if out else {}
-    if not summary.get("verified"):
+    if "base" in summary:  # a run: the base and every scenario row with a plan must be verified
+        unverified = [
+            r["scenario"] for r in summary["scenarios"] if r.get("total_cost") is not None and not r["verified"]
+        ]
+        if not summary["base"].get("verified") or unverified:
+            return f"run not verified: base {summary['base'].get('verified')}, scenarios {unverified}"
+    elif not summary.get("verified"):
         return f"solve not verified: {summary.get('largest_violation_rule')}"
     return None

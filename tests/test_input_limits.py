@@ -319,6 +319,17 @@ def test_a_cell_longer_than_the_limit_is_an_error_naming_table_row_and_column(tm
     assert len(p.message) < 300
 
 
+def test_a_cell_beyond_the_csv_readers_own_limit_names_the_cell_limit_not_a_missing_table(tmp_path):
+    """A 1 MB cell stops Python's csv reader (its field limit, 131,072 characters): the message states the
+    cell limit, and the table is not also reported missing."""
+    rows = tiny_rows()
+    rows["customers"][1]["customer"] = "C" * 1_000_000
+    e = problems_of(make_case_dir(tmp_path, **rows))
+    p = find(e.problems, "customers", 3, None, "characters")
+    assert f"{MAX_CELL_CHARS:,}" in p.message
+    assert not [q for q in e.problems if q.table == "customers" and "missing" in q.message]
+
+
 def test_a_workbook_cell_longer_than_the_limit_is_an_error(tmp_path):
     book = _tiny_workbook(tmp_path)
     wb = openpyxl.load_workbook(book)

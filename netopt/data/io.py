@@ -90,6 +90,9 @@ def read_csv_table(path: Path, table: str) -> tuple[pd.DataFrame | None, list[Pr
             if len(cells) > cols_most:
                 return None, [Problem(table, last, None, f"row has more than {cols_most:,} values (MAX_TABLE_COLUMNS)")]
     except csv.Error as e:
+        if "field larger than field limit" in str(e):  # the csv module stops long before a cell is read whole
+            msg = f"a cell holds more than {csv.field_size_limit():,} characters; at most {limits.MAX_CELL_CHARS:,} are read"
+            return None, [Problem(table, last + 1, None, msg + " (MAX_CELL_CHARS)")]
         return None, [Problem(table, last + 1, None, f"not readable as CSV: {e}")]
     return frame_from_records(table, records)
 
@@ -138,9 +141,9 @@ def _read_folder(folder: Path):
             continue
         frame, probs = read_csv_table(p, name)
         problems += probs
+        sources[name] = t.file_name  # given, even when unreadable (its problems say why)
         if frame is not None:
             tables[name] = frame
-            sources[name] = t.file_name
     known = {t.file_name for t in TABLES.values()}
     for fname in sorted(files):
         like = resembled(fname, known | {SETTINGS_FILE, SCENARIOS_FILE}) if fname not in known else None

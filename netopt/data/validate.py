@@ -95,7 +95,9 @@ def validate_and_coerce(
     usable: set[str] = set()  # given and with every required column
     for name, t in TABLES.items():
         frame = tables.get(name) if name in given else None
-        if frame is None and t.required:
+        if (
+            frame is None and t.required and name not in sources
+        ):  # a table given but unreadable is reported by the reader
             problems.append(
                 Problem(
                     name,
