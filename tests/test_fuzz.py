@@ -44,7 +44,7 @@ def _fuzz(root, count: int, solves: int, verb_for_scenarios: str, seed: int = SE
         verb = verb_for_scenarios if has_scenarios else "solve"
         o = run_cli([verb, str(m.case), "--out", str(out), "--time-limit", "30", "-q"], timeout_s=600)
         mm = Mutation(m.number, m.what, False, "solve", m.case)
-        reason = judge(mm, o, out if verb == "solve" else None)
+        reason = judge(mm, o, out)
         if reason:
             failures.append(f"#{m.number} {m.what} ({verb}): {reason}")
         tally["infeasible" if o.code == 3 else "solved"] += 1
