@@ -15,8 +15,9 @@ import pandas as pd
 
 from netopt.data.case import Problem
 from netopt.data.declarations import Column, Setting
-from netopt.data.header_names import brief, resemblance_message, resembled
+from netopt.data.header_names import resemblance_message, resembled
 from netopt.data.limits import MAX_CELL_CHARS
+from netopt.data.names import shown
 from netopt.data.schema import INF, LEGS, TABLES
 from netopt.data.settings_schema import SETTINGS
 from netopt.data.text import (
@@ -206,7 +207,7 @@ def coerce_column(table: str, col: Column, series: pd.Series) -> tuple[pd.Series
         assert v is not None  # parsed above; None only for blanks, handled above
         if math.isinf(v) and values is None and text.lower().lstrip("+-") not in _INF_WORDS:
             problems.append(
-                Problem(table, r, col.name, f"number too large (beyond the range of a float), got {brief(text)}")
+                Problem(table, r, col.name, f"number too large (beyond the range of a float), got {shown(text)}")
             )
             out.append(None)
             continue
@@ -292,12 +293,12 @@ def _setting_problem(label, rows, s: Setting, message, severity="error") -> Prob
 def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
     """Parse one setting value by its declared type; returns (value, error message or None)."""
     if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 1023:
-        return s.default, f"number too large (beyond the range of a float), got {brief(value)}"
+        return s.default, f"number too large (beyond the range of a float), got {shown(value)}"
     if isinstance(value, str) and len(value) > MAX_CELL_CHARS:
         return s.default, f"{len(value):,} characters; at most {MAX_CELL_CHARS:,} are accepted"
     if s.type == "str":
         if not isinstance(value, str):
-            return s.default, f"text expected (in quotes), got {brief(value)}"
+            return s.default, f"text expected (in quotes), got {shown(value)}"
         return as_text(value), None
     if s.type == "list":
         if isinstance(value, str):
@@ -305,14 +306,14 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
         elif isinstance(value, (list, tuple)):
             items = [as_text(p) for p in value]
             if any(isinstance(p, (list, dict)) for p in value):
-                return s.default, f"list of names expected, got {brief(value)}"
+                return s.default, f"list of names expected, got {shown(value)}"
         else:
-            return s.default, f'list of names expected (e.g. ["a", "b"] or a|b), got {brief(value)}'
+            return s.default, f'list of names expected (e.g. ["a", "b"] or a|b), got {shown(value)}'
         allowed = _SETTING_CHOICES.get((s.section, s.name))
         if allowed is not None:
             bad = [p for p in items if p not in allowed]
             if bad:
-                return s.default, f"unknown value(s) {', '.join(brief(b) for b in bad)}; allowed: {', '.join(allowed)}"
+                return s.default, f"unknown value(s) {', '.join(shown(b) for b in bad)}; allowed: {', '.join(allowed)}"
         return items, None
     if s.type == "bool":
         if isinstance(value, (bool, np.bool_)):
@@ -323,10 +324,10 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
                 return True, None
             if low in _FALSE_WORDS:
                 return False, None
-        return s.default, f"true or false expected, got {brief(value)}"
+        return s.default, f"true or false expected, got {shown(value)}"
     # numbers
     if isinstance(value, (bool, np.bool_, list, dict)):
-        return s.default, f"{'whole number' if s.type == 'int' else 'number'} expected, got {brief(value)}"
+        return s.default, f"{'whole number' if s.type == 'int' else 'number'} expected, got {shown(value)}"
     if isinstance(value, str):
         v = parse_float(value.strip())
         if v is None:
@@ -334,14 +335,14 @@ def coerce_setting(s: Setting, value) -> tuple[object, str | None]:
     elif isinstance(value, (int, float, np.integer, np.floating)):
         v = float(value)
     else:
-        return s.default, f"number expected, got {brief(value)}"
+        return s.default, f"number expected, got {shown(value)}"
     if math.isinf(v) and isinstance(value, str) and value.strip().lower().lstrip("+-") not in _INF_WORDS:
-        return s.default, f"number too large (beyond the range of a float), got {brief(value.strip())}"
+        return s.default, f"number too large (beyond the range of a float), got {shown(value.strip())}"
     if math.isnan(v) or math.isinf(v):
-        return s.default, f"finite number expected, got {brief(value)}"
+        return s.default, f"finite number expected, got {shown(value)}"
     if s.type == "int":
         if not v.is_integer():
-            return s.default, f"whole number expected, got {brief(value)}"
+            return s.default, f"whole number expected, got {shown(value)}"
         v = int(v)
     if (s.min is not None and v < s.min) or (s.max is not None and v > s.max):
         return s.default, f"must be {bound_text(s, v)}, got {format_number(v)}"
@@ -380,7 +381,7 @@ def coerce_settings(
                         None,
                         f"[{section}]",
                         f"{section} is a section: write it as a [{section}] heading with name = value lines, "
-                        f"not as a value ({brief(entries)})",
+                        f"not as a value ({shown(entries)})",
                     )
                 )
             else:

@@ -7,7 +7,6 @@ A near-miss would otherwise be ignored with a warning and its values silently re
 
 from __future__ import annotations
 
-import math
 import re
 import unicodedata
 
@@ -43,11 +42,3 @@ def resemblance_message(name: str, known: str, what: str) -> str:
         f"'{name}' is not the {what} '{known}': it differs only in {how}, and as written it would be ignored "
         f"(its values unread, every row taking the default); rename it '{known}'"
     )
-
-
-def brief(value) -> str:
-    """A value as shown in a message: its repr, cut short (a huge whole number by its digit count)."""
-    if isinstance(value, int) and not isinstance(value, bool) and value.bit_length() > 200:
-        return f"a whole number of about {int(value.bit_length() * math.log10(2)) + 1} digits"
-    text = repr(value)
-    return text if len(text) <= 80 else text[:77] + "..."
