@@ -2,8 +2,8 @@
 change and the field, found when the scenarios are parsed (before any solve); never a traceback.
 
 Checked against: what the scenario vocabulary declares (netopt.studies.changes.CHANGE_KINDS) and the
-stated limits (netopt.data.limits.MAX_FRONTIER_POINTS); TOML semantics from the TOML 1.0 specification
-(common practice, no source).
+stated limits (netopt.data.limits); TOML semantics from the TOML v1.0.0 specification (toml.io), as
+Python's tomllib reads it.
 """
 
 from __future__ import annotations

@@ -1,8 +1,9 @@
 """HiGHS's refusals are clear failures, never an IndexError or a status "error" with "Empty".
 
-Facts checked (common practice, no source): HiGHS refuses a matrix entry above its option
-large_matrix_value (1e15) and then holds an empty model; it reads |cost| or a bound ≥ 1e20 as
-infinite and takes NaN silently; a solver that cannot take a model must say so, naming the number.
+Facts checked: HiGHS refuses a matrix entry above its option large_matrix_value (1e15) and reads
+|cost| or a bound ≥ 1e20 as infinite (its options infinite_cost, infinite_bound: HiGHS options
+documentation); that it then holds an empty model and takes NaN silently was observed with highspy
+1.16; a solver that cannot take a model must say so, naming the number (common practice, no source).
 The case is built in memory past any input maxima, so the engine's own check is what is tested.
 """
 
