@@ -12,10 +12,13 @@ from __future__ import annotations
 import re
 from pathlib import Path
 
+import numpy as np
+import pandas as pd
 import pyomo.environ as pyo
 import pytest
 
 from netopt.data.frames import make_case
+from netopt.data.periods import horizon, period_case
 from netopt.model import COST_COMPONENTS, build_model
 from netopt.model.formulation import (
     DOC_PATH,
@@ -26,6 +29,7 @@ from netopt.model.formulation import (
     formulation_markdown,
     write_formulation,
 )
+from netopt.model.phasing import stack
 from netopt.network.arcs import build_network
 
 MODEL_DIR = Path(__file__).resolve().parents[1] / "netopt" / "model"
@@ -127,6 +131,35 @@ def built():
     return build_model(net), build_model(net, elastic=True)
 
 
+@pytest.fixture(scope="module")
+def stacked():
+    """The every-rule case over two periods with stock carried, an openings limit and an opening budget:
+    the stacked model of ``netopt.model.phasing`` (its names without the ``@k`` of each period)."""
+    case = every_rule_case()
+    case.tables["periods"] = pd.DataFrame(
+        {
+            "period": ["Y1", "Y2"],
+            "years": [1.0, 1.0],
+            "discount_factor": [np.nan, np.nan],
+            "cost_index": [1.0, 1.0],
+            "max_openings": [1, -1],
+            "opening_budget": [np.inf, 5e4],
+        }
+    )
+    case.settings["periods"]["carry_stock"] = True
+    per = horizon(case)
+    model = pyo.ConcreteModel()
+    builders = [
+        build_model(build_network(period_case(case, p, k)), model=model, suffix=f"@{k}", objective=False)
+        for k, p in enumerate(per["period"])
+    ]
+    return stack(builders, per, case.settings, case.tables["dcs"], case.tables["opening_stock"])
+
+
+def _plain(names) -> set[str]:
+    return {re.sub(r"@\d+$", "", n) for n in names}
+
+
 def _literal_names(call: str) -> set[str]:
     """First string-literal argument of every ``.call("name", ...)`` in netopt/model/."""
     pat = re.compile(rf'\.{call}\(\s*"([a-z_0-9]+)"')
@@ -153,20 +186,21 @@ def test_write_formulation_round_trip(tmp_path):
     assert out.read_text(encoding="utf-8") == formulation_markdown()
 
 
-def test_every_built_row_family_has_maths(built):
+def test_every_built_row_family_has_maths(built, stacked):
     page = formulation_markdown()
     tight, _ = built
-    created = _row_families(tight)
+    created = _row_families(tight) | _plain(_row_families(stacked))
     assert created - documented_rows(page) == set(), "row families without maths in their module's add()"
     # Every family the docs state is created on this case (no stale maths), and the static calls agree.
     assert documented_rows(page) - created == set()
     assert _literal_names("add_rows") <= documented_rows(page)
 
 
-def test_every_variable_block_and_cost_component_is_stated(built):
+def test_every_variable_block_and_cost_component_is_stated(built, stacked):
     page = formulation_markdown()
     tight, elastic = built
     blocks = {re.sub(r"^(slack_(?:lo|hi)__).+$", r"\1<family>", n) for n in set(tight.vars) | set(elastic.vars)}
+    blocks |= _plain(stacked.vars)
     assert blocks - documented_variables(page) == set()
     assert _literal_names("add_vars") <= documented_variables(page)
     costs = set(tight.cost) | set(tight.cost_constant) | set(elastic.cost) | set(COST_COMPONENTS)

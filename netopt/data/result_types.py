@@ -13,7 +13,7 @@ UNITS: dict[str, tuple[str, str]] = {  # unit → (kind, meaning)
     "flag": ("flag", "true or false"),
     "count": ("count", "a whole number of things"),
     "currency/yr": ("money", "case currency per year"),
-    "currency": ("money", "case currency (a stock's value)"),
+    "currency": ("money", "case currency (a stock's value, a one-off cost, or a present value over periods)"),
     "currency/unit": ("rate", "case currency per unit"),
     "currency/unit/yr": ("rate", "case currency per unit of stock per year"),
     "currency/t CO2e": ("rate", "case currency per tonne of CO2e"),
@@ -28,6 +28,7 @@ UNITS: dict[str, tuple[str, str]] = {  # unit → (kind, meaning)
     "share": ("share", "a fraction, 0–1 (shown as %)"),
     "share/yr": ("share", "a fraction of value per year"),
     "days": ("days", "days"),
+    "years": ("decimal", "years"),
     "ratio": ("decimal", "a plain number"),
     "per year": ("decimal", "times per year"),
     "degrees": ("coordinate", "WGS84 degrees"),
@@ -81,7 +82,10 @@ class ResultTable:
     aliases: tuple[str, ...] = field(default_factory=tuple)  # other names it is written under
 
     def find(self, name: str) -> ResultColumn | None:
-        """The declaration of column ``name`` (exact names first, then patterns), or None."""
+        """The declaration of column ``name`` (exact names first, then patterns; ``period``, which every
+        table of a plan over periods carries, is :data:`PERIOD`), or None."""
+        if name == PERIOD.name and all(c.name != name for c in self.columns):
+            return PERIOD
         for c in self.columns:
             if not c.is_pattern and c.name == name:
                 return c
@@ -111,3 +115,15 @@ class Kpi:
 def result_column(name, type_, unit, label, meaning, **kw) -> ResultColumn:
     """A :class:`ResultColumn` from positional fields (short declarations)."""
     return ResultColumn(name, type_, unit, label, meaning, **kw)
+
+
+PERIOD = ResultColumn(
+    "period",
+    "str",
+    "text",
+    "period",
+    "Planning period the row is for (from the case's periods table); every table of a plan over periods "
+    "whose values vary by period carries it",
+)
+"""The one ``period`` column of every result table of a plan over periods."""
+

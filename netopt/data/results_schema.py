@@ -170,10 +170,11 @@ _table(
 )
 _table(
     "cost",
-    "Annual landed cost by component; rows sum to the total",
+    "Annual landed cost by component; rows sum to the total (a plan over periods: the present value of each "
+    "component over all periods, currency; period_cost has each period's)",
     "netopt solve / run",
     _c("component", "str", "text", "component", "Cost component (supply, transport, dc_fixed, …)"),
-    _c("amount", "float", "currency/yr", "amount", "The component's cost"),
+    _c("amount", "float", "currency/yr", "amount", "The component's cost (a plan over periods: present value)"),
 )
 _table(
     "kpis",
@@ -435,7 +436,7 @@ _table(
     VERIFIED,
 )
 # The stress study's tables, registered after the run tables (the order of docs/outputs.md).
-from netopt.data import stress_schema  # noqa: E402, F401
+from netopt.data import horizon_schema, stress_schema  # noqa: E402, F401
 
 __all__ = [
     "RESULT_TABLES",

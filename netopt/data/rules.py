@@ -7,6 +7,7 @@ from __future__ import annotations
 import pandas as pd
 
 from netopt.data.case import Problem
+from netopt.data.rules_time import time_problems
 from netopt.data.schema import LEGS, TABLES
 from netopt.data.text import as_text, close_match_hint, format_number, row_number
 
@@ -364,5 +365,6 @@ def cross_table_problems(
     problems += _lane_sites(tables)
     problems += _mode_rules(tables)
     problems += _other_rules(tables, given, usable)
+    problems += time_problems(tables, given, usable)
     problems += _dc_count_rules(tables, settings, label, settings_rows)
     return problems

@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
+from netopt.data.schema_time import CAPACITY_BY_PERIOD, OPENING_STOCK, PERIODS
 from netopt.data.schema_transport import LANES, LEGS, MODES, ROAD_EDGES
 
 LAT = _c("lat", "float", "degrees", True, None, "Latitude, WGS84, north positive", min=-90, max=90)
@@ -61,6 +62,16 @@ _table(
                 "Annual inventory carrying rate; blank = the settings' inventory.holding_rate",
                 min=0,
                 max=5,
+            ),
+            _c(
+                "lost_sale_cost",
+                "float",
+                "currency/unit",
+                False,
+                None,
+                "Cost of each unit of this product's demand not served (where lost demand is allowed and in the "
+                "resilience study); blank = the settings' policy.unmet_penalty_per_unit, or 2 × unit_value",
+                min=0,
             ),
             _c(
                 "demand_cv",
@@ -162,6 +173,15 @@ _table(
                 min=0,
             ),
             _c(
+                "storage_capacity",
+                "float",
+                "units",
+                False,
+                INF,
+                "Most units of this product the plant may hold as stock carried between periods",
+                min=0,
+            ),
+            _c(
                 "time_to_recover_days",
                 "float",
                 "days",
@@ -245,7 +265,34 @@ _table(
                 "currency",
                 False,
                 0.0,
-                "One-off cost of closing an existing DC (annualised by the user)",
+                "One-off cost of closing an existing DC, counted once: in the period it closes (a case "
+                "without periods counts it in its one year, so annualise it there)",
+                min=0,
+            ),
+            _c(
+                "opening_cost",
+                "float",
+                "currency",
+                False,
+                0.0,
+                "One-off cost of opening a candidate DC, counted once like closing_cost",
+                min=0,
+            ),
+            _c(
+                "earliest_period",
+                "str",
+                "",
+                False,
+                "",
+                "First period in which a candidate DC may be open; blank = any (needs a periods table)",
+            ),
+            _c(
+                "storage_capacity",
+                "float",
+                "units",
+                False,
+                INF,
+                "Most units the DC may hold as stock carried between periods (all products)",
                 min=0,
             ),
             _c("region", "str", "", False, "", "Region the DC belongs to"),
@@ -281,6 +328,7 @@ _table(
             ),
         ),
         key=("dc",),
+        references=(Reference("earliest_period", "periods", "period", allow_blank=True),),
     )
 )
 
@@ -329,7 +377,15 @@ _table(
         (
             _c("customer", "str", "", True, None, "Customer zone"),
             _c("product", "str", "", True, None, "Finished product"),
-            _c("quantity", "float", "units/year", True, None, "Annual demand", min=0),
+            _c("quantity", "float", "units/year", True, None, "Annual demand (a rate per year within a period)", min=0),
+            _c(
+                "period",
+                "str",
+                "",
+                False,
+                "",
+                "Period this row is for (from periods); blank = every period without a row of its own",
+            ),
             _c(
                 "demand_cv",
                 "float",
@@ -340,8 +396,12 @@ _table(
                 min=0,
             ),
         ),
-        key=("customer", "product"),
-        references=(Reference("customer", "customers", "customer"), Reference("product", "products", "product")),
+        key=("customer", "product", "period"),
+        references=(
+            Reference("customer", "customers", "customer"),
+            Reference("product", "products", "product"),
+            Reference("period", "periods", "period", allow_blank=True),
+        ),
     )
 )
 
@@ -378,6 +438,9 @@ _table(
     )
 )
 
+_table(PERIODS)
+_table(CAPACITY_BY_PERIOD)
+_table(OPENING_STOCK)
 _table(MODES)
 _table(LANES)
 _table(ROAD_EDGES)

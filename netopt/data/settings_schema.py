@@ -246,6 +246,43 @@ SETTINGS: tuple[Setting, ...] = (
         "Default days to restore a site after a disruption",
         min=0,
     ),
+    Setting(
+        "periods",
+        "discount_rate",
+        "float",
+        "share per year",
+        0.0,
+        "Rate for the present value of later periods' costs, where the periods table gives no discount_factor",
+        min=0,
+        max=1,
+    ),
+    Setting(
+        "periods",
+        "carry_stock",
+        "bool",
+        "",
+        False,
+        "Carry stock from one period to the next at plants and DCs, so a peak can be built ahead; the first "
+        "period starts from the opening_stock table",
+    ),
+    Setting(
+        "periods",
+        "repeat_year",
+        "bool",
+        "",
+        False,
+        "The periods are the seasons of a repeating year: with carry_stock the last period's closing stock is "
+        "the first period's opening stock (opening_stock then not used)",
+    ),
+    Setting(
+        "periods",
+        "dc_reopening",
+        "bool",
+        "",
+        False,
+        "Let a DC close and open again between periods (off: a DC once opened stays open and an existing DC "
+        "closes at most once)",
+    ),
 )
 
 

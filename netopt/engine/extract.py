@@ -92,6 +92,7 @@ def extract(
     solved_on: Network | None = None,
     held_open: dict[str, bool] | None = None,
     extra_cost: Callable[[dict[str, pd.DataFrame]], dict[str, float]] | None = None,
+    stock: pd.DataFrame | None = None,
 ) -> Extracted:
     """Cost components, result tables and verification of one solution.
 
@@ -105,12 +106,18 @@ def extract(
         held_open: DC decisions that were held (dc → open), checked in verification.
         extra_cost: cost components recomputed from the tables by the caller's own rule
             (default: the safety-stock curve at each DC's throughput).
+        stock: stock carried through this period of a case with periods (site, site_kind, product,
+            opening, closing, years, holding_cost); its holding cost is the model's ``stock_holding``.
     """
     t0 = time.perf_counter()
     cost = cost_components(builder, values)
+    if stock is not None:
+        cost["stock_holding"] = float(stock["holding_cost"].sum())
     if solved_on is not None and solved_on is not net:
         values = align_values(values, solved_on, net)
     tables = build_tables(net, values, cost)
+    if stock is not None:
+        tables["stock"] = stock
     t1 = time.perf_counter()
     extra = (extra_cost or safety_stock_extra_cost)(tables)
     verification = verify(case, lanes, tables, float(objective), fixed_open=held_open, extra_cost=extra)

@@ -35,6 +35,7 @@ class Result:
     highs_model: HighsModel | None = None
     plan_values: dict[str, np.ndarray] | None = None  # every variable block's values (a start for another solve)
     lanes: pd.DataFrame | None = None
+    periods: pd.DataFrame | None = None  # the planning periods with their weights (a case with periods)
 
     @classmethod
     def of(cls, case_name: str, info: SolveInfo, **fields) -> Result:
@@ -59,10 +60,18 @@ class Result:
             return {}
         return dict(zip(self.tables["cost"]["component"], self.tables["cost"]["amount"]))
 
-    def held_openings(self) -> dict[str, str | bool]:
-        """DC decisions of this solution, to hold the network in a re-solve: dc → size name, True (open, no size options) or False."""
+    def held_openings(self) -> dict:
+        """DC decisions of this solution, to hold the network in a re-solve: dc → size name, True (open, no
+        size options) or False; in a case with periods, period → those decisions (the phasing)."""
         d = self.tables["dcs"]
-        return {dc: ((size or True) if o else False) for dc, o, size in zip(d["dc"], d["open"], d["size"])}
+        if "period" in d.columns:
+            return {str(p): _decisions(g) for p, g in d.groupby("period", sort=False)}
+        return _decisions(d)
+
+    @property
+    def is_multi_period(self) -> bool:
+        """Whether this plan covers several periods (its money is then a present value, currency)."""
+        return self.periods is not None
 
     def summary(self) -> dict:
         """JSON-ready summary: status, objective, bound, gap, cost breakdown, verification."""
@@ -84,8 +93,22 @@ class Result:
             "lost_demand_allowed": self.lost_demand_allowed,
         }
         if "kpis" in self.tables:
-            out["kpis"] = {k: _num(x) for k, x in zip(self.tables["kpis"]["kpi"], self.tables["kpis"]["value"])}
+            kp = self.tables["kpis"]
+            if "period" in kp.columns:
+                out["kpis"] = {
+                    str(p): {k: _num(x) for k, x in zip(g["kpi"], g["value"])}
+                    for p, g in kp.groupby("period", sort=False)
+                }
+            else:
+                out["kpis"] = {k: _num(x) for k, x in zip(kp["kpi"], kp["value"])}
+        if self.periods is not None:
+            out["periods"] = [str(p) for p in self.periods["period"]]
+            out["money"] = "present value over the periods (currency); period_cost.csv gives each period's"
         return out
+
+
+def _decisions(d: pd.DataFrame) -> dict[str, str | bool]:
+    return {dc: ((size or True) if o else False) for dc, o, size in zip(d["dc"], d["open"], d["size"])}
 
 
 def _num(x):

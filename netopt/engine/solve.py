@@ -14,10 +14,12 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.data.periods import has_periods
 from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.highs_check import ModelRejected
+from netopt.engine.horizon import solve_horizon
 from netopt.engine.plan_search import best_of, search_plan
 from netopt.engine.result import Result, fixed_options
 from netopt.model import build_model
@@ -49,7 +51,8 @@ def solve(
         time_limit, mip_gap, threads: override the case's [solver] settings.  The time limit is the whole
             solve's (lanes, build, plan search, MIP search); the MIP search always gets at least 5 % of it.
         formulation: "tight" (default) or "plain" (no strong linking, no pruning; benchmarks).
-        hold: DC decisions to hold (``Result.held_openings()`` of a base), re-routing only.
+        hold: DC decisions to hold (``Result.held_openings()`` of a base), re-routing only.  A case with
+            periods is solved by ``netopt.engine.horizon.solve_horizon`` (hold: period → decisions).
         progress: callable(stage: str, info: dict) for progress lines.
         keep_model: keep the HiGHS model on the result (for warm re-solves).
         diagnose: on infeasibility, re-solve elastically to name what cannot be met.
@@ -65,6 +68,19 @@ def solve(
     time_limit = float(sset["time_limit_s"] if time_limit is None else time_limit)
     mip_gap = float(sset["mip_gap"] if mip_gap is None else mip_gap)
     threads = int(sset["threads"] if threads is None else threads)
+    if has_periods(case):
+        return solve_horizon(
+            case,
+            time_limit=time_limit,
+            mip_gap=mip_gap,
+            threads=threads,
+            formulation=formulation,
+            hold=hold,  # type: ignore[arg-type]  # period → decisions (Result.held_openings of a plan over periods)
+            progress=progress,
+            lanes=lanes,
+            keep_model=keep_model,
+            diagnose=diagnose,
+        )
     timings: dict[str, float] = {}
 
     t0 = t_run = time.perf_counter()

@@ -85,6 +85,28 @@ def _sum_by(frame: pd.DataFrame, keys: list[str], col: str = "quantity") -> pd.S
     return frame.groupby(keys)[col].sum()
 
 
+def _stock_change(tables: dict[str, pd.DataFrame], kind: str) -> pd.Series:
+    """Stock built per (site, product) over the period of a case with periods (units/yr: (closing −
+    opening) / years); empty when stock is not carried."""
+    st = tables.get("stock")
+    if st is None or st.empty:
+        return pd.Series(dtype=float, index=pd.MultiIndex.from_tuples([], names=["site", "product"]))
+    st = st[st["site_kind"] == kind]
+    rate = (st["closing"].to_numpy(float) - st["opening"].to_numpy(float)) / st["years"].to_numpy(float)
+    return pd.Series(rate, index=pd.MultiIndex.from_frame(st[["site", "product"]])).groupby(level=[0, 1]).sum()
+
+
+def stock_holding_cost(case: Case, stock: pd.DataFrame) -> float:
+    """Cost of holding the stock carried at the end of a period (currency/yr): closing units × the
+    product's holding rate (blank: the settings' inventory.holding_rate) × unit value."""
+    prod = case.tables["products"].drop_duplicates("product").set_index("product")
+    rate = pd.to_numeric(prod["holding_rate"], errors="coerce").fillna(
+        float(case.settings["inventory"]["holding_rate"])
+    )
+    h = stock["product"].map(rate).to_numpy(float) * stock["product"].map(prod["unit_value"]).to_numpy(float)
+    return float((stock["closing"].to_numpy(float) * h).sum())
+
+
 def _at(series: pd.Series, frame: pd.DataFrame, keys: list[str]) -> np.ndarray:
     if len(keys) == 1:
         return series.reindex(frame[keys[0]]).fillna(0.0).to_numpy(float)
@@ -138,13 +160,22 @@ def verify(
         k = pd.MultiIndex.from_tuples(keys)
         a = into.reindex(k).fillna(0.0).to_numpy(float)
         b_ = out.reindex(k).fillna(0.0).to_numpy(float)
-        ck.eq("DC balance: in = out (units)", a, b_, scale=np.maximum(a, b_), where=[f"{x}/{y}" for x, y in keys])
+        built = _stock_change(tables, "dc").reindex(k).fillna(0.0).to_numpy(float)  # stock built, units/yr
+        ck.eq(
+            "DC balance: in = out + stock built (units)",
+            a,
+            b_ + built,
+            scale=np.maximum(a, b_),
+            where=[f"{x}/{y}" for x, y in keys],
+        )
 
     # --- plants: output = production; materials = BOM × production
     pout = _sum_by(flows[flows["origin_kind"] == "plant"], ["origin", "product"])
+    built_at_plant = _stock_change(tables, "plant")
     ck.eq(
-        "plant output = production (units)",
-        _at(pout, prod.rename(columns={"plant": "origin"}), ["origin", "product"]),
+        "plant output + stock built = production (units)",
+        _at(pout, prod.rename(columns={"plant": "origin"}), ["origin", "product"])
+        + _at(built_at_plant, prod.rename(columns={"plant": "origin"}), ["origin", "product"]),
         prod["quantity"].to_numpy(float),
         where=(prod["plant"] + "/" + prod["product"]).to_numpy(),
     )
@@ -315,6 +346,8 @@ def verify(
     cost, co2_kg = recompute_cost(case, lane_rows, tables)
     if float(pol["co2_cap_tonnes"]) >= 0:
         ck.le("CO2e cap (t)", np.atleast_1d(co2_kg / 1000.0), np.atleast_1d(float(pol["co2_cap_tonnes"])))
+    if tables.get("stock") is not None and len(tables["stock"]):
+        cost["stock_holding"] = stock_holding_cost(case, tables["stock"])
     for k2, v in (extra_cost or {}).items():
         cost[k2] = v
     total = float(sum(cost.values()))

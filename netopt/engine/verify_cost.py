@@ -7,6 +7,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.network.arcs import lost_sale_cost
 
 
 def recompute_cost(
@@ -65,6 +66,9 @@ def recompute_cost(
     closing = float(
         base.loc[dcs.loc[~dcs["open"].to_numpy(bool), "dc"]].query("status == 'existing'")["closing_cost"].sum()
     )
+    opening = float(
+        base.loc[dcs.loc[dcs["open"].to_numpy(bool), "dc"]].query("status == 'candidate'")["opening_cost"].sum()
+    )
     into_dc = f[f["destination_kind"] == "dc"]
     handling = float(
         (into_dc["quantity"].to_numpy(float) * into_dc["destination"].map(base["handling_cost"]).to_numpy(float)).sum()
@@ -72,12 +76,7 @@ def recompute_cost(
     un = tables["unmet"]
     pen = float(s["policy"]["unmet_penalty_per_unit"])
     unmet_cost = (
-        float(
-            (
-                un["lost_units"].to_numpy(float)
-                * (pen if pen > 0 else 2 * un["product"].map(prod["unit_value"]).to_numpy(float))
-            ).sum()
-        )
+        float((un["lost_units"].to_numpy(float) * lost_sale_cost(t["products"], pen, un["product"])).sum())
         if len(un)
         else 0.0
     )
@@ -87,6 +86,7 @@ def recompute_cost(
         "production": production,
         "dc_fixed": fixed,
         "dc_closing": closing,
+        "dc_opening": opening,
         "dc_handling": handling,
         "transport": float((q * freight).sum()),
         "pipeline_inventory": float((q * v * hr * days / 365.0).sum()),

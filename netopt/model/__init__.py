@@ -34,12 +34,14 @@ COST_COMPONENTS = (
     "production",
     "dc_fixed",
     "dc_closing",
+    "dc_opening",
     "dc_handling",
     "transport",
     "pipeline_inventory",
     "safety_stock",
     "carbon",
     "late_delivery",
+    "stock_holding",
     "unmet_penalty",
 )
 PENALTY_COMPONENTS = ("late_delivery", "unmet_penalty")
@@ -53,6 +55,9 @@ def build_model(
     fixed_open: np.ndarray | None = None,
     big_m_factor: float = 1.0,
     extra=None,
+    model=None,
+    suffix: str = "",
+    objective: bool = True,
 ) -> Builder:
     """Build the Pyomo model of ``net``.
 
@@ -65,8 +70,13 @@ def build_model(
         big_m_factor: multiplies the demand-based bound used for unlimited DC capacity
             (a held network raises it so demand can be scaled by bound changes alone).
         extra: optional callable(builder) adding further terms before the objective is made.
+        model, suffix, objective: build into ``model`` (a Pyomo model holding other builds too), its
+            component names ending in ``suffix``, without an objective of its own (one period of a
+            multi-period model, ``netopt.model.phasing``).
     """
-    b = Builder(net=net, elastic=elastic)
+    b = Builder(net=net, elastic=elastic, suffix=suffix)
+    if model is not None:
+        b.model = model
     openings.add(b, fixed_open=fixed_open)
     flows.add(b)
     capacity.add(b, formulation=formulation, big_m_factor=big_m_factor)
@@ -77,5 +87,6 @@ def build_model(
     safety_stock.add(b)
     if extra is not None:
         extra(b)
-    b.finish()
+    if objective:
+        b.finish()
     return b

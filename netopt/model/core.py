@@ -57,6 +57,7 @@ class Builder:
     dc_big_m: float = float("inf")  # units/yr standing in for unlimited DC capacity
     matrix_rows: dict[str, MatrixRows] = field(default_factory=dict)  # families passed as matrices, not Pyomo
     var_bounds: dict[str, tuple[np.ndarray, np.ndarray, bool]] = field(default_factory=dict)  # block → (lb, ub, binary)
+    suffix: str = ""  # appended to the model's component names (a period's builder in a model of several periods)
 
     # ------------------------------------------------------------------ variables
     def add_vars(self, name: str, labels: pd.DataFrame, lb=0.0, ub=None, binary: bool = False) -> list:
@@ -64,7 +65,7 @@ class Builder:
         n = len(labels)
         domain = pyo.Binary if binary else pyo.NonNegativeReals
         var = pyo.Var(range(n), domain=domain)
-        self.model.add_component(name, var)
+        self.model.add_component(name + self.suffix, var)
         vlist = list(var.values())
         lb_arr = np.broadcast_to(np.asarray(lb, dtype=float), (n,))
         ub_arr = np.broadcast_to(np.asarray(np.inf if ub is None else ub, dtype=float), (n,))
@@ -149,7 +150,7 @@ class Builder:
                 return expr >= rhs_l[r]
             return expr == rhs_l[r]
 
-        self.model.add_component(name, pyo.Constraint(range(n), rule=rule))
+        self.model.add_component(name + self.suffix, pyo.Constraint(range(n), rule=rule))
         self.row_labels[name] = labels.reset_index(drop=True)
 
     # ------------------------------------------------------------------ cost

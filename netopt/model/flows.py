@@ -109,6 +109,7 @@ def add(b: Builder) -> None:
         "==",
         0.0,
         elastic=False,
+        matrix=True,
     )
 
     # Plant materials: Σ material received = Σ_products bill-of-materials use × units made.

@@ -1,8 +1,9 @@
 """The whole model on one page: ``docs/formulation.md``, generated from the docstrings beside the code.
 
 The page is assembled from ``netopt.model``'s module docstring (sets and indices),
-``Builder.finish`` (objective and elastic diagnosis) and each concept module's ``add()``, in the
-order :func:`netopt.model.build_model` calls them.  In those docstrings a row family is an
+``Builder.finish`` (objective and elastic diagnosis), each concept module's ``add()``, in the
+order :func:`netopt.model.build_model` calls them, and the phasing that links the periods of a case
+with periods (``netopt.model.phasing.stack``).  In those docstrings a row family is an
 indented line ``name:`` (``name †:`` when it is never relaxed) and a cost component a line
 ``C[name] = ...``; symbol tables name variable blocks as ``variable block ``name````.
 
@@ -18,7 +19,7 @@ from pathlib import Path
 from types import ModuleType
 
 from netopt import model
-from netopt.model import COST_COMPONENTS, build_model
+from netopt.model import COST_COMPONENTS, build_model, phasing
 from netopt.model.core import Builder
 
 DOC_PATH = Path(__file__).resolve().parents[2] / "docs" / "formulation.md"
@@ -42,6 +43,7 @@ def _sections() -> list[tuple[str, str, str]]:
     out = [("Objective", "netopt.model.core.Builder.finish", inspect.getdoc(Builder.finish) or "")]
     for mod in build_order():
         out.append(("", f"{mod.__name__}.add", inspect.getdoc(mod.add) or ""))
+    out.append(("", "netopt.model.phasing.stack", inspect.getdoc(phasing.stack) or ""))
     return out
 
 

@@ -1,8 +1,9 @@
 """DC openings: keep/close existing DCs, open candidates, size options, open-count limits.
 
 Variables: ``open[o]`` binary per opening option (a DC without size options has one).
-Cost: ``dc_fixed`` (fixed cost of each chosen option, currency/yr) and ``dc_closing``
-(closing cost of each existing DC left closed).
+Cost: ``dc_fixed`` (fixed cost of each chosen option, currency/yr), ``dc_closing``
+(closing cost of each existing DC left closed) and ``dc_opening`` (opening cost of each candidate
+opened); in a case with periods the one-off costs are charged by ``netopt.model.phasing`` instead.
 """
 
 from __future__ import annotations
@@ -28,6 +29,7 @@ def add(b: Builder, fixed_open: np.ndarray | None = None) -> None:
 
         C[dc_fixed]   = Σ_{o ∈ O} F_o y_o
         C[dc_closing] = Σ_{d ∈ D_exist} K_d (1 − Σ_{o ∈ O(d)} y_o)
+        C[dc_opening] = Σ_{o ∈ O(d), d ∉ D_exist} A_d y_o
 
     | symbol | meaning | unit | name in code |
     |---|---|---|---|
@@ -36,7 +38,8 @@ def add(b: Builder, fixed_open: np.ndarray | None = None) -> None:
     | N_min, N_max | least and most options open (−1 = no limit) | DCs | settings ``policy.min_open_dcs``, ``policy.max_open_dcs`` |
     | F_o | fixed cost of option o | currency/yr | ``options.fixed_cost`` |
     | D_exist | DCs with status existing | | ``options.status`` |
-    | K_d | cost of closing existing DC d | currency/yr | ``options.closing_cost`` |
+    | K_d | cost of closing existing DC d (one-off, counted once) | currency | ``options.closing_cost`` |
+    | A_d | cost of opening candidate DC d (one-off, counted once) | currency | ``options.opening_cost`` |
     """
     o = b.net.options
     n = len(o)
@@ -90,6 +93,8 @@ def add(b: Builder, fixed_open: np.ndarray | None = None) -> None:
     # closing cost × (1 − Σ options open) for each existing DC.
     per_dc_close = pd.Series(close[existing], index=o.loc[existing, "dc"]).groupby(level=0).first()
     b.add_cost("dc_closing", Term("open", idx[existing], -close[existing]), constant=float(per_dc_close.sum()))
+    cand = ~existing
+    b.add_cost("dc_opening", Term("open", idx[cand], o["opening_cost"].to_numpy(float)[cand]))
 
 
 def option_terms(

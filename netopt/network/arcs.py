@@ -31,7 +31,7 @@ class Network:
             per-unit costs, currency/unit), within_window (bool, last legs only).
         make: one row per (plant, product): capacity, unit_cost.
         options: one row per DC opening option: dc, size, capacity, fixed_cost, status,
-            closing_cost, force.
+            closing_cost, opening_cost, force.
         demand: one row per (customer, product): quantity, penalty (currency/unit),
             demand_cv (ratio: the demand row's, else the product's, else 0; for safety stock).
         arcs_all: the arcs before dominated modes were pruned (same columns as ``arcs``),
@@ -260,7 +260,7 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
         ~dcs["dc"].isin(sizes["dc"]) if len(sizes) else slice(None), ["dc", "capacity", "fixed_cost"]
     ].assign(size="")
     options = pd.concat([base_opt, sizes[["dc", "size", "capacity", "fixed_cost"]]], ignore_index=True)
-    options = options.merge(dcs[["dc", "status", "closing_cost", "force"]], on="dc")
+    options = options.merge(dcs[["dc", "status", "closing_cost", "opening_cost", "force"]], on="dc")
     order = {d: i for i, d in enumerate(dcs["dc"])}
     options = options.sort_values(["dc", "size"], key=lambda c: c.map(order) if c.name == "dc" else c)
     options = options.reset_index(drop=True)
@@ -270,8 +270,7 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
     )
     product_cv = pd.to_numeric(dem["product"].map(pinfo["demand_cv"]), errors="coerce")
     dem["demand_cv"] = pd.to_numeric(dem["demand_cv"], errors="coerce").fillna(product_cv).fillna(0.0).astype(float)
-    penalty = float(s["policy"]["unmet_penalty_per_unit"])
-    dem["penalty"] = penalty if penalty > 0 else 2.0 * dem["product"].map(pinfo["unit_value"]).astype(float)
+    dem["penalty"] = lost_sale_cost(t["products"], float(s["policy"]["unmet_penalty_per_unit"]), dem["product"])
 
     return Network(
         arcs=arcs,
@@ -288,3 +287,15 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
         pruned=pruned,
         arcs_all=arcs_all,
     )
+
+
+def lost_sale_cost(products: pd.DataFrame, policy_penalty: float, product: pd.Series) -> np.ndarray:
+    """Cost of one unit of lost demand of each ``product`` (currency/unit): the product's ``lost_sale_cost``
+    where given, else the policy's ``unmet_penalty_per_unit`` when above 0, else 2 × the unit value."""
+    info = products.drop_duplicates("product").set_index("product")
+    own = pd.to_numeric(product.map(info["lost_sale_cost"]), errors="coerce") if "lost_sale_cost" in info else None
+    fallback = policy_penalty if policy_penalty > 0 else 2.0 * product.map(info["unit_value"]).astype(float)
+    out = pd.Series(fallback, index=product.index, dtype=float)
+    if own is not None:
+        out = own.fillna(out)
+    return out.to_numpy(float)

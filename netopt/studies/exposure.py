@@ -73,13 +73,14 @@ SAFETY_STOCK_UNITS = ("ss_units_exact", "safety_stock_units", "ss_units_model", 
 """Units column of a ``safety_stock`` result table, first found wins (the exact formula at the chosen flows first)."""
 
 
-def base_stock(base) -> tuple[pd.DataFrame, str]:
+def base_stock(base, case: Case | None = None) -> tuple[pd.DataFrame, str]:
     """Stock the base solution holds, by site and product (units), and a note on its sources.
 
     - pipeline: units in transit on each lane into a site = flow (units/yr) × transit days / 365
       (Little's law), counted at the destination it is travelling to;
     - safety stock: from a ``safety_stock`` result table when the base has one (a site or
-      dc column, a product column and a units column, see :data:`SAFETY_STOCK_UNITS`).
+      dc column, a product column and a units column, see :data:`SAFETY_STOCK_UNITS`);
+    - on hand: the ``opening_stock`` table of ``case`` (units per site and product), when given.
     """
     f = base.tables["flows"]
     pipe = f.assign(units=f["quantity"].to_numpy(float) * f["transit_days"].to_numpy(float) / DAYS_PER_YEAR)
@@ -101,6 +102,12 @@ def base_stock(base) -> tuple[pd.DataFrame, str]:
             note = f"pipeline stock plus safety stock ({unit_col} of the base's safety_stock table)"
         else:
             note = "pipeline stock only (the base's safety_stock table has no site, product and units columns)"
+    on_hand = case.tables.get("opening_stock") if case is not None else None
+    if on_hand is not None and len(on_hand):
+        parts.append(
+            on_hand[["site", "product", "quantity"]].rename(columns={"quantity": "units"}).assign(source="on_hand")
+        )
+        note += ", plus the stock on hand of the case's opening_stock table"
     stock = pd.concat(parts, ignore_index=True)
     return stock[stock["units"] > 0].reset_index(drop=True), note
 
@@ -128,7 +135,7 @@ class ExposureModel:
     def __init__(self, case: Case, base, stock: pd.DataFrame | None = None):
         self.case = case
         if stock is None:
-            stock, self.stock_note = base_stock(base)
+            stock, self.stock_note = base_stock(base, case)
         else:
             self.stock_note = "stock given by the caller"
         self.stock = stock
