@@ -126,4 +126,3 @@ PERIOD = ResultColumn(
     "whose values vary by period carries it",
 )
 """The one ``period`` column of every result table of a plan over periods."""
-

@@ -33,6 +33,7 @@ from netopt.present.report.charts import (
 )
 from netopt.present.report.map import difference_map_svg, land_layer_svg, network_map_svg, run_layout
 from netopt.present.report.style import mode_colours, short_number
+from netopt.present.report.phasing import period_view, phasing_sections
 from netopt.present.report.tables import (
     MAX_TABLE_ROWS,
     comparison_table,
@@ -338,6 +339,10 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
         planned = comp["total_cost"].notna() if "total_cost" in comp else pd.Series(False, index=comp.index)
         ctx["n_rows"] = int(planned.sum())  # solves with a plan to check
         ctx["n_infeasible"] = int((~planned).sum())
+    horizon_sections: list[dict] = []
+    if base.has_solution and getattr(base, "periods", None) is not None:
+        horizon_sections = phasing_sections(base, currency)
+        base = period_view(base)
     if base.has_solution:
         t = base.tables
         colours = mode_colours(t["mode_mix"]["mode"] if len(t["mode_mix"]) else [])
@@ -411,7 +416,7 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
             ctx["unmet_table"] = table(t["unmet"], "unmet", tid="unmet-table")
         optional = {k: v for k, v in t.items() if k not in STANDARD_TABLES}
         optional.update(extra or {})
-        ctx["extras"] = _extra_sections(optional, currency)
+        ctx["extras"] = horizon_sections + _extra_sections(optional, currency)
     elif base.diagnosis is not None:
         ctx["diagnosis"] = table(base.diagnosis, "diagnosis", tid="diagnosis")
     env = jinja2.Environment(
