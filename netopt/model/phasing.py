@@ -127,11 +127,11 @@ def _phase_dcs(
         labels = pd.concat([o[["dc", "size"]].assign(period=periods["period"].iloc[k]) for k in range(1, nk)])
         labels = labels.reset_index(drop=True)
         rows = np.arange(len(labels)).reshape(nk - 1, no)
-        sign = np.where(cand, 1.0, -1.0)  # candidate: y_k − y_{k−1} ≥ 0; existing: y_{k−1} − y_k ≥ 0
+        direction = np.where(cand, 1.0, -1.0)  # candidate: y_k − y_{k−1} ≥ 0; existing: y_{k−1} − y_k ≥ 0
         terms = []
         for k in range(1, nk):
-            terms.append(Term(block("open", k), np.arange(no), sign, rows[k - 1]))
-            terms.append(Term(block("open", k - 1), np.arange(no), -sign, rows[k - 1]))
+            terms.append(Term(block("open", k), np.arange(no), direction, rows[k - 1]))
+            terms.append(Term(block("open", k - 1), np.arange(no), -direction, rows[k - 1]))
         top.add_rows("dc_stays_decided", labels, terms, ">=", 0.0)
 
     labels = pd.concat([dcs.assign(period=periods["period"].iloc[k]) for k in range(nk)]).reset_index(drop=True)

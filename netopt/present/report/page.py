@@ -32,8 +32,8 @@ from netopt.present.report.charts import (
     waterfall_svg,
 )
 from netopt.present.report.map import difference_map_svg, land_layer_svg, network_map_svg, run_layout
-from netopt.present.report.style import mode_colours, short_number
 from netopt.present.report.phasing import period_view, phasing_sections
+from netopt.present.report.style import mode_colours, short_number
 from netopt.present.report.tables import (
     MAX_TABLE_ROWS,
     comparison_table,
