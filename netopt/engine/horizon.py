@@ -21,6 +21,7 @@ from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import cost_components, extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.highs_check import ModelRejected
+from netopt.engine.one_year import solve_year
 from netopt.engine.result import Result, fixed_options
 from netopt.engine.verify_horizon import verify_horizon
 from netopt.model import build_model
@@ -108,6 +109,14 @@ def solve_horizon(
             def cb(d):
                 say("progress", dict(d, method="MIP search", elapsed=time.perf_counter() - t_run))
 
+        if hold is None and bool(case.settings["solver"]["plan_search"]) and hm.integrality.any():
+            t0 = time.perf_counter()
+            budget = float(case.settings["solver"]["plan_search_share"]) * time_limit
+            start = start_phasing(case, cases, lanes, nets, top, budget, mip_gap, threads)
+            if start is not None:
+                hm.set_plan_start(start)
+            timings["plan_search"] = time.perf_counter() - t0
+            say("plan search", {"message": "each period planned on its own, made a phasing, starts the MIP search"})
         left = max(time_limit - (time.perf_counter() - t_run), 0.05 * time_limit)
         try:
             info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads, progress=cb)
@@ -133,6 +142,54 @@ def solve_horizon(
     if keep_model:
         res.highs_model = hm
     return res
+
+
+def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float, threads: int):
+    """A whole first plan of the stacked model (every block's values), or None.
+
+    Each period is planned as a case of its own (the one-year solve with its plan search); the plans are
+    made to keep the phasing rules (a candidate open from the first period a plan opened it, an existing DC
+    closed from the first period a plan closed it); a period whose openings that changed is re-routed with
+    them held.  Stock starts at zero (always feasible).  HiGHS takes the plan as its first incumbent when
+    it keeps every rule (the openings limits per period may refuse it)."""
+    nk = len(cases)
+    each = max(budget_s / max(2 * nk, 1), 1.0)
+    o = nets[0].options
+    existing = o["status"].eq("existing").to_numpy()
+    reopening = bool(case.settings["periods"]["dc_reopening"])
+    plans: list[dict[str, np.ndarray]] = []
+    opens: list[np.ndarray] = []
+    for k, ck in enumerate(cases):
+        r = solve_year(ck, time_limit=each, mip_gap=mip_gap, threads=threads, lanes=lanes, diagnose=False)
+        if not r.has_solution or r.plan_values is None:
+            return None
+        y = np.asarray(r.plan_values["open"], float).round()
+        if not reopening and k > 0:
+            y = np.where(existing, np.minimum(y, opens[-1]), np.maximum(y, opens[-1]))
+        if not np.array_equal(y, np.asarray(r.plan_values["open"], float).round()):
+            held = {dc: (size or True) for dc, size, v in zip(o["dc"], o["size"], y) if v > 0.5}
+            r = solve_year(
+                ck, time_limit=each, mip_gap=mip_gap, threads=threads, lanes=lanes, hold=held, diagnose=False
+            )
+            if not r.has_solution or r.plan_values is None:
+                return None
+        plans.append(dict(r.plan_values or {}))
+        opens.append(y)
+    values: dict[str, np.ndarray] = {}
+    for name, labels in top.var_labels.items():
+        values[name] = np.zeros(len(labels))
+    for k, plan in enumerate(plans):
+        for name, v in plan.items():
+            key = block(name, k)
+            if key in values and len(values[key]) == len(v):
+                values[key] = np.asarray(v, float)
+    dcs = top.var_labels["opened"]["dc"].to_numpy()[: len(set(o["dc"]))]
+    z = np.array([[y[(o["dc"] == d).to_numpy()].sum() for d in dcs] for y in opens])
+    first = pd.Series(existing, index=o["dc"]).groupby(level=0).first().reindex(dcs).to_numpy(float)
+    before = np.vstack([first, z[:-1]])
+    values["opened"] = np.maximum(z - before, 0.0).ravel()
+    values["closed"] = np.maximum(before - z, 0.0).ravel()
+    return values
 
 
 def stock_table(top, per: pd.DataFrame, values: dict, k: int, opening_stock: pd.DataFrame, repeat: bool):

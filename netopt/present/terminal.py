@@ -75,6 +75,10 @@ def print_result(result, console=None) -> None:
             con.print(escape(result.message))
         return
     currency = _currency(result)
+    if getattr(result, "periods", None) is not None:
+        _print_horizon(result, con, currency)
+        _print_check(result, con)
+        return
     t = Table(title=escape(f"Annual landed cost ({unit_text('currency/yr', currency)})"))
     t.add_column(label_of("cost", "component"))
     t.add_column(label_of("cost", "amount"), justify="right")
@@ -106,6 +110,12 @@ def print_result(result, console=None) -> None:
             escape(unit_text(_kpi_unit(row.kpi, row.unit), currency)),
         )
     con.print(t)
+    _print_check(result, con)
+
+
+def _print_check(result, con) -> None:
+    from rich.markup import escape
+
     v = result.verification
     if v is not None:
         con.print(
@@ -113,6 +123,58 @@ def print_result(result, console=None) -> None:
             f"{money_text(v.recomputed_objective)}, largest violation {v.largest_violation:.2e} "
             f"({escape(str(v.largest_violation_rule))})"
         )
+
+
+def _print_horizon(result, con, currency: str) -> None:
+    """A plan over periods: cost per period (spend and present value), the DC phasing, KPIs per period."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    names = [str(p) for p in result.periods["period"]]
+    pc = result.tables["period_cost"]
+    t = Table(
+        title=escape(f"Cost per period ({unit_text('currency', currency)}; the plan's cost is the present value)")
+    )
+    t.add_column(label_of("period_cost", "component"))
+    for p in names:
+        t.add_column(escape(p), justify="right")
+    t.add_column("present value", justify="right")
+    spend = pc.pivot_table(index="component", columns="period", values="undiscounted", aggfunc="sum", sort=False)
+    pv = pc.groupby("component", sort=False)["present_value"].sum()
+    for comp in pv.index:
+        if spend.loc[comp].abs().max() > 0.5:
+            row = [money_text(spend.loc[comp].get(p, 0.0)) for p in names]
+            t.add_row(escape(comp.replace("_", " ")), *row, money_text(pv[comp]))
+    totals = spend.sum()
+    t.add_row(
+        "[bold]total[/bold]", *[money_text(totals.get(p, 0.0)) for p in names], f"[bold]{money_text(pv.sum())}[/bold]"
+    )
+    con.print(t)
+    ph = result.tables["phasing"]
+    t = Table(title="DC phasing (state in each period)")
+    t.add_column(label_of("phasing", "dc"))
+    t.add_column(label_of("phasing", "status"))
+    for p in names:
+        t.add_column(escape(p))
+    for dc, g in ph.groupby("dc", sort=False):
+        states = dict(zip(g["period"].astype(str), g["state"]))
+        t.add_row(escape(str(dc)), escape(str(g["status"].iloc[0])), *[escape(states.get(p, "")) for p in names])
+    con.print(t)
+    k = result.tables["kpis"]
+    t = Table(title="Key indicators per period")
+    t.add_column("indicator")
+    for p in names:
+        t.add_column(escape(p), justify="right")
+    t.add_column("unit")
+    for kpi, g in k.groupby("kpi", sort=False):
+        vals = dict(zip(g["period"].astype(str), g["value"]))
+        kind = kpi_kind(kpi)
+        t.add_row(
+            escape(kpi_label(kpi)),
+            *[escape(cell_text(vals.get(p, float("nan")), kind)) for p in names],
+            escape(unit_text(_kpi_unit(kpi, g["unit"].iloc[0]), currency)),
+        )
+    con.print(t)
 
 
 def _kpi_unit(kpi: str, written: str) -> str:
