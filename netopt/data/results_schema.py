@@ -315,7 +315,8 @@ _table(
         "text",
         "decision",
         "kept, closed, opened, not opened, out (taken out by the scenario: still paid for, nothing through "
-        "it), out, closed (taken out, and closed for good by a redesign), or no plan (the solve is infeasible)",
+        "it), out, closed (taken out, and closed for good by a redesign), or no plan (the solve is infeasible); "
+        "a plan over periods has a row per period: opens, open, closes or closed",
     ),
     _c("throughput", "float", "units/yr", "throughput units/yr", "Units into the DC (blank without a plan)"),
 )
@@ -386,6 +387,15 @@ _table(
     _c("within_gap", "bool", "flag", "within gap", "Δ vs base is within the optimality gaps: not a finding"),
     _c("cost_<component>", "float", "currency/yr", "<component> cost", "One cost component"),
     _c("delta_<component>", "float", "currency/yr", "Δ <component>", "One cost component − the base's", signed=True),
+    _c(
+        "period_<period>",
+        "float",
+        "currency",
+        "<period> PV",
+        "A plan over periods: present value of that period's cost (the money columns are then present values "
+        "over every period, currency; dcs, shares, service, mode mix and CO2e are the last period's)",
+    ),
+    _c("phasing", "str", "text", "phasing", "A plan over periods: the DCs it opens and closes, and when"),
     DCS_OPEN,
     DCS_OPEN_NAMES,
     _c("share_within_window", "float", "share", "in window", "On-time units ÷ demand", sense=-1),

@@ -27,6 +27,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.data.periods import has_periods, period_case
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.highs_check import ModelRejected, require_ok
@@ -89,7 +90,17 @@ def safety_stock_lines_of(
     return held_lines(net, base.tables["flows"])
 
 
-def held_decisions(held: dict[str, str | bool], sc_case: Case) -> dict[str, str | bool]:
+def held_decisions(held: dict, sc_case: Case) -> dict:
+    """Held DC decisions as a hold of scenario case ``sc_case`` (:func:`held_decisions_of_year`); in a case
+    with periods ``held`` is period → decisions (the phasing), each period's read against that period's case
+    (a DC forced closed before its earliest period stays closed there)."""
+    if not has_periods(sc_case):
+        return held_decisions_of_year(held, sc_case)
+    names = [str(p) for p in sc_case.tables["periods"]["period"]]
+    return {p: held_decisions_of_year(held.get(p, {}), period_case(sc_case, p, k)) for k, p in enumerate(names)}
+
+
+def held_decisions_of_year(held: dict[str, str | bool], sc_case: Case) -> dict[str, str | bool]:
     """Held DC decisions (dc → size/True/False) as a hold of scenario case ``sc_case``: DCs the scenario
     forces closed are closed, DCs it forces open are opened (True: at their first listed size when they
     have sizes, as :func:`~netopt.engine.result.fixed_options` reads it; a DC already open keeps its size),

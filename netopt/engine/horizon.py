@@ -45,6 +45,7 @@ def solve_horizon(
     lanes: pd.DataFrame | None = None,
     keep_model: bool = False,
     diagnose: bool = True,
+    start_plan: dict[str, np.ndarray] | None = None,
 ) -> Result:
     """Plan every period of ``case`` at once (see the module docstring).
 
@@ -109,10 +110,12 @@ def solve_horizon(
             def cb(d):
                 say("progress", dict(d, method="MIP search", elapsed=time.perf_counter() - t_run))
 
-        if hold is None and bool(case.settings["solver"]["plan_search"]) and hm.integrality.any():
+        if start_plan is not None:
+            hm.set_plan_start(start_plan)
+        elif (hold is not None or bool(case.settings["solver"]["plan_search"])) and hm.integrality.any():
             t0 = time.perf_counter()
             budget = float(case.settings["solver"]["plan_search_share"]) * time_limit
-            start = start_phasing(case, cases, lanes, nets, top, budget, mip_gap, threads)
+            start = start_phasing(case, cases, lanes, nets, top, budget, mip_gap, threads, hold=hold)
             if start is not None:
                 hm.set_plan_start(start)
             timings["plan_search"] = time.perf_counter() - t0
@@ -144,14 +147,15 @@ def solve_horizon(
     return res
 
 
-def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float, threads: int):
+def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float, threads: int, hold=None):
     """A whole first plan of the stacked model (every block's values), or None.
 
     Each period is planned as a case of its own (the one-year solve with its plan search); the plans are
     made to keep the phasing rules (a candidate open from the first period a plan opened it, an existing DC
     closed from the first period a plan closed it); a period whose openings that changed is re-routed with
     them held.  Stock starts at zero (always feasible).  HiGHS takes the plan as its first incumbent when
-    it keeps every rule (the openings limits per period may refuse it)."""
+    it keeps every rule (the openings limits per period may refuse it).  With ``hold`` (period → DC
+    decisions) each period is re-routed with its decisions held."""
     nk = len(cases)
     each = max(budget_s / max(2 * nk, 1), 1.0)
     o = nets[0].options
@@ -159,12 +163,14 @@ def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float
     reopening = bool(case.settings["periods"]["dc_reopening"])
     plans: list[dict[str, np.ndarray]] = []
     opens: list[np.ndarray] = []
+    names = [str(p) for p in case.tables["periods"]["period"]]
     for k, ck in enumerate(cases):
-        r = solve_year(ck, time_limit=each, mip_gap=mip_gap, threads=threads, lanes=lanes, diagnose=False)
+        held_k = None if hold is None else hold.get(names[k], {})
+        r = solve_year(ck, time_limit=each, mip_gap=mip_gap, threads=threads, lanes=lanes, hold=held_k, diagnose=False)
         if not r.has_solution or r.plan_values is None:
             return None
         y = np.asarray(r.plan_values["open"], float).round()
-        if not reopening and k > 0:
+        if not reopening and k > 0 and hold is None:
             y = np.where(existing, np.minimum(y, opens[-1]), np.maximum(y, opens[-1]))
         if not np.array_equal(y, np.asarray(r.plan_values["open"], float).round()):
             held = {dc: (size or True) for dc, size, v in zip(o["dc"], o["size"], y) if v > 0.5}

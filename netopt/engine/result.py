@@ -5,7 +5,7 @@ Money in the case currency per year; times in seconds.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 import pandas as pd
@@ -13,6 +13,9 @@ import pandas as pd
 from netopt.engine.highs import HighsModel, SolveInfo
 from netopt.engine.verify import Verification
 from netopt.network.arcs import Network
+
+HORIZON_TABLES = ("periods", "phasing", "period_cost", "stock")
+"""Tables of a plan over periods that are the horizon's own (not one period's)."""
 
 
 @dataclass
@@ -67,6 +70,36 @@ class Result:
         if "period" in d.columns:
             return {str(p): _decisions(g) for p, g in d.groupby("period", sort=False)}
         return _decisions(d)
+
+    def period_view(self, period: str | None = None) -> Result:
+        """This plan over periods seen in one ``period`` (default: the last, the network the phasing
+        leads to): a copy holding that period's tables without their ``period`` column, its ``cost``
+        table the period's annual cost (currency/yr).  A one-year plan is returned as it is."""
+        if self.periods is None:
+            return self
+        names = [str(p) for p in self.periods["period"]]
+        period = names[-1] if period is None else period
+        tables = {}
+        for name, df in self.tables.items():
+            if name in HORIZON_TABLES:
+                continue
+            if "period" in df.columns:
+                df = df[df["period"].astype(str) == period].drop(columns="period").reset_index(drop=True)
+            tables[name] = df
+        pc = self.tables["period_cost"]
+        own = pc[(pc["period"].astype(str) == period) & pc["annual"].notna()]
+        tables["cost"] = pd.DataFrame(
+            {"component": own["component"].to_numpy(), "amount": own["annual"].to_numpy(float)}
+        )
+        return replace(self, tables=tables, periods=None, case_name=f"{self.case_name} · {period}", highs_model=None)
+
+    def phasing_text(self) -> str:
+        """The DC openings and closings of a plan over periods in words ("DC_A opens 2028; DC_B closes 2027")."""
+        if self.periods is None or "phasing" not in self.tables:
+            return ""
+        ph = self.tables["phasing"]
+        moves = ph[ph["state"].isin(["opens", "closes"])]
+        return "; ".join(f"{d} {s} {p}" for d, s, p in zip(moves["dc"], moves["state"], moves["period"]))
 
     @property
     def is_multi_period(self) -> bool:

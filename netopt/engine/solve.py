@@ -41,7 +41,9 @@ def solve(
     """Solve the network design for ``case`` (see :func:`netopt.engine.one_year.solve_year` for the arguments).
 
     In a case with periods ``hold`` is period → DC decisions (``Result.held_openings()`` of a plan over
-    periods: the phasing kept) and ``start`` / ``start_plan`` are not used (refused when given).
+    periods: the phasing kept) and ``start_plan`` a whole plan of the same case over periods (e.g. its hold);
+    ``start`` (openings alone) is not needed there: without a ``start_plan`` the first plan is built from
+    each period's own solve (``netopt.engine.horizon.start_phasing``).
     """
     if not has_periods(case):
         return solve_year(
@@ -58,8 +60,6 @@ def solve(
             start=start,
             start_plan=start_plan,
         )
-    if start is not None or start_plan is not None:
-        raise ValueError("a start plan is for a one-year case; a case with periods builds its own first phasing")
     sset = case.settings["solver"]
     return solve_horizon(
         case,
@@ -72,4 +72,5 @@ def solve(
         lanes=lanes,
         keep_model=keep_model,
         diagnose=diagnose,
+        start_plan=start_plan,
     )

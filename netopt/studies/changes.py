@@ -24,6 +24,7 @@ import pandas as pd
 
 from netopt.data.case import Case
 from netopt.data.names import shown
+from netopt.data.periods import horizon
 from netopt.data.schema import TABLES
 from netopt.engine.held import BoundPlan, HeldNetwork
 from netopt.engine.result import Result
@@ -277,8 +278,41 @@ def _edit_setting(ed: CaseEdit, ch: Change) -> None:
 
 def _edit_scale_demand(ed: CaseEdit, ch: Change) -> None:
     f = ed.number(ch, "factor")
+    dem = ed.tables["demand"]
+    mask = _demand_rows(ed, ch, dem)
+    if not ed.errors and f is not None:
+        dem.loc[mask, "quantity"] = dem.loc[mask, "quantity"] * f
+
+
+def _edit_grow_demand(ed: CaseEdit, ch: Change) -> None:
+    """Demand of period k × (1 + rate)^t_k, t_k the years before the period starts (the first period
+    unchanged); a row for every period replaces a chosen blank-period row, so each period grows its own."""
+    rate = ed.number(ch, "rate")
     t = ed.tables
+    if t["periods"].empty:
+        ed.errors.append("grow_demand needs a periods table (use scale_demand for a one-year case)")
+        return
     dem = t["demand"]
+    mask = _demand_rows(ed, ch, dem)
+    if ed.errors or rate is None:
+        return
+    per = horizon(ed.case)
+    start = dict(zip(per["period"].astype(str), per["start_year"].astype(float)))
+    blank = mask & dem["period"].astype(str).eq("")
+    own = set(zip(dem["customer"], dem["product"], dem["period"].astype(str)))
+    spread = pd.concat([dem.loc[blank].assign(period=p) for p in start])
+    keys = zip(spread["customer"], spread["product"], spread["period"])
+    spread = spread[[k not in own for k in keys]]
+    grown = pd.concat([dem[mask & ~blank], spread])
+    grown["quantity"] = grown["quantity"].to_numpy(float) * (1.0 + rate) ** grown["period"].map(start).to_numpy(float)
+    rest = dem[~mask]
+    t["demand"] = pd.concat([rest, grown])
+    t["demand"].index = range(2, 2 + len(t["demand"]))
+
+
+def _demand_rows(ed: CaseEdit, ch: Change, dem: pd.DataFrame) -> pd.Series:
+    """Demand rows a change's optional region, customer and product filters choose (problems to ``ed.errors``)."""
+    t = ed.tables
     mask = pd.Series(True, index=dem.index)
     if ed.text(ch, "region"):
         if ed.text(ch, "region") not in set(t["customers"]["region"].astype(str)):
@@ -293,8 +327,7 @@ def _edit_scale_demand(ed: CaseEdit, ch: Change) -> None:
         if ed.text(ch, "product") not in set(t["products"]["product"]):
             ed.errors.append(f"unknown product '{ed.text(ch, 'product')}'")
         mask &= dem["product"] == ed.text(ch, "product")
-    if not ed.errors and f is not None:
-        dem.loc[mask, "quantity"] = dem.loc[mask, "quantity"] * f
+    return mask
 
 
 def _held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
@@ -407,6 +440,14 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             fields=Fields(
                 required=("factor",), codes=("region", "customer", "product"), numbers={"factor": AT_LEAST_0}
             ),
+        ),
+        ChangeKind(
+            "grow_demand",
+            "Grow demand over the periods of a case with periods: rate per year (demand of a period × (1 + rate) "
+            "to the power of the years before it starts); optional region, customer, product filters",
+            _edit_grow_demand,
+            None,
+            fields=Fields(codes=("region", "customer", "product"), numbers={"rate": AT_LEAST_0}, required=("rate",)),
         ),
         ChangeKind(
             "scale_cost",

@@ -91,6 +91,12 @@ def comparison_row(
         row[f"cost_{k}"] = v
     for k, v in delta.items():
         row[f"delta_{k}"] = v
+    if r.periods is not None:  # a plan over periods: money is a present value; the rest is its last period
+        pc = r.tables["period_cost"]
+        for p, v in pc.groupby("period", sort=False)["present_value"].sum().items():
+            row[f"period_{p}"] = float(v)
+        row["phasing"] = r.phasing_text()
+        r, base = r.period_view(), base.period_view()
     d = r.tables["dcs"]
     row["dcs_open"] = int(in_service(d).sum())
     row["dcs_open_names"] = " ".join(d.loc[in_service(d), "dc"])
@@ -126,11 +132,25 @@ NO_PLAN = "no plan"
 
 
 def dc_decisions(label: str, how: str, r, sc_case, base_case) -> pd.DataFrame:
-    """One row per DC of one solve: scenario, resolve, dc, decision, throughput (units/yr)."""
+    """One row per DC of one solve: scenario, resolve, dc, decision, throughput (units/yr); a plan over
+    periods has a row per DC and period (decision: its state in the phasing)."""
     cols = ["scenario", "resolve", "dc", "decision", "throughput"]
     if not r.has_solution:
         dcs = sc_case.tables["dcs"]["dc"].to_numpy()
         return pd.DataFrame({"scenario": label, "resolve": how, "dc": dcs, "decision": NO_PLAN, "throughput": np.nan})
+    if r.periods is not None:  # a plan over periods: one row per DC and period, its state in the phasing
+        ph = r.tables["phasing"]
+        thr = r.tables["dcs"].set_index(["dc", "period"])["throughput"]
+        return pd.DataFrame(
+            {
+                "scenario": label,
+                "resolve": how,
+                "dc": ph["dc"].to_numpy(),
+                "period": ph["period"].to_numpy(),
+                "decision": ph["state"].to_numpy(),
+                "throughput": thr.reindex(pd.MultiIndex.from_frame(ph[["dc", "period"]])).to_numpy(float),
+            }
+        )
     d = r.tables["dcs"]
     forced_now = sc_case.tables["dcs"].set_index("dc")["force"].astype(str)
     forced_base = base_case.tables["dcs"].set_index("dc")["force"].astype(str)
@@ -161,7 +181,10 @@ def dc_decision_matrix(decisions: pd.DataFrame) -> pd.DataFrame:
     cell = decisions["decision"] + " · " + decisions["throughput"].map(lambda v: f"{v:,.0f}")
     d = decisions.assign(cell=cell.where(decisions["decision"] != NO_PLAN, NO_PLAN))
     order = list(dict.fromkeys(d["scenario"]))
-    m = d.pivot(index="dc", columns="scenario", values="cell").reindex(columns=order).fillna("–")
+    index = ["dc", "period"] if "period" in d.columns else ["dc"]
+    rows = d[index].drop_duplicates()
+    m = d.pivot(index=index, columns="scenario", values="cell").reindex(columns=order).fillna("–")
+    m = m.reindex(pd.MultiIndex.from_frame(rows) if len(index) > 1 else rows["dc"])
     return m.reset_index().rename_axis(columns=None)
 
 
@@ -177,6 +200,7 @@ def share_changes(label: str, how: str, r, base) -> tuple[pd.DataFrame, pd.DataF
     mode_cols = ["scenario", "resolve", "mode", "base_share", "share", "change"]
     if not (r.has_solution and base.has_solution):
         return pd.DataFrame(columns=sup_cols), pd.DataFrame(columns=mode_cols)
+    r, base = r.period_view(), base.period_view()  # a plan over periods: its last period
 
     def side_by_side(now: pd.DataFrame, was: pd.DataFrame, on: list[str], col: str) -> pd.DataFrame:
         m = was[[*on, col]].rename(columns={col: "base_share"}).merge(now[[*on, col]], on=on, how="outer")

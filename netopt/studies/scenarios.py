@@ -41,6 +41,7 @@ from dataclasses import dataclass, field
 import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
+from netopt.data.periods import has_periods
 from netopt.data.validate import validate_and_coerce
 from netopt.engine.held import HeldNetwork, held_decisions, settings_with_lost_demand
 from netopt.engine.result import Result
@@ -257,6 +258,7 @@ def run_scenarios(
         warm: hold-the-network re-solves warm in a kept HiGHS model where possible.
     """
     say = progress or (lambda e, i=None: None)
+    warm = warm and not has_periods(case)  # a plan over periods holds its phasing in a rebuilt model
     scenarios = scenarios if scenarios is not None else parse_scenarios(case.scenarios, scenario_source(case))
     if names:
         known = {s.name for s in scenarios}

@@ -9,6 +9,7 @@ year, volumes in units/yr or tonnes/yr, times in days.
 
 from __future__ import annotations
 
+import copy
 import os
 import re
 from datetime import datetime
@@ -32,7 +33,7 @@ from netopt.present.report.charts import (
     waterfall_svg,
 )
 from netopt.present.report.map import difference_map_svg, land_layer_svg, network_map_svg, run_layout
-from netopt.present.report.phasing import period_view, phasing_sections
+from netopt.present.report.phasing import phasing_sections
 from netopt.present.report.style import mode_colours, short_number
 from netopt.present.report.tables import (
     MAX_TABLE_ROWS,
@@ -341,8 +342,13 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
         ctx["n_infeasible"] = int((~planned).sum())
     horizon_sections: list[dict] = []
     if base.has_solution and getattr(base, "periods", None) is not None:
+        # A plan over periods: the phasing section shows every period; the rest its last period's network.
         horizon_sections = phasing_sections(base, currency)
-        base = period_view(base)
+        base = base.period_view()
+        if run is not None:
+            run = copy.copy(run)
+            run.results = {k: r.period_view() if r.has_solution else r for k, r in run.results.items()}
+            run.base = base
     if base.has_solution:
         t = base.tables
         colours = mode_colours(t["mode_mix"]["mode"] if len(t["mode_mix"]) else [])

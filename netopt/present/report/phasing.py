@@ -1,42 +1,13 @@
 """The report of a plan over periods: the phasing of the DCs and the cost of each period.
 
-The rest of the report shows one period's network (:func:`period_view`, the last period by default:
-the network the phasing leads to); the phasing section shows every period.
+The rest of the report shows one period's network (``Result.period_view``, the last period: the
+network the phasing leads to); the phasing section shows every period.
 """
 
 from __future__ import annotations
 
-import copy
-
-import pandas as pd
-
 from netopt.present.report.charts import cost_bars_svg
 from netopt.present.report.tables import table
-
-HORIZON_TABLES = ("periods", "phasing", "period_cost", "stock")
-"""Tables of a plan over periods that are the horizon's own (not one period's)."""
-
-
-def period_view(result, period: str | None = None):
-    """A copy of ``result`` holding only ``period``'s tables (default: the last period), its ``cost`` table
-    the period's annual cost: what the one-period sections of the report show."""
-    names = [str(p) for p in result.periods["period"]]
-    period = names[-1] if period is None else period
-    view = copy.copy(result)
-    tables = {}
-    for name, df in result.tables.items():
-        if name in HORIZON_TABLES:
-            continue
-        if "period" in df.columns:
-            df = df[df["period"].astype(str) == period].drop(columns="period").reset_index(drop=True)
-        tables[name] = df
-    pc = result.tables["period_cost"]
-    own = pc[(pc["period"].astype(str) == period) & pc["annual"].notna()]
-    tables["cost"] = pd.DataFrame({"component": own["component"].to_numpy(), "amount": own["annual"].to_numpy(float)})
-    view.tables = tables
-    view.periods = None
-    view.case_name = f"{result.case_name} · {period}"
-    return view
 
 
 def phasing_sections(result, currency: str) -> list[dict]:
