@@ -19,8 +19,9 @@ then leave ``p_j`` out and the step follows Vardi & Zhang (2000), "The multivari
 associated data depth", *PNAS* 97(4):1423–1426: with ``η = w_j``, ``R̃ = Σ_{i≠j} w_i (p_i − x)/d_i``,
 ``r = ‖R̃‖`` and ``T̃`` the step over ``i ≠ j``, ``x' = (1 − η/r)⁺ T̃ + min(1, η/r) x``.  When ``r ≤ η``
 the demand point is the optimum (Kuhn's vertex condition) and the iteration stops there; the condition
-is tested at the heaviest point before the first step and at any demand point the iteration comes
-within the tolerance of (the plain iteration only creeps towards such an optimum).  It stops
+is tested at the heaviest point before the first step, at any demand point the iteration comes
+within the tolerance of, and at the nearest demand point once it has converged (the plain iteration
+only creeps towards such an optimum; a point meeting the condition is the exact optimum, F being convex).  It stops
 when a step moves less than the tolerance (plane units, or km on the sphere).
 
 **p-median clusters** (weighted): choose ``k`` of the candidate columns of a distance matrix ``D`` so that
@@ -112,6 +113,11 @@ def weiszfeld_plane(xy, weights, tol: float = 1e-9, max_iter: int = MAX_ITERATIO
         x = x + step
         if np.linalg.norm(step) < tol:
             d = np.linalg.norm(p - x, axis=1)
+            j = int(np.argmin(d))  # converged next to a demand point: the exact optimum if Kuhn's condition holds
+            vj = p - p[j]
+            dj = np.linalg.norm(vj, axis=1)
+            if _modified_step(vj, dj, w, tiny)[2]:
+                return Centre((float(p[j, 0]), float(p[j, 1])), float((w * dj).sum()), it, True, j)
             return Centre((float(x[0]), float(x[1])), float((w * d).sum()), it, True)
     d = np.linalg.norm(p - x, axis=1)
     return Centre((float(x[0]), float(x[1])), float((w * d).sum()), max_iter, False)
@@ -180,6 +186,11 @@ def weiszfeld_sphere(
             return Centre(lat_lon(x), float((w * theta).sum() * radius_km), it, True, j)
         x = _exp_map(x, step)
         if float(np.linalg.norm(step)) * radius_km < tol_km:
+            vec, theta = _log_map(x, p)
+            j = int(np.argmin(theta))  # converged next to a demand point: the exact optimum if Kuhn's condition holds
+            vj, tj = _log_map(p[j], p)
+            if _modified_step(vj, tj, w, tiny)[2]:
+                return Centre(lat_lon(p[j]), float((w * tj).sum() * radius_km), it, True, j)
             d = pairwise_km(lat, lon, *lat_lon(x), radius_km=radius_km)[:, 0]
             return Centre(lat_lon(x), float((w * d).sum()), it, True)
     d = pairwise_km(lat, lon, *lat_lon(x), radius_km=radius_km)[:, 0]
