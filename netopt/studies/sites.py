@@ -9,7 +9,8 @@ is the default); ``d`` great-circle km.  The maths of the centres and clusters i
 A proposed site needs a fixed cost, a capacity and a handling cost before a solve can weigh it.
 They are the user's (``fixed_cost``, ``capacity``, ``handling_cost``) or, for each one not given, the
 median of the case's candidate DCs (of all its DCs when it has no candidate); ``site_proposals``
-names the basis of every figure, and the command line prints it.
+names the basis of every figure, and the command line prints it.  A region's centre keeps the
+region's name; a cluster's site takes the region of the customer nearest to it.
 """
 
 from __future__ import annotations
@@ -104,7 +105,7 @@ def cost_figures(case: Case, given: dict[str, float | None]) -> tuple[dict[str, 
             raise CaseError(
                 [Problem("dcs", None, f, f"no DC of the case gives a {f} to copy: give the proposed sites' {f}")]
             )
-        out[f] = float(col.median())
+        out[f] = float(f"{float(col.median()):.12g}")  # the median, without float noise (0.6, not 0.6000000000000001)
         said.append(f"{f} {label} ({out[f]:g})")
     return out, "; ".join(said)
 
@@ -153,10 +154,10 @@ def propose_sites(
         w = float(members["weight"].sum())
         s_lat, s_lon = float(snap.loc[i, "city_lat"]), float(snap.loc[i, "city_lon"])
         km = pairwise_km(members["lat"], members["lon"], [s_lat], [s_lon])[:, 0] if len(members) else np.zeros(0)
-        region = (
+        region = (  # a cluster's site takes the region of its nearest customer
             str(centres["region"].iloc[i])
             if from_regions
-            else (str(members.groupby("region")["weight"].sum().idxmax()) if len(members) else "")
+            else (str(members["region"].iloc[int(np.argmin(km))]) if len(members) else "")
         )
         code = _code(str(snap.loc[i, "city"]), taken)
         rows.append([code, round(s_lat, 4), round(s_lon, 4), "candidate", *figures.values(), 0.0, region])
