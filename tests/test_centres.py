@@ -110,8 +110,8 @@ def test_optimum_at_a_demand_point_plane():
 
 
 def test_optimum_at_a_demand_point_sphere_reached_while_iterating():
-    # The heaviest point is not the optimum here (w = 3 < 5 of the rest on one side), but the iteration
-    # closes in on a lighter demand point whose Kuhn condition holds; checked against minimize.
+    # The heaviest point (index 4, w = 3, far to the west) is not the optimum; the iteration closes in on
+    # a lighter demand point (index 0) whose Kuhn condition holds.  Checked against minimize.
     lat = [50.0, 50.0, 50.3, 49.7, 48.0]
     lon = [10.0, 10.5, 10.5, 10.5, 2.0]
     w = [2.0, 1.8, 1.0, 1.0, 3.0]

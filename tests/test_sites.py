@@ -18,6 +18,7 @@ import pytest
 from geographiclib.geodesic import Geodesic
 
 import netopt
+import netopt.studies.dc_count as dc_count_module
 from netopt.cli import main
 from netopt.data.case import CaseError
 from netopt.data.schema import TABLES
@@ -144,3 +145,9 @@ def test_sites_cli_refuses_bad_options(tmp_path):
     assert run(["sites", str(DEMO), "--out", str(tmp_path / "a"), "--k", "0", "-q"]) == 2
     assert run(["sites", str(DEMO), "--out", str(tmp_path / "b"), "--k", "500", "-q"]) == 2
     assert not (tmp_path / "a").exists() and not (tmp_path / "b").exists()
+
+
+def test_curve_asking_more_dcs_than_may_open_is_refused_before_any_solve(demo, monkeypatch):
+    monkeypatch.setattr(dc_count_module, "solve", lambda *a, **k: pytest.fail("solved before the curve was checked"))
+    with pytest.raises(CaseError, match="more than the 8 DC"):
+        dc_count_curve(demo, 9, add_dc_changes(propose_sites(demo, k=1).candidates), workers=0)

@@ -59,6 +59,7 @@ def dc_count_curve(
         workers: local pool processes (None: one per point up to the cores; 0: in this process).
     """
     check_workers(workers)
+    count_case(case, int(max_dcs), added)  # every problem (e.g. more DCs asked than may open) before any solve
     todo = [{"id": n, "n": n} for n in range(int(min_dcs), int(max_dcs) + 1)]
     rows: dict[int, dict] = {}
     spec = (case, list(added or []))
