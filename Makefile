@@ -25,7 +25,7 @@ demo: $(STAMP)
 	$(VENV)/bin/netopt classify cases/brackenholt --out out/brackenholt-classes --xyz \
 		--service-by-class A=express,B=standard,C=standard --csl-by-class A=0.98,B=0.95,C=0.90
 	$(VENV)/bin/netopt solve out/brackenholt-classes/case --out out/brackenholt-classes-solved -q
-	$(VENV)/bin/netopt sites cases/brackenholt --out out/brackenholt-sites --k 4 --max-dcs 6
+	$(VENV)/bin/netopt sites cases/brackenholt --out out/brackenholt-sites --k 4 --k-sweep 8 --max-dcs 6
 
 lint: $(STAMP)
 	$(PY) -m ruff check netopt tests benchmarks

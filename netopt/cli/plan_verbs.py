@@ -139,6 +139,14 @@ def add_sites(sub) -> None:
             help=f"{f.replace('-', ' ')} of each proposed site, {unit} (default: median of the case's candidate DCs)",
         )
     p.add_argument(
+        "--k-sweep",
+        type=number_option("k-sweep", "int", "", 0, None, "one clustering per k"),
+        default=0,
+        metavar="K",
+        help="also cluster for k = 1 … K and tabulate the demand-weighted km to the nearest centre "
+        "(cluster_sweep.csv), to choose --k (default 0: no sweep)",
+    )
+    p.add_argument(
         "--max-dcs",
         type=number_option("max-dcs", "int", "", 0, None, "each point is one full solve"),
         default=0,
@@ -169,6 +177,7 @@ def cmd_sites(args: argparse.Namespace) -> int:
         min_city_population=args.min_population,
         costs=costs,
         max_dcs=args.max_dcs,
+        k_sweep=args.k_sweep,
         workers=args.workers,
         report=not args.no_report,
         quiet=args.quiet,

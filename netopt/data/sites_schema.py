@@ -62,6 +62,16 @@ _table(
     _c("cost_basis", "str", "text", "cost basis", "Where fixed cost, capacity and handling cost came from"),
 )
 _table(
+    "cluster_sweep",
+    "k weighted clusters of the customers for k = 1 … K: how far demand is from its nearest cluster centre",
+    "netopt sites",
+    _c("k", "int", "count", "k", "Clusters (sites)"),
+    _c("mean_km", "float", "km", "mean km", "Demand-weighted mean great-circle km to the nearest centre"),
+    _c("max_km", "float", "km", "max km", "Farthest customer from its centre"),
+    _c("gain_km", "float", "km", "gain km", "Drop of mean km against k − 1 clusters (blank for k = 1)"),
+    _c("converged", "bool", "flag", "converged", "Cooper's alternation ended with no customer changing cluster"),
+)
+_table(
     "dc_count_curve",
     "The network solved with exactly N open DCs, for each N: total cost and its components",
     "netopt sites",

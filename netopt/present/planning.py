@@ -24,7 +24,7 @@ from netopt.present.report.study_page import classify_sections, sites_sections, 
 from netopt.present.terminal import new_console
 from netopt.studies.classify import Rule, class_summary, classes_into_case, classify_items
 from netopt.studies.dc_count import dc_count_curve
-from netopt.studies.sites import add_dc_changes, demand_points, propose_sites
+from netopt.studies.sites import add_dc_changes, cluster_sweep, demand_points, propose_sites
 
 ABC_SHOWN = ["rank", "item", "units", "usage_value", "revenue", "margin", "share", "cumulative_share", "class", "xyz"]
 
@@ -117,17 +117,21 @@ def run_sites(
     min_city_population: int = 0,
     costs: dict | None = None,
     max_dcs: int = 0,
+    k_sweep: int = 0,
     workers: int | None = None,
     report: bool = True,
     quiet: bool = False,
     say: Callable[[str], None] | None = None,
 ) -> dict[str, pd.DataFrame]:
-    """Propose candidate sites and (``max_dcs`` ≥ 1) solve the DC-count curve with them added; write ``out``
-    (candidate_sites.csv, site_proposals.csv, gravity_centres.csv, dc_count_curve.csv, sites.xlsx,
+    """Propose candidate sites, (``k_sweep`` ≥ 1) sweep k = 1 … k_sweep clusters and (``max_dcs`` ≥ 1) solve
+    the DC-count curve with the proposed sites added; write ``out`` (candidate_sites.csv,
+    site_proposals.csv, gravity_centres.csv, cluster_sweep.csv, dc_count_curve.csv, sites.xlsx,
     summary.json, report.html)."""
     tell = say or (lambda s: None)
     prop = propose_sites(case, k, from_regions, weight_basis, tol_km, min_city_population, costs)
     tables = {"candidate_sites": prop.candidates, "site_proposals": prop.proposals, "gravity_centres": prop.centres}
+    if k_sweep >= 1:
+        tables["cluster_sweep"] = cluster_sweep(case, k_sweep, weight_basis, tol_km)
     if max_dcs >= 1:
         tell(f"solving the network with exactly 1 … {max_dcs} open DCs (proposed sites added) …")
         tables["dc_count_curve"] = dc_count_curve(case, max_dcs, add_dc_changes(prop.candidates), workers=workers)
@@ -164,6 +168,8 @@ def run_sites(
         )
         print(f"cost figures of the proposed sites: {basis}")
         print(f"city names: {CITY_SOURCE}")
+        if "cluster_sweep" in tables:
+            print_table(tables["cluster_sweep"], "cluster_sweep", "Clusters swept (km to the nearest centre)")
         if "dc_count_curve" in tables:
             print_table(
                 tables["dc_count_curve"],

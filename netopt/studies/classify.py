@@ -30,7 +30,8 @@ demand rows as independent: ``cv = √(Σ (cv_cp q_cp)²) / Σ q_cp``; X while `
 ``cv ≤ y``, else Z (defaults 0.25, 0.50: common practice, no source).
 
 **Writing back.** A copy of the case gets ``customers.service_class`` from the customers' ABC class
-(each class mapped onto one of the case's service classes) and ``products.cycle_service_level`` from
+(each class mapped onto one of the case's service classes; a customer without demand has no class
+and keeps its own) and ``products.cycle_service_level`` from
 the products' class, so the service rules and the safety stock (``z = Φ⁻¹(CSL)``) follow the class.
 """
 
@@ -125,7 +126,9 @@ def check_measure(case: Case, measure: str) -> None:
         return
     t = case.tables
     sold = set(t["demand"].loc[t["demand"]["quantity"] > 0, "product"].astype(str))
-    p = t["products"].reset_index(drop=True)
+    p = t["products"]
+    rows = p.index if p.index.name == "row" else pd.RangeIndex(2, len(p) + 2)  # the file's row numbers
+    p = p.reset_index(drop=True)
     price = pd.to_numeric(p["unit_price"], errors="coerce") if "unit_price" in p else pd.Series(np.nan, p.index)
     missing = p.index[p["product"].astype(str).isin(sold) & price.isna()]
     if len(missing):
@@ -133,7 +136,7 @@ def check_measure(case: Case, measure: str) -> None:
             [
                 Problem(
                     "products",
-                    int(i) + 2,
+                    int(rows[i]),
                     "unit_price",
                     f"product '{p.loc[i, 'product']}' has demand but no unit_price: ranking by {measure} needs "
                     "a selling price for every product sold",

@@ -22,6 +22,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
+from netopt.data.limits import MAX_CLUSTER_POINTS
 from netopt.network.centres import DEFAULT_TOLERANCE_KM, sphere_clusters, weiszfeld_sphere
 from netopt.network.cities import nearest_cities
 from netopt.network.geo import pairwise_km
@@ -137,13 +138,20 @@ def propose_sites(
         label = pts["region"].map({r: i for i, r in enumerate(centres["region"])}).to_numpy()
         method, cluster = "centre_of_gravity", np.zeros(len(centres), dtype=int)
     else:
+        # customers at one location are one point of the clustering, with their weights summed
+        loc = pts.groupby(["lat", "lon"], sort=True, as_index=False)["weight"].sum()
         k = int(k) if k is not None else len(centres)
-        if not 1 <= k <= len(pts):
-            raise CaseError(
-                [Problem("sites", None, None, f"k must be from 1 to the {len(pts)} customers with demand, not {k}")]
+        if not 1 <= k <= len(loc):
+            msg = f"k must be from 1 to the {len(loc)} customer locations with demand, not {k}"
+            raise CaseError([Problem("sites", None, None, msg)])
+        if len(loc) > MAX_CLUSTER_POINTS:
+            msg = (
+                f"{len(loc):,} customer locations: clustering takes at most MAX_CLUSTER_POINTS = {MAX_CLUSTER_POINTS:,}"
             )
-        cl = sphere_clusters(pts["lat"], pts["lon"], pts["weight"], k, tol_km=tol_km)
-        c_lat, c_lon, label = cl.lat, cl.lon, cl.label
+            raise CaseError([Problem("customers", None, None, msg + " (use --from-regions, or group customers)")])
+        cl = sphere_clusters(loc["lat"], loc["lon"], loc["weight"], k, tol_km=tol_km)
+        c_lat, c_lon = cl.lat, cl.lon
+        label = np.argmin(pairwise_km(pts["lat"], pts["lon"], c_lat, c_lon), axis=1)  # each customer's cluster
         method, cluster = "cluster", np.arange(1, k + 1)
     snap = nearest_cities(c_lat, c_lon, min_city_population)
     figures, basis = cost_figures(case, costs or {})
@@ -190,3 +198,26 @@ def add_dc_changes(candidates: pd.DataFrame) -> list[dict]:
         {"kind": "add_dc", **{k: (v.item() if hasattr(v, "item") else v) for k, v in row.items()}}
         for row in candidates[CANDIDATE_COLUMNS].to_dict(orient="records")
     ]
+
+
+def cluster_sweep(case: Case, k_max: int, weight_basis: str = "tonnes", tol_km: float = DEFAULT_TOLERANCE_KM):
+    """The ``cluster_sweep`` table: k weighted clusters of the customer locations for k = 1 … ``k_max``."""
+    pts = demand_points(case, weight_basis)
+    loc = pts.groupby(["lat", "lon"], sort=True, as_index=False)["weight"].sum()
+    if not 1 <= k_max <= len(loc):
+        msg = f"the sweep's largest k must be from 1 to the {len(loc)} customer locations with demand, not {k_max}"
+        raise CaseError([Problem("sites", None, None, msg)])
+    if len(loc) > MAX_CLUSTER_POINTS:
+        msg = f"{len(loc):,} customer locations: clustering takes at most MAX_CLUSTER_POINTS = {MAX_CLUSTER_POINTS:,}"
+        raise CaseError([Problem("customers", None, None, msg)])
+    w = loc["weight"].to_numpy(float)
+    rows = []
+    for k in range(1, int(k_max) + 1):
+        cl = sphere_clusters(loc["lat"], loc["lon"], w, k, tol_km=tol_km)
+        d = pairwise_km(loc["lat"], loc["lon"], cl.lat, cl.lon).min(axis=1)
+        rows.append(
+            {"k": k, "mean_km": float((w * d).sum() / w.sum()), "max_km": float(d.max()), "converged": cl.converged}
+        )
+    out = pd.DataFrame(rows)
+    out.insert(3, "gain_km", -out["mean_km"].diff())
+    return out

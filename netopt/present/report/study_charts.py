@@ -148,3 +148,22 @@ def dc_count_svg(curve: pd.DataFrame, currency: str) -> str:
         short_ticks(ax.yaxis)
         ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=7.5)
         return to_svg(fig)
+
+
+def cluster_sweep_svg(sweep: pd.DataFrame) -> str:
+    """Demand-weighted mean km (and the farthest customer's km) to the nearest centre against k."""
+    import matplotlib
+
+    if sweep.empty:
+        return ""
+    with matplotlib.rc_context(chart_rc()):
+        fig, ax = new_chart(11.0, 3.0, left=0.8, right=2.4, top=0.3, bottom=0.55)
+        k = sweep["k"].to_numpy(int)
+        ax.plot(k, sweep["mean_km"], marker="o", lw=2.0, color=INK, label=label_of("cluster_sweep", "mean_km"))
+        ax.plot(k, sweep["max_km"], marker="o", ms=3, lw=1.0, color=MUTED, label=label_of("cluster_sweep", "max_km"))
+        ax.set_xticks(k)
+        ax.set_xlabel("clusters k")
+        ax.set_ylabel("km")
+        ax.set_ylim(bottom=0)
+        ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=7.5)
+        return to_svg(fig)

@@ -14,7 +14,7 @@ import pandas as pd
 
 from netopt.present.labels import DISCLAIMER
 from netopt.present.report.page import ASSETS, _safe_svg
-from netopt.present.report.study_charts import MAP_NOTE, dc_count_svg, pareto_svg, sites_map_svg
+from netopt.present.report.study_charts import MAP_NOTE, cluster_sweep_svg, dc_count_svg, pareto_svg, sites_map_svg
 from netopt.present.report.tables import table
 
 
@@ -116,6 +116,19 @@ def sites_sections(
             "gravity_centres",
         ),
     ]
+    sweep = tables.get("cluster_sweep")
+    if sweep is not None:
+        out.append(
+            Section(
+                "Clusters swept",
+                "k weighted clusters of the customers for each k: how far demand is from its nearest centre "
+                "(before snapping to a city).",
+                cluster_sweep_svg(sweep),
+                sweep,
+                "cluster_sweep",
+                max_rows=None,
+            )
+        )
     curve = tables.get("dc_count_curve")
     if curve is not None:
         out.append(
