@@ -33,7 +33,7 @@ def add_classify(sub) -> None:
         help="ABC (and XYZ) classes of products and customers by usage value, revenue, margin or volume",
         description="Rank the finished products and the customers by annual usage value (demand × unit value), "
         "revenue or margin (needs products.unit_price) or volume, and split them into classes A, B and C by "
-        "share of the measure (default 80 %% / 95 %%) or by share of items; optionally XYZ by demand "
+        "share of the measure (default 80 % / 95 %) or by share of items; optionally XYZ by demand "
         "variability. Writes abc_products.csv, abc_customers.csv, abc_summary.csv, classes.xlsx and a "
         "Pareto report; --service-by-class / --csl-by-class also write the case with the classes as its "
         "customers' service classes and its products' cycle service levels (safety stock follows the class).",
