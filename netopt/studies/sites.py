@@ -57,9 +57,11 @@ def demand_points(case: Case, weight_basis: str = "tonnes") -> pd.DataFrame:
     c["weight"] = c["customer"].map(weight).fillna(0.0).astype(float)
     c = c[c["weight"] > 0].reset_index(drop=True)
     if c.empty:
-        raise CaseError(
-            [Problem("demand", None, "quantity", "no customer has demand: there is nothing to place sites for")]
+        why = (
+            " weighing more than 0 kg (products.unit_weight_kg; or weigh by units)" if weight_basis == "tonnes" else ""
         )
+        msg = f"no customer has demand{why}: there is nothing to place sites for"
+        raise CaseError([Problem("demand", None, "quantity", msg)])
     c["region"] = c["region"].fillna("").astype(str)
     return c
 
