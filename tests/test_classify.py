@@ -172,6 +172,9 @@ def test_classify_cli_refuses_bad_options(tmp_path):
     assert run(["classify", str(DEMO), "--out", str(tmp_path / "x"), "--bounds", "0.9,0.5", "-q"]) == 2
     assert run(["classify", str(DEMO), "--out", str(tmp_path / "x"), "--csl-by-class", "A=0.9", "-q"]) == 2
     assert run(["classify", str(DEMO), "--out", str(tmp_path / "y"), "--measure", "revenue", "-q"]) == 2
+    assert run(["classify", str(DEMO), "--out", str(tmp_path / "x"), "--xyz", "0.5,0.2", "-q"]) == 2
+    assert run(["classify", str(DEMO), "--out", str(tmp_path / "z"), "--xyz", "0.5,1.5", "-q", "--no-report"]) == 0
+    assert set(pd.read_csv(tmp_path / "z" / "abc_customers.csv")["xyz"]) == {"X"}  # every zone's CV is below 0.5
     assert not (tmp_path / "x").exists() and not (tmp_path / "y").exists()
 
 

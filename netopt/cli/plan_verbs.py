@@ -15,14 +15,16 @@ from netopt.studies.classify import DEFAULT_ITEM_BOUNDS, DEFAULT_VALUE_BOUNDS, M
 from netopt.studies.sites import WEIGHT_BASES
 
 
-def _pair(text: str, what: str) -> tuple[float, float]:
+def _pair(text: str, what: str, top: float = 1.0) -> tuple[float, float]:
     parts = [p.strip() for p in str(text).split(",")]
     try:
         a, b = (float(p) for p in parts)
     except ValueError:
         raise argparse.ArgumentTypeError(f"{what}: give two shares as A,B (e.g. 0.8,0.95), not {text!r}") from None
-    if not 0 < a < b <= 1:
-        raise argparse.ArgumentTypeError(f"{what}: need 0 < {a:g} < {b:g} ≤ 1")
+    if not 0 < a < b <= top:
+        raise argparse.ArgumentTypeError(
+            f"{what}: need 0 < {a:g} < {b:g}" + (f" ≤ {top:g}" if top < float("inf") else "")
+        )
     return a, b
 
 
@@ -79,7 +81,7 @@ def cmd_classify(args: argparse.Namespace) -> int:
             if args.bounds
             else (DEFAULT_ITEM_BOUNDS if args.by_items else DEFAULT_VALUE_BOUNDS)
         )
-        xyz = _pair(args.xyz, "--xyz") if args.xyz else None
+        xyz = _pair(args.xyz, "--xyz", float("inf")) if args.xyz else None  # a CV may exceed 1
         service = parse_class_map(args.service_by_class, "--service-by-class", False) if args.service_by_class else None
         csl = parse_class_map(args.csl_by_class, "--csl-by-class", True) if args.csl_by_class else None
     except (argparse.ArgumentTypeError, ValueError) as e:
