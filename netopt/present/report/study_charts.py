@@ -112,41 +112,47 @@ MAP_NOTE = LAND_NOTE
 
 
 def dc_count_svg(curve: pd.DataFrame, currency: str) -> str:
-    """Total cost and its components against the number of open DCs; the least total is marked."""
+    """Total cost against the number of open DCs (the least total circled) above the cost components
+    that change with N; components equal at every point are named in the lower panel's title."""
     import matplotlib
 
     ok = curve[curve["total_cost"].notna()]
     if ok.empty:
         return ""
     comps = [c for c in curve.columns if c.startswith("cost_") and ok[c].abs().max() > 0.5]
+    scale = max(float(ok["total_cost"].abs().max()), 1.0)
+    moving = [c for c in comps if float(ok[c].max() - ok[c].min()) > 1e-6 * scale]
+    flat = [label_of("dc_count_curve", c) for c in comps if c not in moving]
     spare = iter(FALLBACK)
+    n = ok["n_dcs"].to_numpy(int)
     with matplotlib.rc_context(chart_rc()):
-        fig, ax = new_chart(11.0, 3.6, left=0.9, right=2.4, top=0.35, bottom=0.55)
-        n = ok["n_dcs"].to_numpy(int)
-        for c in comps:
-            name = c[len("cost_") :]
-            ax.plot(
-                n,
-                ok[c],
-                marker="o",
-                ms=3,
-                lw=1.0,
-                color=COST_COLOURS.get(name) or next(spare),
-                label=label_of("dc_count_curve", c),
-            )
-        ax.plot(n, ok["total_cost"], marker="o", lw=2.2, color=INK, label="total cost")
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(11.0, 5.2))
+        top = fig.add_axes((0.9 / 11, 0.56, 7.6 / 11, 0.38))
+        low = fig.add_axes((0.9 / 11, 0.1, 7.6 / 11, 0.36), sharex=top)
+        top.plot(n, ok["total_cost"], marker="o", lw=2.2, color=INK, label="total cost")
         best = ok[ok["best"].astype(bool)]
         if len(best):
             bx, by = int(best["n_dcs"].iloc[0]), float(best["total_cost"].iloc[0])
-            ax.scatter([bx], [by], s=140, facecolor="none", edgecolor=GOOD, lw=2.0, zorder=5)
-            ax.annotate(
-                f"least: {bx} DCs", (bx, by), xytext=(8, 10), textcoords="offset points", color=GOOD, fontsize=8.5
-            )
-        ax.set_xticks(n)
-        ax.set_xlabel("open DCs")
-        ax.set_ylabel(f"{currency}/yr")
-        short_ticks(ax.yaxis)
-        ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=7.5)
+            top.scatter([bx], [by], s=140, facecolor="none", edgecolor=GOOD, lw=2.0, zorder=5)
+            top.annotate(f"least: {bx} DCs", (bx, by), xytext=(8, 10), textcoords="offset points", color=GOOD)
+        top.set_title(f"total cost, {currency}/yr")
+        for c in moving:
+            name = c[len("cost_") :]
+            colour = COST_COLOURS.get(name) or next(spare)
+            low.plot(n, ok[c], marker="o", ms=3, lw=1.2, color=colour, label=label_of("dc_count_curve", c))
+        low.set_title(
+            f"components that change with the DC count, {currency}/yr"
+            + (f" (the same at every point: {', '.join(flat)})" if flat else ""),
+            fontsize=8.5,
+        )
+        low.set_xticks(n)
+        low.set_xlabel("open DCs")
+        for ax in (top, low):
+            short_ticks(ax.yaxis)
+        if moving:
+            low.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=7.5)
         return to_svg(fig)
 
 
