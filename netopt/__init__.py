@@ -2,7 +2,8 @@
 
 Load a case with :func:`load_case` (a folder of CSV files with ``settings.toml``, or
 one ``.xlsx`` workbook); bad input raises :class:`CaseError` listing every problem.
-Then :func:`solve` it, or :func:`run_scenarios` for the base and its what-ifs.
+Then :func:`solve` it, or :func:`run_scenarios` for the base and its what-ifs;
+:func:`classify_items` (ABC/XYZ), :func:`propose_sites` and :func:`dc_count_curve` plan before that.
 
 The package reads as the pipeline (each stage imports only the stages before it):
 ``data`` (schema, reading, checks) → ``network`` (distances, lanes, arc table) →
@@ -20,11 +21,36 @@ import importlib
 from typing import TYPE_CHECKING
 
 if TYPE_CHECKING:
-    from netopt.api import Case, CaseError, Problem, Result, load_case, make_case, run_scenarios, solve
+    from netopt.api import (
+        Case,
+        CaseError,
+        Problem,
+        Result,
+        classify_items,
+        dc_count_curve,
+        load_case,
+        make_case,
+        propose_sites,
+        run_scenarios,
+        solve,
+    )
 
 __version__ = "0.1.0"
 
-__all__ = ["Case", "CaseError", "Problem", "Result", "__version__", "load_case", "make_case", "run_scenarios", "solve"]
+__all__ = [
+    "Case",
+    "CaseError",
+    "Problem",
+    "Result",
+    "__version__",
+    "classify_items",
+    "dc_count_curve",
+    "load_case",
+    "make_case",
+    "propose_sites",
+    "run_scenarios",
+    "solve",
+]
 
 
 def __getattr__(name: str):

@@ -8,6 +8,21 @@ from netopt.data.case import Case, CaseError, Problem
 from netopt.data.frames import make_case
 from netopt.data.io import load_case
 from netopt.engine.solve import Result, solve
+from netopt.studies.classify import classify_items
+from netopt.studies.dc_count import dc_count_curve
 from netopt.studies.scenarios import run_scenarios
+from netopt.studies.sites import propose_sites
 
-__all__ = ["Case", "CaseError", "Problem", "Result", "load_case", "make_case", "run_scenarios", "solve"]
+__all__ = [
+    "Case",
+    "CaseError",
+    "Problem",
+    "Result",
+    "classify_items",
+    "dc_count_curve",
+    "load_case",
+    "make_case",
+    "propose_sites",
+    "run_scenarios",
+    "solve",
+]

@@ -14,6 +14,10 @@ MAX_FRONTIER_POINTS = 50
 MAX_SCENARIOS = 1_000
 """Most scenarios in one case (each is at least one solve, and a run keeps every result)."""
 
+MAX_CLUSTER_POINTS = 3_000
+"""Most customer locations ``netopt sites`` clusters (its p-median start holds a locations × locations
+distance matrix: 72 MB at this size)."""
+
 MAX_WORKERS = 256
 """Most local worker processes a sweep starts (each holds its own copy of the model)."""
 

@@ -1,7 +1,8 @@
 """The register of declared output tables: each table declared once, looked up by name or alias.
 
 The declarations themselves are in :mod:`netopt.data.results_schema` (one solve's tables and a
-run's) and :mod:`netopt.data.stress_schema` (the stress study's).
+run's) and :mod:`netopt.data.stress_schema` (the stress study's), :mod:`netopt.data.classify_schema`
+(ABC/XYZ classes) and :mod:`netopt.data.sites_schema` (candidate sites, the DC-count curve).
 """
 
 from __future__ import annotations

@@ -446,7 +446,12 @@ _table(
     VERIFIED,
 )
 # The stress study's tables, registered after the run tables (the order of docs/outputs.md).
-from netopt.data import horizon_schema, stress_schema  # noqa: E402, F401
+from netopt.data import (  # noqa: E402, F401
+    classify_schema,
+    horizon_schema,
+    sites_schema,
+    stress_schema,
+)
 
 __all__ = [
     "RESULT_TABLES",

@@ -82,6 +82,26 @@ _table(
                 "Coefficient of variation of annual demand per customer (for safety stock)",
                 min=0,
             ),
+            _c(
+                "cycle_service_level",
+                "float",
+                "share",
+                False,
+                None,
+                "Chance of no stock-out in a replenishment cycle, for this product's safety stock; blank = "
+                "the settings' inventory.cycle_service_level (netopt classify can set it per ABC class)",
+                min=0.5,
+                max=0.99999,
+            ),
+            _c(
+                "unit_price",
+                "float",
+                "currency/unit",
+                False,
+                None,
+                "Selling price of one unit, for ranking by revenue or margin (netopt classify); blank = not given",
+                min=0,
+            ),
         ),
         key=("product",),
     )

@@ -76,7 +76,7 @@ def add(b: Builder) -> None:
     | f_{d,p,k} | segment k is full, so k+1 may be used | binary | variable block ``ss_fill`` |
     | b_k, Δ_{d,p,k} | breakpoints; segment width | units/yr | ``segment_table``: ``start``, ``width`` |
     | g_{d,p,k} | holding cost per unit of throughput on segment k | currency/yr per unit/yr | ``segment_table``: ``cost_per_unit`` |
-    | z | safety factor Φ⁻¹(cycle service level) | | setting ``inventory.cycle_service_level`` |
+    | z | safety factor Φ⁻¹(cycle service level) | | ``products.cycle_service_level`` (blank = setting ``inventory.cycle_service_level``) |
     | L, σ_L | lead time of the fastest inbound lane, its standard deviation | days | arc column ``transit_days``; ``suppliers.lead_time_sd_days`` |
     | α | variance per unit of demand of the customers d can reach | units/yr | ``curves``: ``alpha`` (``demand.demand_cv``) |
     | v_p η_p | holding cost of one unit for a year | currency/unit/yr | ``curves``: ``unit_holding`` |

@@ -20,7 +20,8 @@ Per DC ``d`` and finished product ``p`` (units in brackets):
   (``ss_units_actual_lead_time``), not optimised.
 - ``σ_L``: lead-time standard deviation = ``suppliers.lead_time_sd_days`` of that fastest
   lane's origin when it is a supplier, 0 when it is a plant or DC [days].
-- ``z = Φ⁻¹(inventory.cycle_service_level)`` (``statistics.NormalDist``).
+- ``z = Φ⁻¹(CSL_p)`` (``statistics.NormalDist``), ``CSL_p`` the product's ``products.cycle_service_level``
+  (blank = the setting ``inventory.cycle_service_level``).
 
 Safety stock ``SS(T) = z √(L σ_d² + d̄² σ_L²) = z √(L α T/365 + T² σ_L²/365²)`` [units]
 (Chopra & Meindl's demand and lead-time uncertainty formula), held all year, costs
@@ -143,7 +144,7 @@ def curves(net) -> pd.DataFrame:
     out_arcs = arcs[arcs["origin_kind"].eq("dc") & arcs["destination_kind"].eq("customer")]
     if out_arcs.empty:
         return pd.DataFrame(columns=cols)
-    z = z_value(inv["cycle_service_level"])
+    csl = net.products.set_index("product")["cycle_service_level"]
     count = int(inv["safety_stock_breakpoints"])
     reach = out_arcs[["origin", "destination", "product"]].drop_duplicates()
     dem = net.demand[["customer", "product", "quantity", "demand_cv"]]
@@ -173,6 +174,7 @@ def curves(net) -> pd.DataFrame:
     pinfo = net.products.set_index("product")
     rows = []
     for r in g.itertuples(index=False):
+        z = z_value(float(csl.loc[r.product]))
         alpha = float(r.var) / float(r.q) if r.q > 0 else 0.0
         t_max = float(min(float(cap.get(r.dc, np.inf)), float(r.q)))
         if t_max <= 0:

@@ -66,6 +66,12 @@ def _holding_rate(products: pd.DataFrame, settings: dict) -> pd.Series:
     return rate.fillna(float(settings["inventory"]["holding_rate"]))
 
 
+def _cycle_service_level(products: pd.DataFrame, settings: dict) -> pd.Series:
+    """Each product's cycle service level [share]: its own, blank = the settings' (one rule for safety stock)."""
+    given = products["cycle_service_level"] if "cycle_service_level" in products else pd.Series(np.nan, products.index)
+    return pd.to_numeric(given, errors="coerce").fillna(float(settings["inventory"]["cycle_service_level"]))
+
+
 def expand_arcs(case: Case, lanes: pd.DataFrame) -> pd.DataFrame:
     """Expand lanes (product "" = every product) into one row per usable product.
 
@@ -175,6 +181,7 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
 
     products = t["products"].copy()
     products["holding_rate"] = _holding_rate(products, s)
+    products["cycle_service_level"] = _cycle_service_level(products, s)
     pinfo = products.set_index("product")
     modes = t["modes"].set_index("mode")
 

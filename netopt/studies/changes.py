@@ -19,12 +19,10 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
-import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
 from netopt.data.names import shown
-from netopt.data.periods import horizon
 from netopt.data.schema import TABLES
 from netopt.engine.held import BoundPlan, HeldNetwork
 from netopt.engine.result import Result
@@ -37,6 +35,7 @@ from netopt.studies.change_costs import (
     edit_share_cap,
     held_set_capacity,
 )
+from netopt.studies.change_demand import edit_grow_demand, edit_scale_demand, held_scale_demand
 
 Change = dict  # one change: {"kind": ..., field: value, ...}
 
@@ -276,79 +275,6 @@ def _edit_setting(ed: CaseEdit, ch: Change) -> None:
 # ---------------------------------------------------------------------------------- demand
 
 
-def _edit_scale_demand(ed: CaseEdit, ch: Change) -> None:
-    f = ed.number(ch, "factor")
-    dem = ed.tables["demand"]
-    mask = _demand_rows(ed, ch, dem)
-    if not ed.errors and f is not None:
-        dem.loc[mask, "quantity"] = dem.loc[mask, "quantity"] * f
-
-
-def _edit_grow_demand(ed: CaseEdit, ch: Change) -> None:
-    """Demand of period k × (1 + rate)^t_k, t_k the years before the period starts (the first period
-    unchanged); a row for every period replaces a chosen blank-period row, so each period grows its own."""
-    rate = ed.number(ch, "rate")
-    t = ed.tables
-    if t["periods"].empty:
-        ed.errors.append("grow_demand needs a periods table (use scale_demand for a one-year case)")
-        return
-    dem = t["demand"]
-    mask = _demand_rows(ed, ch, dem)
-    if ed.errors or rate is None:
-        return
-    per = horizon(ed.case)
-    start = dict(zip(per["period"].astype(str), per["start_year"].astype(float)))
-    blank = mask & dem["period"].astype(str).eq("")
-    own = set(zip(dem["customer"], dem["product"], dem["period"].astype(str)))
-    spread = pd.concat([dem.loc[blank].assign(period=p) for p in start])
-    keys = zip(spread["customer"], spread["product"], spread["period"])
-    spread = spread[[k not in own for k in keys]]
-    grown = pd.concat([dem[mask & ~blank], spread])
-    grown["quantity"] = grown["quantity"].to_numpy(float) * (1.0 + rate) ** grown["period"].map(start).to_numpy(float)
-    rest = dem[~mask]
-    t["demand"] = pd.concat([rest, grown])
-    t["demand"].index = range(2, 2 + len(t["demand"]))
-
-
-def _demand_rows(ed: CaseEdit, ch: Change, dem: pd.DataFrame) -> pd.Series:
-    """Demand rows a change's optional region, customer and product filters choose (problems to ``ed.errors``)."""
-    t = ed.tables
-    mask = pd.Series(True, index=dem.index)
-    if ed.text(ch, "region"):
-        if ed.text(ch, "region") not in set(t["customers"]["region"].astype(str)):
-            ed.errors.append(f"unknown region '{ed.text(ch, 'region')}'")
-        cust = t["customers"].loc[t["customers"]["region"] == ed.text(ch, "region"), "customer"]
-        mask &= dem["customer"].isin(cust)
-    if ed.text(ch, "customer"):
-        if ed.sites.get(ed.text(ch, "customer")) != "customer":
-            ed.errors.append(f"unknown customer '{ed.text(ch, 'customer')}'")
-        mask &= dem["customer"] == ed.text(ch, "customer")
-    if ed.text(ch, "product"):
-        if ed.text(ch, "product") not in set(t["products"]["product"]):
-            ed.errors.append(f"unknown product '{ed.text(ch, 'product')}'")
-        mask &= dem["product"] == ed.text(ch, "product")
-    return mask
-
-
-def _held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
-    """Demand rows set to the scenario's quantities; lost demand bounded by them."""
-    net = held.net
-    q_new = sc_case.tables["demand"].set_index(["customer", "product"])["quantity"]
-    if q_new.sum() > held.builder.dc_big_m / 2:
-        return None  # beyond the big M standing in for unlimited DC capacity
-    q = q_new.reindex(pd.MultiIndex.from_frame(net.demand[["customer", "product"]])).fillna(0.0).to_numpy(float)
-    plan = BoundPlan()
-    rows = held.rows_of("demand_met")
-    for k in np.flatnonzero(np.abs(q - net.demand["quantity"].to_numpy(float)) > 0):
-        if rows[k] >= 0:
-            plan.rows[int(rows[k])] = (q[k], q[k])
-        plan.set_cols(held.cols("unmet", np.array([k])), 0.0, q[k])
-    return plan
-
-
-# ---------------------------------------------------------------------------------- the registry
-
-
 def table_fields(table: str) -> Fields:
     """The fields of a change that adds a row to ``table``: its columns as the schema declares them
     (ranges are checked with the table once the row is added)."""
@@ -435,8 +361,8 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
         ChangeKind(
             "scale_demand",
             "Scale demand: factor; optional region, customer, product filters",
-            _edit_scale_demand,
-            _held_scale_demand,
+            edit_scale_demand,
+            held_scale_demand,
             fields=Fields(
                 required=("factor",), codes=("region", "customer", "product"), numbers={"factor": AT_LEAST_0}
             ),
@@ -445,7 +371,7 @@ CHANGE_KINDS: dict[str, ChangeKind] = {
             "grow_demand",
             "Grow demand over the periods of a case with periods: rate per year (demand of a period × (1 + rate) "
             "to the power of the years before it starts); optional region, customer, product filters",
-            _edit_grow_demand,
+            edit_grow_demand,
             None,
             fields=Fields(codes=("region", "customer", "product"), numbers={"rate": AT_LEAST_0}, required=("rate",)),
         ),
