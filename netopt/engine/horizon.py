@@ -110,16 +110,17 @@ def solve_horizon(
             def cb(d):
                 say("progress", dict(d, method="MIP search", elapsed=time.perf_counter() - t_run))
 
-        if start_plan is not None:
-            hm.set_plan_start(start_plan)
-        elif (hold is not None or bool(case.settings["solver"]["plan_search"])) and hm.integrality.any():
+        plans = [] if start_plan is None else [start_plan]
+        if (hold is not None or bool(case.settings["solver"]["plan_search"])) and hm.integrality.any():
             t0 = time.perf_counter()
             budget = float(case.settings["solver"]["plan_search_share"]) * time_limit
-            start = start_phasing(case, cases, lanes, nets, top, budget, mip_gap, threads, hold=hold)
-            if start is not None:
-                hm.set_plan_start(start)
+            own = start_phasing(case, cases, lanes, nets, top, budget, mip_gap, threads, hold=hold)
+            if own is not None and keeps_phasing_limits(top, per, own, case.tables["dcs"]):
+                plans.append(own)
             timings["plan_search"] = time.perf_counter() - t0
-            say("plan search", {"message": "each period planned on its own, made a phasing, starts the MIP search"})
+            say("plan search", {"message": "each period planned on its own, made a phasing"})
+        if plans:  # the cheapest plan known starts the MIP search (a caller's plan is never replaced by a dearer one)
+            hm.set_plan_start(min(plans, key=lambda v: sum(top.component_values(v).values())))
         left = max(time_limit - (time.perf_counter() - t_run), 0.05 * time_limit)
         try:
             info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads, progress=cb)
@@ -196,6 +197,17 @@ def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float
     values["opened"] = np.maximum(z - before, 0.0).ravel()
     values["closed"] = np.maximum(before - z, 0.0).ravel()
     return values
+
+
+def keeps_phasing_limits(top, per: pd.DataFrame, values: dict[str, np.ndarray], dcs: pd.DataFrame) -> bool:
+    """Whether a plan from :func:`start_phasing` keeps the openings limit and the opening budget of every
+    period (its other rows hold by construction)."""
+    u = values["opened"].reshape(len(per), -1)
+    most = per["max_openings"].to_numpy(float)
+    if ((most >= 0) & (u.sum(axis=1) > most + 1e-9)).any():
+        return False
+    cost = top.var_labels["opened"]["dc"].iloc[: u.shape[1]].map(dcs.set_index("dc")["opening_cost"]).to_numpy(float)
+    return bool((u @ cost <= per["opening_budget"].to_numpy(float) * (1 + 1e-9)).all())
 
 
 def stock_table(top, per: pd.DataFrame, values: dict, k: int, opening_stock: pd.DataFrame, repeat: bool):

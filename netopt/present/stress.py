@@ -21,6 +21,7 @@ import pandas as pd
 from netopt.data.case import Case
 from netopt.data.io import load_case
 from netopt.data.limits import CONNECT_TIMEOUT_S
+from netopt.data.periods import has_periods
 from netopt.engine.solve import solve
 from netopt.present.files import (
     DISCLAIMER,
@@ -34,6 +35,7 @@ from netopt.present.files import (
 )
 from netopt.present.report import write_report
 from netopt.studies.exposure import exposure
+from netopt.studies.period_study import year_of_plan
 from netopt.studies.resilience import StressError, run_sweep
 from netopt.studies.sweep_exec import JOURNAL, SchedulerUnreachable, connect_scheduler
 
@@ -187,6 +189,13 @@ def stress_command(
     """
     case = load_case(case_path)
     say = (lambda s: None) if quiet else (lambda s: print(s, file=sys.stderr))
+    if has_periods(case):
+        plan = solve(case)
+        if not plan.has_solution:
+            print(f"error: the plan over periods has no solution ({plan.status}); nothing to stress", file=sys.stderr)
+            return 3 if plan.status in ("infeasible", "unbounded") else 4
+        case, note = year_of_plan(case, plan)
+        print(f"note: {note}", file=sys.stderr)  # said even with -q: it changes what is studied
     if case.warnings:
         say(f"{len(case.warnings)} warning(s):")
         for p in case.warnings:

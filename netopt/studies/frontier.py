@@ -35,8 +35,9 @@ import highspy
 import numpy as np
 import pandas as pd
 
-from netopt.data.case import Case
+from netopt.data.case import Case, CaseError, Problem
 from netopt.data.limits import MAX_FRONTIER_POINTS
+from netopt.data.periods import has_periods
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.result import Result, fixed_options
@@ -66,6 +67,13 @@ def _with_cap(case: Case, cap: float) -> Case:
     return Case(case.name, case.tables, settings, case.path, case.scenarios, case.warnings)
 
 
+FRONTIER_ONE_YEAR = (
+    "the cost–CO2 frontier plans one year; this case has periods (a CO2e cap per year of a phased plan is not "
+    "swept yet): run the frontier on a one-year copy of the case (without periods.csv)"
+)
+"""Why a frontier refuses a case with periods (said as a problem of the case: exit 2, nothing written)."""
+
+
 def sweep(
     case: Case,
     points: int = 5,
@@ -87,6 +95,8 @@ def sweep(
             f"a frontier needs 2 to {MAX_FRONTIER_POINTS} points (the cost-optimal and the CO2-minimal network "
             f"and caps between them, one full solve each), not {points}"
         )
+    if has_periods(case):
+        raise CaseError([Problem("periods", None, None, FRONTIER_ONE_YEAR)])
     say = progress or (lambda event, info=None: None)
     sset = case.settings["solver"]
     time_limit = float(sset["time_limit_s"] if time_limit is None else time_limit)

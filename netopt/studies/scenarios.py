@@ -49,7 +49,7 @@ from netopt.engine.solve import solve
 from netopt.studies.case_edit import CaseEdit, site_kinds
 from netopt.studies.changes import CHANGE_KINDS, resolve_held
 from netopt.studies.comparison import comparison_row, dc_decisions, share_changes
-from netopt.studies.frontier import scenario_frontier
+from netopt.studies.frontier import FRONTIER_ONE_YEAR, scenario_frontier
 from netopt.studies.scenario_defs import (  # the definitions are read there; callers may import them from here
     PRICED_SUFFIX,  # noqa: F401
     RESOLVE,  # noqa: F401
@@ -278,6 +278,8 @@ def run_scenarios(
         chosen = [s for s in scenarios if s.name in names]
     else:
         chosen = scenarios
+    if has_periods(case) and any(s.frontier_points for s in chosen):
+        raise CaseError([Problem(scenario_source(case), None, "frontier_points", FRONTIER_ONE_YEAR)])
     cases = scenario_cases(case, scenarios, chosen)  # every scenario validated before solving anything
 
     t0 = time.perf_counter()
