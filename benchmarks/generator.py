@@ -46,8 +46,21 @@ SIZES: dict[str, dict[str, int]] = {
     "small": {"suppliers": 20, "plants": 5, "dcs": 20, "customers": 200, "products": 3, "modes": 3},
     "medium": {"suppliers": 30, "plants": 6, "dcs": 50, "customers": 1000, "products": 5, "modes": 3},
     "large": {"suppliers": 50, "plants": 10, "dcs": 100, "customers": 3000, "products": 10, "modes": 4},
+    "medium-4p": {
+        "suppliers": 30,
+        "plants": 6,
+        "dcs": 50,
+        "customers": 1000,
+        "products": 5,
+        "modes": 3,
+        "periods": 4,
+    },
 }
-"""Named sizes: counts of suppliers, plants, candidate DCs, customer zones, finished products, modes."""
+"""Named sizes: counts of suppliers, plants, candidate DCs, customer zones, finished products, modes (and
+optionally ``periods``: a plan over that many one-year periods, demand growing per customer zone)."""
+
+GROWTH_RANGE = (0.0, 0.08)  # per year: each zone's demand growth over the periods of a size with periods
+DISCOUNT_RATE = 0.08  # per year, for a size with periods
 
 LAT_RANGE = (37.0, 59.5)  # degrees: 22.5° × 111.2 km ≈ 2500 km north-south
 LON_RANGE = (-9.0, 44.7)  # degrees: 53.7° × 74.5 km (at 48° N) ≈ 4000 km east-west
@@ -88,6 +101,7 @@ def size_spec(size: str | dict) -> dict[str, int]:
     if missing:
         raise ValueError(f"size is missing {', '.join(missing)}")
     spec = {k: int(v) for k, v in spec.items()}
+    spec.setdefault("periods", 1)
     if spec["suppliers"] < 3:
         raise ValueError("size needs at least 3 suppliers (3 per material)")
     if not 2 <= spec["modes"] <= len(_MODES):
@@ -347,7 +361,31 @@ def synthetic_case(size: str | dict, seed: int = 0, safety_stock: bool = False) 
         "modes": mode_table,
         "lanes": lanes,
     }
+    if spec.get("periods", 1) > 1:
+        _add_periods(tables, settings, spec["periods"], seed)
     return make_case(tables, settings, name=settings["case"]["name"])
+
+
+def _add_periods(tables: dict, settings: dict, n: int, seed: int) -> None:
+    """Turn the one-year tables into a plan over ``n`` one-year periods: each zone's demand grows at its
+    own rate (uniform in :data:`GROWTH_RANGE`, a separate seeded stream so the one-year data are
+    unchanged), candidates cost their annual fixed cost once to open, costs discounted at
+    :data:`DISCOUNT_RATE`."""
+    rng = np.random.default_rng(seed + 7_919)
+    names = [f"Y{k + 1}" for k in range(n)]
+    tables["periods"] = pd.DataFrame({"period": names, "years": 1.0})
+    dem = pd.DataFrame(tables["demand"])
+    zones = dem["customer"].unique()
+    growth = pd.Series(rng.uniform(*GROWTH_RANGE, len(zones)), index=zones)
+    g = dem["customer"].map(growth).to_numpy(float)
+    tables["demand"] = pd.concat(
+        [dem.assign(period=p, quantity=dem["quantity"].to_numpy(float) * (1.0 + g) ** k) for k, p in enumerate(names)],
+        ignore_index=True,
+    )
+    dcs = pd.DataFrame(tables["dcs"])
+    dcs["opening_cost"] = np.where(dcs.get("status", "candidate") == "candidate", dcs["fixed_cost"], 0.0)
+    tables["dcs"] = dcs
+    settings["periods"] = {"discount_rate": DISCOUNT_RATE}
 
 
 def _dc_fixed_costs(

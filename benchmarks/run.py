@@ -140,7 +140,8 @@ def worker_solve(
         "peak_mb": peak,
         "peak_mb_before_solve": peak_before,
         "verified": bool(res.verification.passed) if res.verification else None,
-        "open_dcs": int(res.tables["dcs"]["open"].sum()) if res.has_solution else None,
+        "open_dcs": int(res.period_view().tables["dcs"]["open"].sum()) if res.has_solution else None,
+        "periods": 1 if res.periods is None else len(res.periods),
         "dcs": len(case.tables["dcs"]),
         "highs_s_to_large_gap": None if "large" not in reached else max(reached["large"] - build_s, 0.0),
         "plan_search_s": float(t.get("plan_search", 0.0)),
@@ -148,8 +149,13 @@ def worker_solve(
     if out["highs_s_to_large_gap"] is None and out["gap"] is not None and out["gap"] <= LARGE_GAP_TARGET:
         out["highs_s_to_large_gap"] = highs_s  # reached without a logging line in between
     net = res.network
+    over_periods = res.periods is not None
     res.highs_model = None
     del res
+    if over_periods:  # a plan over periods: the LP bound of one period's model would not be this model's
+        out.update({"lp_s": None, "lp_highs_s": None, "lp_status": "not run (a plan over periods)"})
+        out.update({"lp_bound": None, "lp_gap": None})
+        return out
 
     # LP relaxation of the same formulation on the same network.
     t0 = time.perf_counter()

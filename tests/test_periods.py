@@ -13,13 +13,13 @@ import itertools
 import numpy as np
 import pandas as pd
 import pytest
+from randcase import random_case
 from scipy.optimize import linprog
 
 from netopt.data.case import CaseError
 from netopt.data.frames import make_case
 from netopt.data.periods import horizon
 from netopt.engine.solve import solve
-from tests.randcase import random_case
 
 
 def _periods(names, years=None, **cols) -> pd.DataFrame:

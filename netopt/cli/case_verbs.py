@@ -9,6 +9,7 @@ from pathlib import Path
 from netopt.cli.common import COMMON, EXIT_INVALID, EXIT_OK, print_warnings, say
 from netopt.data.case import Case
 from netopt.data.io import load_case
+from netopt.data.periods import has_periods, period_demand
 from netopt.data.schema import TABLES
 from netopt.data.templates import write_blank_case, write_template_workbook
 from netopt.data.writing import write_case_csv, write_case_workbook
@@ -107,7 +108,14 @@ def case_summary(case: Case) -> list[str]:
         + ")",
         f"  customers   {n(t['customers'], 'customer'):>7,}",
         f"  products    {len(products):>7,}   ({len(products) - materials:,} finished, {materials:,} materials)",
-        f"  demand      {demand['quantity'].sum():>15,.0f} units/year over {len(demand):,} customer-product rows",
+        f"  demand      {demand['quantity'].sum():>15,.0f} units/year over {len(demand):,} customer-product rows"
+        if not has_periods(case)
+        else f"  periods     {len(t['periods']):>7,}   ({', '.join(t['periods']['period'].astype(str))}); demand per "
+        "period: "
+        + ", ".join(
+            f"{p} {period_demand(demand, p)['quantity'].sum():,.0f}" for p in t["periods"]["period"].astype(str)
+        )
+        + " units/year",
         f"  modes       {len(t['modes']):>7,}"
         + (f"   ({', '.join(t['modes']['mode'].astype(str))})" if len(t["modes"]) else ""),
     ]

@@ -137,6 +137,14 @@ class Result:
         if self.periods is not None:
             out["periods"] = [str(p) for p in self.periods["period"]]
             out["money"] = "present value over the periods (currency); period_cost.csv gives each period's"
+            if "period_cost" in self.tables:
+                pc = self.tables["period_cost"].groupby("period", sort=False)[["undiscounted", "present_value"]].sum()
+                out["cost_per_period"] = {
+                    str(p): {"spend": _num(r["undiscounted"]), "present_value": _num(r["present_value"])}
+                    for p, r in pc.iterrows()
+                }
+                out["spend_undiscounted"] = _num(pc["undiscounted"].sum())
+                out["phasing"] = self.phasing_text()
         return out
 
 

@@ -34,8 +34,11 @@ from netopt.present.report.style import (
 # ----------------------------------------------------------------------------- charts
 
 
-def cost_bars_svg(labels: list[str], costs: list[dict[str, float]], currency: str, tol: float = 0.5) -> str:
-    """Stacked horizontal bars of the cost components per scenario (currency/yr).
+def cost_bars_svg(
+    labels: list[str], costs: list[dict[str, float]], currency: str, tol: float = 0.5, axis: str = "landed cost, {}/yr"
+) -> str:
+    """Stacked horizontal bars of the cost components per scenario (currency/yr; ``axis`` words the
+    axis, ``{}`` standing for the currency).
 
     Changes against the first bar (the base) larger than ``tol`` (currency/yr) are coloured.
     """
@@ -86,7 +89,7 @@ def cost_bars_svg(labels: list[str], costs: list[dict[str, float]], currency: st
         ax.set_ylim(-0.6, len(labels) - 0.4)
         ax.set_xlim(min(left_neg.min() * 1.05, 0), xmax * 1.16)
         short_ticks(ax.xaxis)
-        ax.set_xlabel(f"landed cost, {currency}/yr".strip(", "))
+        ax.set_xlabel(axis.format(currency).strip(", "))
         ax.grid(axis="x", color=GRID, lw=0.6)
         ax.set_axisbelow(True)
         ax.legend(

@@ -19,7 +19,7 @@ def phasing_sections(result, currency: str) -> list[dict]:
     matrix = matrix.loc[list(dict.fromkeys(ph["dc"]))].reset_index()
     pc = result.tables["period_cost"]
     spend = [dict(zip(g["component"], g["undiscounted"])) for _, g in pc.groupby("period", sort=False)]
-    chart = cost_bars_svg(names, spend, currency, tol=float("inf"))
+    chart = cost_bars_svg(names, spend, currency, tol=float("inf"), axis="spend in the period, {} (undiscounted)")
     totals = pc.groupby("period", sort=False)[["undiscounted", "present_value"]].sum().reset_index()
     return [
         {
