@@ -22,6 +22,7 @@ demo: $(STAMP)
 	$(VENV)/bin/netopt check cases/brackenholt
 	$(VENV)/bin/netopt run cases/brackenholt --out out/brackenholt
 	$(VENV)/bin/netopt stress cases/brackenholt --out out/brackenholt-stress
+	$(VENV)/bin/netopt run cases/brackenholt-growth --out out/brackenholt-growth
 	$(VENV)/bin/netopt classify cases/brackenholt --out out/brackenholt-classes --xyz \
 		--service-by-class A=express,B=standard,C=standard --csl-by-class A=0.98,B=0.95,C=0.90
 	$(VENV)/bin/netopt solve out/brackenholt-classes/case --out out/brackenholt-classes-solved -q

@@ -365,6 +365,6 @@ def cross_table_problems(
     problems += _lane_sites(tables)
     problems += _mode_rules(tables)
     problems += _other_rules(tables, given, usable)
-    problems += time_problems(tables, given, usable)
+    problems += time_problems(tables, given, usable, settings)
     problems += _dc_count_rules(tables, settings, label, settings_rows)
     return problems

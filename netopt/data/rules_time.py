@@ -19,10 +19,36 @@ def _codes(df: pd.DataFrame, column: str) -> set[str]:
     return set(s[s != ""])
 
 
-def time_problems(tables: dict[str, pd.DataFrame], given: set[str], usable: set[str]) -> list[Problem]:
+def time_problems(
+    tables: dict[str, pd.DataFrame], given: set[str], usable: set[str], settings: dict | None = None
+) -> list[Problem]:
     """Problems of the time tables that their own declarations cannot see."""
     problems: list[Problem] = []
     has_periods = "periods" in given
+    if settings is not None and "opening_stock" in given and not tables["opening_stock"].empty and has_periods:
+        per = settings.get("periods", {})
+        if not per.get("carry_stock", False):
+            problems.append(
+                Problem(
+                    "opening_stock",
+                    None,
+                    None,
+                    "stock on hand is not used in the plan: periods.carry_stock is off (only the resilience study "
+                    "draws on it)",
+                    "warning",
+                )
+            )
+        elif per.get("repeat_year", False):
+            problems.append(
+                Problem(
+                    "opening_stock",
+                    None,
+                    None,
+                    "stock on hand is not used in the plan: periods.repeat_year starts the year from its last "
+                    "period's closing stock (only the resilience study draws on it)",
+                    "warning",
+                )
+            )
     if has_periods and "periods" in usable and tables["periods"].empty:
         problems.append(
             Problem("periods", None, None, "the periods table has no rows: the case is planned as one year", "warning")

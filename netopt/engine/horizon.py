@@ -131,6 +131,9 @@ def solve_horizon(
         case.name, info, timings=timings, model_size=size, message=info.message, network=nets[-1], lanes=lanes
     )
     res.periods = per
+    not_carried = stock_not_carried(case, top)
+    if not_carried:
+        res.message = "; ".join(x for x in (res.message, not_carried) if x)
     if info.has_solution:
         values = hm.values()
         t0 = time.perf_counter()
@@ -197,6 +200,23 @@ def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float
     values["opened"] = np.maximum(z - before, 0.0).ravel()
     values["closed"] = np.maximum(before - z, 0.0).ravel()
     return values
+
+
+def stock_not_carried(case: Case, top) -> str:
+    """A sentence naming the stock on hand the plan cannot carry (a site and product without a balance row
+    in every period), or ""."""
+    on_hand = case.tables["opening_stock"]
+    if on_hand.empty or "stock" not in top.var_labels or bool(case.settings["periods"]["repeat_year"]):
+        return ""
+    carried = set(zip(top.var_labels["stock"]["site"], top.var_labels["stock"]["product"]))
+    pairs = zip(on_hand["site"], on_hand["product"], on_hand["quantity"])
+    left = [f"{s}/{p}" for s, p, q in pairs if q > 0 and (s, p) not in carried]
+    if not left:
+        return ""
+    return (
+        f"stock on hand not used ({', '.join(left[:5])}{' …' if len(left) > 5 else ''}): the site does not handle "
+        "the product in every period"
+    )
 
 
 def keeps_phasing_limits(top, per: pd.DataFrame, values: dict[str, np.ndarray], dcs: pd.DataFrame) -> bool:
