@@ -20,6 +20,7 @@ install: $(STAMP)
 
 demo: $(STAMP)
 	$(VENV)/bin/netopt check cases/brackenholt
+	$(VENV)/bin/netopt baseline cases/brackenholt --out out/brackenholt-baseline
 	$(VENV)/bin/netopt run cases/brackenholt --out out/brackenholt
 	$(VENV)/bin/netopt stress cases/brackenholt --out out/brackenholt-stress
 	$(VENV)/bin/netopt run cases/brackenholt-growth --out out/brackenholt-growth

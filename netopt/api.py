@@ -1,4 +1,4 @@
-"""The Python API in one place: load a case, solve it, run its scenarios.
+"""The Python API in one place: load a case, solve it, cost today's flows (``cost_current_flows``), run its scenarios.
 
 Every name here is defined in its pipeline stage and only re-exported, so
 ``from netopt.api import solve`` and ``netopt.solve`` are the same function.
@@ -7,6 +7,7 @@ Every name here is defined in its pipeline stage and only re-exported, so
 from netopt.data.case import Case, CaseError, Problem
 from netopt.data.frames import make_case
 from netopt.data.io import load_case
+from netopt.engine.baseline import cost_current_flows
 from netopt.engine.solve import Result, solve
 from netopt.studies.classify import classify_items
 from netopt.studies.dc_count import dc_count_curve
@@ -19,6 +20,7 @@ __all__ = [
     "Problem",
     "Result",
     "classify_items",
+    "cost_current_flows",
     "dc_count_curve",
     "load_case",
     "make_case",

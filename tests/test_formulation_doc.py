@@ -37,8 +37,9 @@ MODEL_DIR = Path(__file__).resolve().parents[1] / "netopt" / "model"
 
 def every_rule_case():
     """Invented data with every policy switched on: 3 suppliers of a material (two regions) → 1 plant →
-    3 DCs (one existing, one forced open with two sizes, one more; every DC with a capacity) → 4 customers; road
-    everywhere, rail on supplier and plant legs; one lane with a capacity; safety stock on."""
+    3 DCs (one existing, one forced open with two sizes and a cap on its share of the customers' region, one
+    more; every DC with a capacity) → 4 customers; road everywhere, rail on supplier and plant legs; one lane
+    with a capacity; a supplier with a least share and a duty on its material; safety stock on."""
     customers = [
         ("C0", 48.1, 11.6, 1200.0),
         ("C1", 50.1, 8.7, 800.0),
@@ -62,10 +63,22 @@ def every_rule_case():
                 "unit_cost": 1.5,
                 "lead_time_sd_days": 2.0,
             },
-            {"supplier": "S1", "product": "M", "lat": 45.5, "lon": 9.2, "region": "R1", "unit_cost": 1.8},
+            {
+                "supplier": "S1",
+                "product": "M",
+                "lat": 45.5,
+                "lon": 9.2,
+                "region": "R1",
+                "unit_cost": 1.8,
+                "min_share": 0.1,
+                "country": "IT",
+            },
             {"supplier": "S2", "product": "M", "lat": 50.9, "lon": 4.4, "region": "R0", "unit_cost": 2.1},
         ],
-        "plants": [{"plant": "F", "product": "P", "lat": 49.0, "lon": 8.4, "unit_cost": 4.0, "capacity": 1e6}],
+        "plants": [
+            {"plant": "F", "product": "P", "lat": 49.0, "lon": 8.4, "unit_cost": 4.0, "capacity": 1e6, "country": "DE"}
+        ],
+        "duties": [{"origin": "IT", "destination": "DE", "ad_valorem": 0.01}],
         "dcs": [
             {
                 "dc": "D0",
@@ -76,14 +89,14 @@ def every_rule_case():
                 "closing_cost": 5000.0,
                 "capacity": 50000.0,
             },
-            {"dc": "D1", "lat": 48.1, "lon": 11.5, "fixed_cost": 15000.0, "force": "open"},
+            {"dc": "D1", "lat": 48.1, "lon": 11.5, "fixed_cost": 15000.0, "force": "open", "max_region_share": 0.9},
             {"dc": "D2", "lat": 52.4, "lon": 13.1, "fixed_cost": 18000.0, "capacity": 5000.0},
         ],
         "dc_sizes": [
             {"dc": "D1", "size": "small", "capacity": 2000.0, "fixed_cost": 10000.0},
             {"dc": "D1", "size": "large", "capacity": 6000.0, "fixed_cost": 16000.0},
         ],
-        "customers": [{"customer": c, "lat": a, "lon": o} for c, a, o, _ in customers],
+        "customers": [{"customer": c, "lat": a, "lon": o, "region": "south"} for c, a, o, _ in customers],
         "demand": [{"customer": c, "product": "P", "quantity": q} for c, _, _, q in customers],
         "modes": [
             {

@@ -21,6 +21,7 @@ from importlib.metadata import version as package_version
 
 from netopt.cli.case_verbs import add_check, add_export, add_template
 from netopt.cli.common import EXIT_INTERRUPTED, EXIT_INVALID, EXIT_SOLVER
+from netopt.cli.landed_verbs import add_baseline
 from netopt.cli.plan_verbs import add_classify, add_sites
 from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
 from netopt.data.case import CaseError
@@ -29,12 +30,21 @@ from netopt.present.files import OutputFailed, OutputRefused, check_output_folde
 
 # --------------------------------------------------------------------------- main
 
-RESULT_VERBS = ("solve", "run", "stress", "frontier", "classify", "sites")  # verbs whose --out is a results folder
+RESULT_VERBS = (
+    "solve",
+    "baseline",
+    "run",
+    "stress",
+    "frontier",
+    "classify",
+    "sites",
+)  # verbs whose --out is a results folder
 VERBS: list[Callable] = [
     add_template,
     add_check,
     add_export,
     add_solve,
+    add_baseline,
     add_run,
     add_stress,
     add_frontier,

@@ -13,6 +13,7 @@ from netopt.data.periods import has_periods, period_demand
 from netopt.data.schema import TABLES
 from netopt.data.templates import write_blank_case, write_template_workbook
 from netopt.data.writing import write_case_csv, write_case_workbook
+from netopt.engine.baseline import check_current_flows
 from netopt.network.lanes import case_lanes
 from netopt.studies.scenarios import parse_scenarios, scenario_cases, scenario_source
 
@@ -121,6 +122,9 @@ def case_summary(case: Case) -> list[str]:
     ]
     if len(t["lanes"]):
         lines.append(f"  explicit lanes {len(t['lanes']):>4,}")
+    if len(t["current_flows"]):
+        cur = t["current_flows"]
+        lines.append(f"  today's flows {len(cur):>5,} rows, {cur['quantity'].sum():,.0f} units/year (netopt baseline)")
     by_mode = _lanes_by_mode(case)
     if by_mode is None:
         lines.append("  lanes       not built (the lane builder is not available)")
@@ -136,6 +140,7 @@ def cmd_check(args: argparse.Namespace) -> int:
     case = load_case(args.case)
     scenarios = parse_scenarios(case.scenarios, scenario_source(case))
     scenario_cases(case, scenarios)  # each scenario's changes applied and the result checked, as `run` does
+    check_current_flows(case)  # every row of today's flows on a lane of the case, as `baseline` needs
     print_warnings(args, case)
     for line in case_summary(case):
         say(args, line)

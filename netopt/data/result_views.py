@@ -44,6 +44,7 @@ COMPARISON_VIEW = (
     "total_cost",
     "delta_cost",
     "delta_pct",
+    "saving_vs_today",
     "delta_operating",
     "delta_penalty",
     "within_gap",
@@ -59,6 +60,8 @@ COMPARISON_VIEW = (
 """The headline columns of the comparison, in order: Markdown, terminal and report show these."""
 
 TERMINAL_VIEW = tuple(
-    c for c in COMPARISON_VIEW if c not in ("delta_pct", "avg_transit_days", "max_supplier_share", "lost_value")
+    c
+    for c in COMPARISON_VIEW
+    if c not in ("delta_pct", "saving_vs_today", "avg_transit_days", "max_supplier_share", "lost_value")
 )
 """The headline columns that fit a terminal line (same labels; the others are in comparison.md and the report)."""

@@ -69,6 +69,7 @@ _table(
     _c("supply_cost", "float", "currency/yr", "supply cost", "Purchase price of supplier flows"),
     FREIGHT_COST,
     _c("handling_cost", "float", "currency/yr", "handling cost", "DC handling of the units"),
+    _c("duty_cost", "float", "currency/yr", "duty", "Import duties of the flow (its own cost component, duties)"),
     PIPELINE_COST,
     CARBON_COST,
     CO2_KG,
@@ -124,7 +125,15 @@ _table(
         "float",
         "share",
         "max share",
-        "This supplier's cap at this site: the smallest of the policy's, the supplier's own and the site's own",
+        "This supplier's cap at this site: the smallest of the policy's, the supplier's own, the site's own and "
+        "the pair's own (sourcing_shares)",
+    ),
+    _c(
+        "min_share",
+        "float",
+        "share",
+        "min share",
+        "Least share this supplier must provide at this site: the larger of the supplier's own and the pair's own",
     ),
 )
 _table(
@@ -372,6 +381,16 @@ _table(
     TOTAL_COST,
     _c("delta_cost", "float", "currency/yr", "Δ vs base", "Total cost − the base's", signed=True, sense=1),
     _c("delta_pct", "float", "share", "Δ %", "delta_cost / the base's total cost", signed=True, sense=1),
+    _c(
+        "saving_vs_today",
+        "float",
+        "currency/yr",
+        "saving vs today",
+        "Today's cost (the case's current_flows costed as netopt baseline does) minus this total; blank without "
+        "current_flows",
+        signed=True,
+        sense=-1,
+    ),
     _c("delta_penalty", "float", "currency/yr", "Δ penalties", "Change in penalties for rules not met", **DEARER),
     _c(
         "delta_operating",
@@ -449,6 +468,7 @@ _table(
 from netopt.data import (  # noqa: E402, F401
     classify_schema,
     horizon_schema,
+    landed_schema,
     sites_schema,
     stress_schema,
 )

@@ -7,8 +7,11 @@ from __future__ import annotations
 import pandas as pd
 
 from netopt.data.case import Problem
+from netopt.data.countries import country_problems
+from netopt.data.rate_checks import rate_tier_problems
 from netopt.data.rules_time import time_problems
 from netopt.data.schema import LEGS, TABLES
+from netopt.data.share_checks import share_rule_problems
 from netopt.data.text import as_text, close_match_hint, format_number, row_number
 
 SITE_TABLES = (("suppliers", "supplier"), ("plants", "plant"), ("dcs", "dc"), ("customers", "customer"))
@@ -362,6 +365,11 @@ def cross_table_problems(
     problems += _consistent_site_rows("suppliers", "supplier", tables["suppliers"], "supplier", ("lat", "lon"))
     problems += _consistent_site_rows("suppliers", "supplier", tables["suppliers"], "supplier", ("region",))
     problems += _consistent_site_rows("plants", "plant", tables["plants"], "plant", ("lat", "lon"))
+    problems += _consistent_site_rows("suppliers", "supplier", tables["suppliers"], "supplier", ("country",))
+    problems += _consistent_site_rows("plants", "plant", tables["plants"], "plant", ("country",))
+    problems += country_problems(tables)
+    problems += share_rule_problems(tables)
+    problems += rate_tier_problems(tables)
     problems += _lane_sites(tables)
     problems += _mode_rules(tables)
     problems += _other_rules(tables, given, usable)

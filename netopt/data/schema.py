@@ -14,7 +14,10 @@ from __future__ import annotations
 
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
-from netopt.data.schema_time import CAPACITY_BY_PERIOD, OPENING_STOCK, PERIODS
+from netopt.data.schema_landed import BORDERS, COUNTRY, CURRENT_FLOWS, DEMAND_PRICE, DUTIES
+from netopt.data.schema_rates import RATE_TIERS
+from netopt.data.schema_shares import DC_REGION_SHARE, SOURCING_SHARES, SUPPLIER_MIN_SHARE
+from netopt.data.schema_time import CAPACITY_BY_PERIOD, DEMAND_PERIOD, OPENING_STOCK, PERIODS
 from netopt.data.schema_transport import LANES, LEGS, MODES, ROAD_EDGES
 
 LAT = _c("lat", "float", "degrees", True, None, "Latitude, WGS84, north positive", min=-90, max=90)
@@ -117,6 +120,7 @@ _table(
             _c("product", "str", "", True, None, "Product or material offered"),
             LAT,
             LON,
+            COUNTRY,
             _c("region", "str", "", False, "", "Supplier region, for diversification by region"),
             _c(
                 "capacity",
@@ -158,6 +162,7 @@ _table(
                 min=0,
                 max=1,
             ),
+            SUPPLIER_MIN_SHARE,
         ),
         key=("supplier", "product"),
         required=False,
@@ -174,6 +179,7 @@ _table(
             _c("product", "str", "", True, None, "Finished product made here"),
             LAT,
             LON,
+            COUNTRY,
             _c(
                 "capacity",
                 "float",
@@ -259,6 +265,7 @@ _table(
             _c("dc", "str", "", True, None, "DC site code"),
             LAT,
             LON,
+            COUNTRY,
             _c(
                 "status",
                 "str",
@@ -346,6 +353,7 @@ _table(
                 min=0,
                 max=1,
             ),
+            DC_REGION_SHARE,
         ),
         key=("dc",),
         references=(Reference("earliest_period", "periods", "period", allow_blank=True),),
@@ -376,6 +384,7 @@ _table(
             _c("customer", "str", "", True, None, "Customer zone code"),
             LAT,
             LON,
+            COUNTRY,
             _c("region", "str", "", False, "", "Sales region (for demand scaling and reports)"),
             _c(
                 "service_class",
@@ -398,14 +407,7 @@ _table(
             _c("customer", "str", "", True, None, "Customer zone"),
             _c("product", "str", "", True, None, "Finished product"),
             _c("quantity", "float", "units/year", True, None, "Annual demand (a rate per year within a period)", min=0),
-            _c(
-                "period",
-                "str",
-                "",
-                False,
-                "",
-                "Period this row is for (from periods); blank = every period without a row of its own",
-            ),
+            DEMAND_PERIOD,
             _c(
                 "demand_cv",
                 "float",
@@ -415,6 +417,7 @@ _table(
                 "Coefficient of variation of this demand; blank = the product's demand_cv",
                 min=0,
             ),
+            DEMAND_PRICE,
         ),
         key=("customer", "product", "period"),
         references=(
@@ -462,8 +465,13 @@ _table(PERIODS)
 _table(CAPACITY_BY_PERIOD)
 _table(OPENING_STOCK)
 _table(MODES)
+_table(RATE_TIERS)
 _table(LANES)
 _table(ROAD_EDGES)
+_table(SOURCING_SHARES)
+_table(DUTIES)
+_table(BORDERS)
+_table(CURRENT_FLOWS)
 
 
 def schema_frame():

@@ -12,6 +12,16 @@ from __future__ import annotations
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
 
+DEMAND_PERIOD = _c(
+    "period",
+    "str",
+    "",
+    False,
+    "",
+    "Period this row is for (from periods); blank = every period without a row of its own",
+)
+"""The demand table's optional period column."""
+
 PERIODS = Table(
     "periods",
     "Planning periods in time order (optional): years of a multi-year phasing plan, or seasons of one year.",

@@ -6,6 +6,7 @@ from __future__ import annotations
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
 from netopt.data.emission_factors import schema_note as emission_schema_note
+from netopt.data.schema_rates import SHIPMENT_KG
 
 LEGS = ("supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer", "dc-dc")
 """The kinds of lane netopt models, in their order in the lane table."""
@@ -64,6 +65,7 @@ MODES = Table(
             "",
             "Legs the mode may serve, separated by |, from: " + ", ".join(LEGS) + "; blank = the settings' lanes.legs",
         ),
+        SHIPMENT_KG,
     ),
     key=("mode",),
 )

@@ -13,6 +13,21 @@ from netopt.data.declarations import Setting
 from netopt.data.limits import MAX_SAFETY_STOCK_BREAKPOINTS, MAX_SITE_COUNT, MAX_THREADS, MAX_TIME_LIMIT_S
 from netopt.data.schema import LEGS
 
+ACTUAL_SPEND = (
+    ("supply", "purchases from suppliers"),
+    ("production", "conversion at the plants"),
+    ("dc_fixed", "DC fixed cost"),
+    ("dc_closing", "DC closing"),
+    ("dc_handling", "DC handling"),
+    ("transport", "freight"),
+    ("duties", "import duties"),
+    ("pipeline_inventory", "holding stock in transit"),
+    ("safety_stock", "holding safety stock"),
+    ("carbon", "carbon charges"),
+)
+"""Cost components (names of ``netopt.model.COST_COMPONENTS``) whose actual spend a case may state in
+``[actual_spend]``, with what each one is in the accounts."""
+
 SETTINGS: tuple[Setting, ...] = (
     Setting("case", "name", "str", "", "", "Case name shown in reports"),
     Setting("case", "currency", "str", "", "EUR", "Currency label for all money columns"),
@@ -26,6 +41,15 @@ SETTINGS: tuple[Setting, ...] = (
         min=0.1,
         max=MAX_TIME_LIMIT_S,
         max_is_limit=True,
+    ),
+    Setting(
+        "solver",
+        "marginal_values",
+        "bool",
+        "",
+        True,
+        "After a solve, price one more unit of each capacity (shadow prices) and each unused lane's cost gap "
+        "(reduced costs) from the held linear program of the plan: shadow_prices.csv, lane_reduced_costs.csv",
     ),
     Setting("solver", "mip_gap", "float", "ratio", 1e-4, "Stop when (cost − bound)/cost is below this", min=0, max=1),
     Setting(
@@ -236,6 +260,29 @@ SETTINGS: tuple[Setting, ...] = (
         "",
         True,
         "Drop a mode on a lane when another mode there is cheaper, no slower, no dirtier and uncapacitated",
+    ),
+    Setting(
+        "duties",
+        "customs_value_includes_freight",
+        "bool",
+        "",
+        False,
+        "The customs value an ad valorem duty is levied on: false = the goods' value only (the supplier's price "
+        "on supplier lanes, else the product's unit_value); true = that value plus the lane's freight per unit "
+        "(goods delivered to the destination)",
+    ),
+    *(
+        Setting(
+            "actual_spend",
+            component,
+            "float",
+            "currency/year",
+            -1.0,
+            f"What the accounts show was spent on {what} last year; `netopt baseline` reports the model's "
+            "cost of today's flows against it (difference in %); -1 = not given",
+            min=-1,
+        )
+        for component, what in ACTUAL_SPEND
     ),
     Setting(
         "resilience",

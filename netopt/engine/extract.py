@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.engine.cost_to_serve import cost_to_serve
 from netopt.engine.inventory_report import safety_stock_extra_cost
 from netopt.engine.tables import build_tables
 from netopt.engine.verify import Verification, verify
@@ -118,6 +119,7 @@ def extract(
     tables = build_tables(net, values, cost)
     if stock is not None:
         tables["stock"] = stock
+    tables["cost_to_serve"] = cost_to_serve(net, tables, cost, case.tables["demand"])
     t1 = time.perf_counter()
     extra = (extra_cost or safety_stock_extra_cost)(tables)
     verification = verify(case, lanes, tables, float(objective), fixed_open=held_open, extra_cost=extra)

@@ -18,6 +18,7 @@ from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.highs_check import ModelRejected
+from netopt.engine.marginal_values import marginal_values
 from netopt.engine.plan_search import best_of, search_plan
 from netopt.engine.result import Result, fixed_options
 from netopt.model import build_model
@@ -204,6 +205,13 @@ def solve_year(
         )
         res.tables, res.verification = out.tables, out.verification
         timings.update(out.seconds)
+        if bool(sset["marginal_values"]):
+            t0 = time.perf_counter()
+            shadow, reduced, note = marginal_values(case, res)
+            res.tables["shadow_prices"], res.tables["lane_reduced_costs"] = shadow, reduced
+            if note:
+                res.message = "; ".join(m for m in (res.message, note) if m)
+            timings["marginal_values"] = time.perf_counter() - t0
         say("verified", {"passed": res.verification.passed, "largest": res.verification.largest_violation})
     elif info.status in ("infeasible", "unbounded") and diagnose:
         say("diagnose", {})

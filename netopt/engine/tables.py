@@ -12,7 +12,7 @@ from netopt.data.results_schema import RESULT_TABLES
 from netopt.engine.inventory_report import inventory_kpis, pipeline_table, safety_stock_table
 from netopt.engine.mode_economics import mode_economics
 from netopt.network.arcs import Network
-from netopt.network.sourcing_caps import share_caps
+from netopt.network.sourcing_caps import share_caps, share_floors
 
 TABLE_DOCS = {name: t.meaning for name, t in RESULT_TABLES.items()}
 """Each result table's meaning, from the declared output schema (:mod:`netopt.data.results_schema`)."""
@@ -53,6 +53,7 @@ def flows_table(net: Network, flow: np.ndarray) -> pd.DataFrame:
         ("supply_cost", "supply_per_unit"),
         ("freight_cost", "freight_per_unit"),
         ("handling_cost", "handling_per_unit"),
+        ("duty_cost", "duty_per_unit"),
         ("pipeline_cost", "pipeline_per_unit"),
         ("carbon_cost", "carbon_per_unit"),
         ("co2_kg", "co2_kg_per_unit"),
@@ -127,14 +128,29 @@ def build_tables(net: Network, values: dict[str, np.ndarray], cost: dict[str, fl
         g["region"] = g["origin"].map(region)
         g = g.rename(columns={"destination": "site", "destination_kind": "site_kind", "origin": "supplier"})
         g["max_share"] = share_caps(
-            float(net.settings["policy"]["max_supplier_share"]), net.suppliers, net.site_share_caps, g
+            float(net.settings["policy"]["max_supplier_share"]),
+            net.suppliers,
+            net.site_share_caps,
+            g,
+            net.sourcing_shares,
         )
+        g["min_share"] = share_floors(net.suppliers, g, net.sourcing_shares)
         t["supplier_shares"] = g[
-            ["site", "site_kind", "product", "supplier", "region", "quantity", "share", "max_share"]
+            ["site", "site_kind", "product", "supplier", "region", "quantity", "share", "max_share", "min_share"]
         ]
     else:
         t["supplier_shares"] = pd.DataFrame(
-            columns=["site", "site_kind", "product", "supplier", "region", "quantity", "share", "max_share"]
+            columns=[
+                "site",
+                "site_kind",
+                "product",
+                "supplier",
+                "region",
+                "quantity",
+                "share",
+                "max_share",
+                "min_share",
+            ]
         )
 
     # Mode mix.

@@ -15,6 +15,8 @@ import pandas as pd
 
 from netopt.data.case import Case
 from netopt.engine.verify_cost import recompute_cost, service_shortfall
+from netopt.engine.verify_duties import with_crossings
+from netopt.engine.verify_shares import share_rule_checks
 from netopt.network.sourcing_caps import share_caps, site_share_caps
 
 REL_TOL = 1e-6
@@ -266,7 +268,7 @@ def verify(
             ck.le("max open DCs (count)", np.atleast_1d(n_open), np.atleast_1d(float(pol["max_open_dcs"])))
 
     # --- lanes: each flow must use an available lane; lane-and-mode capacity
-    lane_rows = _match_lanes(flows, lanes)
+    lane_rows = with_crossings(case, _match_lanes(flows, lanes))  # border days in the transit time
     ck.le("flows only on available lanes (count)", np.atleast_1d(float(lane_rows["_lane"].isna().sum())), np.zeros(1))
     gen = lane_rows[(lane_rows["_lane_product"] == "")]
     if len(gen):
@@ -293,7 +295,9 @@ def verify(
         by_sup = sflows.groupby(["destination", "product", "origin"], as_index=False)["quantity"].sum()
         by_sup["total"] = by_sup.groupby(["destination", "product"])["quantity"].transform("sum")
         pairs = by_sup.rename(columns={"destination": "site", "origin": "supplier"})
-        caps = share_caps(float(pol["max_supplier_share"]), t["suppliers"], site_share_caps(t), pairs)
+        caps = share_caps(
+            float(pol["max_supplier_share"]), t["suppliers"], site_share_caps(t), pairs, t["sourcing_shares"]
+        )
         ck.le(
             "max supplier share",
             by_sup["quantity"].to_numpy(float),
@@ -321,6 +325,10 @@ def verify(
             sites = by_sup.groupby(["destination", "product"])["total"].first()
             need = np.minimum(k_min, offers.reindex(sites.index).fillna(1).to_numpy(float))
             ck.le("min active suppliers (count)", need, n_act.reindex(sites.index).fillna(0).to_numpy(float))
+
+    # --- share rules of single sites: least supplier shares, DC shares of a customer region
+    for rule, lhs, rhs, scale, where_ in share_rule_checks(case, lanes, flows):
+        ck.le(rule, lhs, rhs, scale=scale, where=where_)
 
     # --- service window (share of demand, never of what is delivered)
     sv = service_shortfall(case, lane_rows)

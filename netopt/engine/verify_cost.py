@@ -7,6 +7,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.engine.verify_duties import freight_per_unit
 from netopt.network.arcs import lost_sale_cost
 
 
@@ -30,11 +31,8 @@ def recompute_cost(
     )
     q = f["quantity"].to_numpy(float)
     dist = f["_lane_distance"].to_numpy(float)
-    days = f["_lane_transit"].to_numpy(float)
-    rate = f["mode"].map(modes["cost_per_tonne_km"]).to_numpy(float)
-    fix = f["mode"].map(modes["fixed_cost_per_unit"]).to_numpy(float)
-    given = f["_lane_cost"].to_numpy(float)
-    freight = np.where(np.isnan(given), w / 1000 * dist * rate + fix, given)
+    days = f["_lane_transit"].to_numpy(float)  # border days included (verify_duties.with_crossings)
+    freight = freight_per_unit(case, f)
     co2 = q * w / 1000 * dist * f["mode"].map(modes["co2_kg_per_tonne_km"]).to_numpy(float)
     sup = t["suppliers"].set_index(["supplier", "product"])["unit_cost"]
     sf = f[f["origin_kind"] == "supplier"]
@@ -89,6 +87,7 @@ def recompute_cost(
         "dc_opening": opening,
         "dc_handling": handling,
         "transport": float((q * freight).sum()),
+        "duties": float((q * f["_duty"].to_numpy(float)).sum()) if "_duty" in f.columns else 0.0,
         "pipeline_inventory": float((q * v * hr * days / 365.0).sum()),
         "carbon": float(co2.sum() / 1000.0 * float(s["policy"]["carbon_price_per_tonne"])),
         "late_delivery": float((late["short"] * late["late_cost"]).sum()),

@@ -25,7 +25,18 @@ from __future__ import annotations
 
 import numpy as np
 
-from netopt.model import capacity, flows, inventory, openings, safety_stock, service, sourcing, transport
+from netopt.model import (
+    capacity,
+    duties,
+    flows,
+    inventory,
+    openings,
+    safety_stock,
+    service,
+    share_rules,
+    sourcing,
+    transport,
+)
 from netopt.model.core import Builder
 from netopt.network.arcs import Network
 
@@ -37,6 +48,7 @@ COST_COMPONENTS = (
     "dc_opening",
     "dc_handling",
     "transport",
+    "duties",
     "pipeline_inventory",
     "safety_stock",
     "carbon",
@@ -81,8 +93,10 @@ def build_model(
     flows.add(b)
     capacity.add(b, formulation=formulation, big_m_factor=big_m_factor)
     sourcing.add(b)
+    share_rules.add(b)
     service.add(b)
     transport.add(b)
+    duties.add(b)
     inventory.add(b)
     safety_stock.add(b)
     if extra is not None:

@@ -21,7 +21,7 @@ def add(b: Builder) -> None:
     |---|---|---|---|
     | v_p | value of one unit of the arc's product | currency/unit | ``products.unit_value`` |
     | η_p | annual carrying rate | share of value/yr | ``products.holding_rate`` (blank = ``inventory.holding_rate``) |
-    | t_a | transit time of the arc | days | arc column ``transit_days`` |
+    | t_a | transit time of the arc, border days δ_a included (``netopt.network.borders``) | days | arc column ``transit_days`` |
     | c^pipe_a | pipeline holding cost per unit shipped | currency/unit | arc column ``pipeline_per_unit`` |
     """
     arcs = b.net.arcs

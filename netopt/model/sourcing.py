@@ -73,7 +73,7 @@ def add(b: Builder) -> None:
 
     | symbol | meaning | unit | name in code |
     |---|---|---|---|
-    | σ_{j,p,s} | most supplier s may provide of site j's supplier inflow of p: min(σ, σ_{s,p}, σ_j) | share | ``netopt.network.sourcing_caps.share_caps`` |
+    | σ_{j,p,s} | most supplier s may provide of site j's supplier inflow of p: min(σ, σ_{s,p}, σ_j, σ_{s,j,p}) (σ_{s,j,p}: ``sourcing_shares.max_share``) | share | ``netopt.network.sourcing_caps.share_caps`` |
     | σ | most one supplier may provide of a site's supplier inflow | share | setting ``policy.max_supplier_share`` |
     | σ_{s,p} | supplier s's own cap | share | ``suppliers.max_share`` |
     | σ_j | site j's own cap | share | ``plants.max_supplier_share``, ``dcs.max_supplier_share`` |
@@ -99,7 +99,9 @@ def add(b: Builder) -> None:
         "max_supplier_share",
         si,
         ["origin"],
-        lambda g: share_caps(share, net.suppliers, net.site_share_caps, g.rename(columns={"origin": "supplier"})),
+        lambda g: share_caps(
+            share, net.suppliers, net.site_share_caps, g.rename(columns={"origin": "supplier"}), net.sourcing_shares
+        ),
     )
     rshare = float(pol["max_region_share"])
     if rshare < 1.0:

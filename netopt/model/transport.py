@@ -1,7 +1,8 @@
 """Transport: mode per lane, freight cost, emissions.
 
 - Freight cost per arc (currency/unit) comes from the lane table: weight × km × rate
-  + fixed per unit, or the explicit lane's cost per unit.
+  (a rate tier's where the mode has them, :mod:`netopt.network.rates`) + fixed per unit, or the
+  explicit lane's cost per unit.
 - Optional one mode per lane: binary ``mode_on`` per (origin, destination, mode),
   Σ_modes ≤ 1, flow ≤ M × mode_on.
 - CO2e: weight × km × mode factor; carbon price in cost (``carbon``), optional cap.
@@ -35,7 +36,7 @@ def add(b: Builder) -> None:
 
     | symbol | meaning | unit | name in code |
     |---|---|---|---|
-    | c^fr_a | freight: weight × km × rate + fixed per unit, or the lane's cost per unit | currency/unit | arc column ``freight_per_unit`` |
+    | c^fr_a | freight: weight × km × rate (the mode's rate tier by distance band and shipment weight, at least its minimum charge per shipment spread over the units of an average shipment: ``netopt.network.rates``) + fixed per unit, or the lane's cost per unit; plus the border crossing's cost b_a on a lane between countries (``netopt.network.borders``) | currency/unit | arc column ``freight_per_unit`` |
     | e_a | CO2e: weight × km × mode factor | kg CO2e/unit | arc column ``co2_kg_per_unit`` |
     | c^co2_a | e_a / 1000 × carbon price | currency/unit | arc column ``carbon_per_unit`` (``policy.carbon_price_per_tonne``) |
     | E | cap on transport CO2e | t CO2e/yr | setting ``policy.co2_cap_tonnes`` |

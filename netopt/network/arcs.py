@@ -14,7 +14,9 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.network.borders import border_crossings, duty_per_unit
 from netopt.network.lanes import case_lanes
+from netopt.network.rates import freight_from_rates
 from netopt.network.sourcing_caps import site_share_caps
 
 
@@ -27,8 +29,10 @@ class Network:
             destination_kind, leg, mode, product, distance_km, transit_days,
             capacity (units/yr, this product alone), lane_capacity (units/yr, all products
             of the lane and mode), freight_per_unit, pipeline_per_unit, supply_per_unit,
-            handling_per_unit, co2_kg_per_unit, carbon_per_unit, unit_cost (sum of all
-            per-unit costs, currency/unit), within_window (bool, last legs only).
+            handling_per_unit, co2_kg_per_unit, carbon_per_unit, duty_per_unit, customs_value,
+            border_days (in transit_days), border_per_unit (in freight_per_unit)
+            (:mod:`netopt.network.borders`), unit_cost (sum of all per-unit costs, currency/unit),
+            within_window (bool, last legs only).
         make: one row per (plant, product): capacity, unit_cost.
         options: one row per DC opening option: dc, size, capacity, fixed_cost, status,
             closing_cost, opening_cost, force.
@@ -55,6 +59,8 @@ class Network:
     settings: dict
     pruned: dict = field(default_factory=dict)
     arcs_all: pd.DataFrame | None = None
+    sourcing_shares: pd.DataFrame = field(default_factory=pd.DataFrame)  # σ_{s,j,p}, μ_{s,j,p} (sourcing_caps)
+    customers_region: pd.Series = field(default_factory=lambda: pd.Series(dtype=str))  # customer → region
 
     @property
     def total_demand(self) -> float:
@@ -189,15 +195,19 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
     out = set(t["dcs"].loc[t["dcs"]["force"].astype(str).eq("out"), "dc"].astype(str))
     if out:  # a DC out (site_out): nothing moves through it; its opening stays a decision (keep paying, or close)
         arcs = arcs[~(arcs["origin"].isin(out) | arcs["destination"].isin(out))].reset_index(drop=True)
+    # Border crossings add days to the transit time (service, stock in transit) and cost to the freight.
+    border_days, border_cost = border_crossings(case, arcs)
+    arcs["border_days"] = border_days
+    arcs["transit_days"] = arcs["transit_days"].to_numpy(float) + border_days
+    arcs["border_per_unit"] = border_cost
     w = arcs["product"].map(pinfo["unit_weight_kg"]).to_numpy(float)
     v = arcs["product"].map(pinfo["unit_value"]).to_numpy(float)
     h = arcs["product"].map(pinfo["holding_rate"]).to_numpy(float)
-    rate = arcs["mode"].map(modes["cost_per_tonne_km"]).to_numpy(float)
-    fixed = arcs["mode"].map(modes["fixed_cost_per_unit"]).to_numpy(float)
     co2f = arcs["mode"].map(modes["co2_kg_per_tonne_km"]).to_numpy(float)
     dist = arcs["distance_km"].to_numpy(float)
     given = arcs["cost_per_unit"].to_numpy(float)
-    arcs["freight_per_unit"] = np.where(np.isnan(given), w / 1000.0 * dist * rate + fixed, given)
+    arcs["freight_per_unit"] = np.where(np.isnan(given), freight_from_rates(case, arcs), given) + border_cost
+    arcs["duty_per_unit"], arcs["customs_value"] = duty_per_unit(case, arcs, arcs["freight_per_unit"].to_numpy(float))
     # Little's law: units in transit = flow × transit time; cost = value × rate × days/365.
     arcs["pipeline_per_unit"] = v * h * arcs["transit_days"].to_numpy(float) / 365.0
     arcs["co2_kg_per_unit"] = w / 1000.0 * dist * co2f
@@ -219,6 +229,7 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
         + arcs["carbon_per_unit"]
         + arcs["supply_per_unit"]
         + arcs["handling_per_unit"]
+        + arcs["duty_per_unit"]
     )
     # Capacity of a product-specific row binds that product; a generic row's binds the lane and mode.
     arcs["lane_capacity"] = arcs["capacity"]
@@ -293,6 +304,8 @@ def build_network(case: Case, lanes: pd.DataFrame | None = None, prune: bool | N
         settings=s,
         pruned=pruned,
         arcs_all=arcs_all,
+        sourcing_shares=t["sourcing_shares"].reset_index(drop=True),
+        customers_region=t["customers"].set_index("customer")["region"].astype(str),
     )
 
 

@@ -220,8 +220,9 @@ def _jsonable(obj):
     return obj
 
 
-def write_result_files(result, folder: Path, workbook: bool = True) -> None:
-    """Write one result's tables (CSV), ``results.xlsx`` and ``summary.json`` into ``folder``."""
+def write_result_files(result, folder: Path, workbook: bool = True, summary_extra: dict | None = None) -> None:
+    """Write one result's tables (CSV), ``results.xlsx`` and ``summary.json`` (with ``summary_extra``'s
+    entries added) into ``folder``."""
     folder.mkdir(parents=True, exist_ok=True)
     for name, df in result.tables.items():
         write_result_csv(df, folder / f"{name}.csv")
@@ -229,7 +230,7 @@ def write_result_files(result, folder: Path, workbook: bool = True) -> None:
         write_result_csv(result.verification.checks, folder / "verification.csv")
     if result.diagnosis is not None:
         write_result_csv(result.diagnosis, folder / "diagnosis.csv")
-    summary = result.summary()
+    summary = result.summary() | (summary_extra or {})
     summary["disclaimer"] = DISCLAIMER
     (folder / "summary.json").write_text(json.dumps(_jsonable(summary), indent=2))
     if workbook:

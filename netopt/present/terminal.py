@@ -284,3 +284,45 @@ def print_mix_changes(mode_matrix, share_changes, console=None) -> None:
                 *(cell_text(v, column_kind("supplier_share_changes", c)) for v, c in zip(row[4:], cols[4:])),
             )
         con.print(t)
+
+
+def print_baseline(result, console=None) -> None:
+    """Terminal summary of a baseline: today's flows costed per component, against the actual spend
+    where the settings state it, what netopt decided that the flows do not state, and the rules
+    today's flows do not meet."""
+    from rich.markup import escape
+    from rich.table import Table
+
+    con = console or new_console()
+    con.print(
+        f"[bold]{escape(result.case_name)}[/bold]: today's flows costed with the model (nothing optimised); "
+        f"cost {money_text(result.objective)}"
+    )
+    currency = _currency(result)
+    bc = result.tables["baseline_cost"]
+    cols = ("component", "model_cost", "actual_spend", "difference", "difference_share")
+    t = Table(title=escape(f"Today's annual landed cost ({unit_text('currency/yr', currency)})"))
+    for c in cols:
+        t.add_column(label_of("baseline_cost", c), justify="left" if c == "component" else "right")
+    for row in bc[list(cols)].itertuples(index=False):
+        if abs(row.model_cost) > 0.5 or not pd.isna(row.actual_spend):
+            t.add_row(*[escape(cell_text(v, column_kind("baseline_cost", c))) for v, c in zip(row, cols)])
+    t.add_row("[bold]total[/bold]", f"[bold]{money_text(bc['model_cost'].sum())}[/bold]", "", "", "")
+    con.print(t)
+    for note in [n for n in result.message.split("; ") if n]:
+        con.print(escape(f"note: {note}"))
+    rules = result.tables["baseline_rules"]
+    if len(rules):
+        t = Table(title="Rules of the case today's flows do not meet")
+        for c in rules.columns:
+            t.add_column(label_of("baseline_rules", str(c)))
+        for row in rules.itertuples(index=False):
+            t.add_row(*[escape(cell_text(v, column_kind("baseline_rules", c))) for v, c in zip(row, rules.columns)])
+        con.print(t)
+    v = result.verification
+    if v is not None:
+        ok = v.objective_rel_diff <= 1e-6
+        con.print(
+            f"Independent check of the cost: {'[green]passed[/green]' if ok else '[red]FAILED[/red]'} — recomputed "
+            f"{money_text(v.recomputed_objective)} (relative difference {v.objective_rel_diff:.2e})"
+        )

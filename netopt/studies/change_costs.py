@@ -25,6 +25,10 @@ def edit_scale_cost(ed: CaseEdit, ch: Change) -> None:
             mm = t["modes"]["mode"] == mode
             t["modes"].loc[mm, "cost_per_tonne_km"] *= f
             t["modes"].loc[mm, "fixed_cost_per_unit"] *= f
+            tiers = t["rate_tiers"]
+            tm = tiers["mode"] == mode
+            tiers.loc[tm, "cost_per_tonne_km"] *= f
+            tiers.loc[tm, "min_charge"] *= f
             ex = t["lanes"]
             em = (ex["mode"] == mode) & ex["cost_per_unit"].notna()
             ex.loc[em, "cost_per_unit"] = ex.loc[em, "cost_per_unit"] * f

@@ -19,6 +19,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
@@ -121,6 +122,10 @@ def _held_site_out(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan:
     plan = BoundPlan()
     plan.set_cols(held.cols("flow", held.arcs_from(site)), 0.0, 0.0)
     plan.set_cols(held.cols("make", held.make_rows(site)), 0.0, 0.0)
+    if "min_supplier_share" in held.builder.row_labels:  # a supplier out holds no least share
+        rows = held.rows_of("min_supplier_share")
+        mine = held.builder.row_labels["min_supplier_share"]["supplier"].astype(str).eq(site).to_numpy() & (rows >= 0)
+        plan.rows.update({int(r): (-np.inf, np.inf) for r in rows[mine]})
     return plan
 
 

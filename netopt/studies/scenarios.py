@@ -43,6 +43,7 @@ import pandas as pd
 from netopt.data.case import Case, CaseError, Problem
 from netopt.data.periods import has_periods
 from netopt.data.validate import validate_and_coerce
+from netopt.engine.baseline import cost_current_flows
 from netopt.engine.held import HeldNetwork, held_decisions, settings_with_lost_demand
 from netopt.engine.result import Result
 from netopt.engine.solve import solve
@@ -150,6 +151,7 @@ class ScenarioRun:
     dc_decisions: pd.DataFrame = field(default_factory=pd.DataFrame)  # DC × solve: decision, throughput
     supplier_share_changes: pd.DataFrame = field(default_factory=pd.DataFrame)  # each solve against the base
     mode_mix_changes: pd.DataFrame = field(default_factory=pd.DataFrame)  # each solve against the base
+    today: Result | None = None  # the case's current_flows costed (netopt baseline), when it has them
 
 
 def _infeasible(r: Result) -> bool:
@@ -322,6 +324,11 @@ def run_scenarios(
             run.frontiers[s.name] = scenario_frontier(sc_case, s, cost_optimal=own if s.resolve != "hold" else None)
             say("frontier_done", {"name": s.name, "points": s.frontier_points, "seconds": time.perf_counter() - t1})
     run.comparison = pd.DataFrame(rows)
+    if not case.tables["current_flows"].empty:  # savings against today as well as against the base
+        today = cost_current_flows(case, lanes=base.lanes)
+        insert_at = run.comparison.columns.get_loc("delta_pct") + 1 if "delta_pct" in run.comparison else 0
+        run.comparison.insert(insert_at, "saving_vs_today", today.objective - run.comparison["total_cost"])
+        run.today = today
     run.dc_decisions = pd.concat(decisions, ignore_index=True)
     if shares:
         run.supplier_share_changes = pd.concat([s for s, _ in shares], ignore_index=True)

@@ -34,6 +34,7 @@ from netopt.present.report.charts import (
 )
 from netopt.present.report.map import difference_map_svg, land_layer_svg, network_map_svg, run_layout
 from netopt.present.report.phasing import phasing_sections
+from netopt.present.report.sections import KNOWN_COLUMNS, KNOWN_EXTRA, KNOWN_ORDER, STANDARD_TABLES
 from netopt.present.report.style import mode_colours, short_number
 from netopt.present.report.tables import (
     MAX_TABLE_ROWS,
@@ -44,121 +45,6 @@ from netopt.present.report.tables import (
     table,
 )
 
-KNOWN_EXTRA = {  # extra table name → section title and one line on what it shows
-    "dc_decision_matrix": (
-        "DC decisions by scenario",
-        "What each solve does with each DC (kept, closed, opened, not opened, out) and its throughput in units/yr.",
-    ),
-    "mode_mix_matrix": (
-        "Mode mix by scenario",
-        "Each mode's share of all tonne-km in each solve, the base first.",
-    ),
-    "supplier_share_changes": (
-        "Supplier share changes",
-        "Where a scenario moves supply between suppliers: each supplier's share of a site's supply "
-        "of a material in the base and in the scenario (changes of half a percentage point or more, largest first).",
-    ),
-    "frontier": ("Cost–CO2e frontier", "Least landed cost at each level of CO2e (or each carbon price)."),
-    "safety_stock": ("Safety stock", "Safety stock held at each DC and product (units) and its yearly cost."),
-    "spof": (
-        "Single points of failure",
-        "Each element taken out on its own, ranked by the yearly impact of "
-        "its loss (recovery cost plus lost demand value).",
-    ),
-    "spof_ranking": (
-        "Single points of failure",
-        "Each element taken out on its own, ranked by the yearly "
-        "impact of its loss (recovery cost plus lost demand value).",
-    ),
-    "exposure": (
-        "Time to survive and time to recover",
-        "Per node: how long the network lasts with it down (time to survive) against how long it takes to recover.",
-    ),
-    "pipeline": (
-        "Pipeline stock",
-        "Stock in transit per lane, mode and product (Little's law: units/yr × transit days ÷ 365).",
-    ),
-    "inventory_kpis": (
-        "Inventory indicators",
-        "Safety and pipeline stock per DC and for the network, in days of throughput and turns per year.",
-    ),
-    "mode_economics": (
-        "Mode economics",
-        "Every admissible mode of the busiest lanes: yearly cost and CO2e if the "
-        "lane's whole volume went by that mode, and the cost of switching to it.",
-    ),
-}
-KNOWN_COLUMNS = {  # extra table name → the columns worth showing on the page (all are in the workbook)
-    "safety_stock": [
-        "dc",
-        "product",
-        "throughput",
-        "customers_served",
-        "lead_days",
-        "ss_units_model",
-        "ss_units_exact",
-        "pwl_rel_error",
-        "cost_model",
-    ],
-    "spof": [
-        "rank",
-        "element",
-        "type",
-        "base_units",
-        "recovery_cost",
-        "lost_units",
-        "lost_value",
-        "impact",
-        "customers_affected",
-        "took_over",
-    ],
-    "exposure": ["rank", "node", "type", "ttr_days", "tts_days", "lost_units", "lost_value", "rei", "tts_below_ttr"],
-    "pipeline": [
-        "origin",
-        "destination",
-        "mode",
-        "product",
-        "quantity",
-        "transit_days",
-        "in_transit_units",
-        "in_transit_value",
-    ],
-    "inventory_kpis": [
-        "level",
-        "dc",
-        "throughput_units",
-        "safety_stock_units",
-        "safety_stock_value",
-        "pipeline_value",
-        "inventory_value",
-        "days_on_hand",
-        "days_incl_transit",
-        "turns",
-    ],
-    "mode_economics": [
-        "origin",
-        "destination",
-        "product",
-        "mode",
-        "chosen",
-        "share",
-        "transit_days",
-        "total_cost",
-        "co2_kg",
-        "switch_cost",
-        "cost_per_t_co2_saved",
-    ],
-}
-KNOWN_ORDER = {  # extra table name → (sort columns, ascending, rows shown): the largest first
-    "pipeline": (["in_transit_value"], [False], 25),
-    "mode_economics": (
-        ["quantity", "origin", "destination", "product", "total_cost"],
-        [False, True, True, True, True],
-        30,
-    ),
-}
-KNOWN_COLUMNS["spof_ranking"] = KNOWN_COLUMNS["spof"]
-STANDARD_TABLES = {"flows", "production", "dcs", "supplier_shares", "mode_mix", "service", "unmet", "cost", "kpis"}
 ASSETS = Path(__file__).resolve().parents[1] / "report_assets"
 
 
@@ -174,7 +60,13 @@ def _currency(result) -> str:
 
 
 def _status_class(status: str) -> str:
-    return "ok" if status == "optimal" else "warn" if status in ("time_limit", "gap_limit", "feasible") else "bad"
+    return (
+        "ok"
+        if status in ("optimal", "baseline")
+        else "warn"
+        if status in ("time_limit", "gap_limit", "feasible")
+        else "bad"
+    )
 
 
 TILES = (  # the indicators shown as tiles at the top, in order
@@ -216,6 +108,9 @@ def _verification(result) -> dict:
         return {"text": "not checked", "cls": "warn"}
     if v.passed:
         return {"text": f"passed (largest violation {v.largest_violation:.1e})", "cls": "ok"}
+    rules = result.tables.get("baseline_rules")
+    if rules is not None and v.objective_rel_diff <= 1e-6:  # today's flows: the cost checked, the rules are findings
+        return {"text": f"cost passed; {len(rules)} rule(s) today's flows do not meet", "cls": "warn"}
     return {"text": f"FAILED: {v.largest_violation_rule} off by {v.largest_violation:.3g}", "cls": "bad"}
 
 
@@ -324,6 +219,9 @@ def render_report(run_or_result, extra: dict[str, pd.DataFrame] | None = None, c
         "currency": currency,
         "status": base.status,
         "status_cls": _status_class(base.status),
+        "kicker": "today's flows costed, nothing optimised"
+        if "baseline_cost" in base.tables
+        else "network design report",
         "gap": f"{base.gap:.3%}" if base.gap is not None and np.isfinite(base.gap) else "–",
         "verification": _verification(base) if base.has_solution else {"text": "no plan to check", "cls": "bad"},
         "disclaimer": DISCLAIMER,

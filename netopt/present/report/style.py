@@ -62,6 +62,7 @@ COST_COLOURS = {
     "dc_closing": "#6aa39d",
     "dc_handling": "#9cc7bf",
     "transport": "#d8772a",
+    "duties": "#7a4a8f",
     "pipeline_inventory": "#5f86ab",
     "safety_stock": "#a7c1da",
     "carbon": "#5b8a3a",
