@@ -66,6 +66,22 @@ def test_cost_to_serve_with_closing_costs_late_deliveries_and_lost_demand():
     assert _components_sum(c) == pytest.approx(r.objective, rel=1e-9)
 
 
+def test_cost_to_serve_carries_opening_costs_as_overhead():
+    # An opening cost no path carries: it is overhead, and the rows still sum to the objective.
+    case = _rebuilt(
+        netopt.load_case("cases/brackenholt"),
+        edit=lambda t: t["dcs"].__setitem__("opening_cost", 250_000.0),
+        settings=FAST,
+    )
+    d = case.tables["dcs"]
+    hold = {dc: st == "existing" or dc == "DC_ORLEANS" for dc, st in zip(d["dc"], d["status"])}
+    r = netopt.solve(case, hold=hold)
+    c = r.tables["cost_to_serve"]
+    assert r.cost["dc_opening"] == pytest.approx(250_000.0)
+    assert c["overhead"].sum() == pytest.approx(r.cost["dc_opening"] + r.cost.get("dc_closing", 0.0), rel=1e-9)
+    assert _components_sum(c) == pytest.approx(r.objective, rel=1e-9)
+
+
 @pytest.mark.parametrize("seed", [1, 7, 19])
 def test_cost_to_serve_sums_to_the_objective_on_random_cases(seed):
     r = netopt.solve(random_case(seed, settings=FAST))

@@ -19,7 +19,9 @@ from scipy.optimize import linprog
 from netopt.data.case import CaseError
 from netopt.data.frames import make_case
 from netopt.data.periods import horizon
+from netopt.engine.baseline import cost_current_flows
 from netopt.engine.solve import solve
+from netopt.studies.comparison import cost_comparable_to_today
 
 
 def _periods(names, years=None, **cols) -> pd.DataFrame:
@@ -147,6 +149,21 @@ def test_phasing_equals_brute_force_over_opening_schedules(seed):
     assert best_sched is not None
 
 
+def test_baseline_of_a_plan_over_periods_is_its_first_year():
+    # The calibration identity of the baseline (today's flows = the plan's own flows cost the plan's
+    # cost, to 1e-9) for the first period of a plan over periods: a baseline is one year, the first.
+    case = _with_periods(_growing_case(12, [1.0, 1.6, 2.4]), _periods(["Y1", "Y2", "Y3"]), discount_rate=0.1)
+    case.tables["dcs"]["status"] = ["existing", "candidate", "candidate"]
+    r = solve(case)
+    assert r.status == "optimal"
+    f = r.tables["flows"]
+    today = case.copy()
+    today.tables["current_flows"] = f[f["period"] == "Y1"][["origin", "destination", "mode", "product", "quantity"]]
+    res = cost_current_flows(today)
+    assert res.verification.passed and "first period" in res.message
+    assert res.objective == pytest.approx(cost_comparable_to_today(r), rel=1e-9)
+
+
 def test_candidate_opens_once_demand_has_grown_past_the_threshold():
     # A plant in Berlin, an existing DC in Hamburg and a candidate in Munich beside the customer: the
     # candidate saves the Hamburg detour (about 0.36 per unit) against a fixed cost of 3,000 a year, so it
@@ -260,6 +277,24 @@ def test_seasonal_prebuild_carries_the_hand_formula_and_matches_linprog():
     lp = linprog(c, A_eq=np.array(A_eq, float), b_eq=b_eq, bounds=bounds, method="highs")
     assert lp.status == 0
     assert r.objective == pytest.approx(lp.fun + 1000.0 * 1.0, rel=1e-9)  # + the DC's fixed cost for the year
+
+
+def test_cost_to_serve_of_each_season_sums_to_its_cost_with_stock_built_ahead():
+    # Cost to serve by flow conservation (the identity the one-year rows obey): per period, the rows sum to
+    # the period's annual cost; the low season's units left in stock for the peak are its stock_built,
+    # and the peak, drawing on stock paid in the low season, builds none.
+    r = solve(_seasonal_case(10_000.0, 6_000.0, 13_000.0))
+    assert r.status == "optimal" and r.verification.passed
+    cts, pc = r.tables["cost_to_serve"], r.tables["period_cost"]
+    for period in ("low", "peak"):
+        annual = pc[(pc["period"] == period)]["annual"].sum()
+        assert cts[cts["period"] == period]["cost"].sum() == pytest.approx(annual, rel=1e-9)
+    built = cts.groupby("period")["stock_built"].sum()
+    # 1,500 units over half a year = 3,000 units/yr left in stock, each worth at least the plant's 5 a unit.
+    assert built["low"] >= 3_000.0 * 5.0 - 1e-6
+    assert built["peak"] == pytest.approx(0.0, abs=1e-6)
+    # Marginal values are one year's: over periods they are not computed, and the result says so.
+    assert r.tables["shadow_prices"].empty and "not computed for a plan over periods" in r.message
 
 
 def test_seasonal_peak_without_stock_loses_demand_or_is_infeasible():

@@ -386,8 +386,8 @@ _table(
         "float",
         "currency/yr",
         "saving vs today",
-        "Today's cost (the case's current_flows costed as netopt baseline does) minus this total; blank without "
-        "current_flows",
+        "Today's cost (the case's current_flows costed as netopt baseline does) minus this total (a plan over "
+        "periods: minus its first period's annual cost); blank without current_flows",
         signed=True,
         sense=-1,
     ),

@@ -27,6 +27,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
+from netopt.data.periods import has_periods, horizon, period_case
 from netopt.data.settings_schema import ACTUAL_SPEND
 from netopt.data.text import row_number
 from netopt.engine.extract import extract
@@ -39,6 +40,7 @@ from netopt.network.arcs import Network, build_network
 from netopt.network.lanes import case_lanes
 
 ARC_KEYS = ["origin", "destination", "mode", "product"]
+TODAY_IS_FIRST_PERIOD = "a case with periods: today's flows costed against the first period's demand and capacities"
 BASELINE_STATUS = "baseline"
 """Status of a baseline result: today's flows costed, not a solve."""
 
@@ -197,6 +199,11 @@ def cost_current_flows(case: Case, lanes: pd.DataFrame | None = None) -> Result:
     has no lane (every such row at once)."""
     if case.tables["current_flows"].empty:
         raise CaseError([Problem("current_flows", None, None, "no current flows: a baseline needs today's flows")])
+    year_note = ""
+    if has_periods(case):  # today is one year: the plan's first period
+        first = str(horizon(case)["period"].iloc[0])
+        case = period_case(case, first, 0)
+        year_note = f"{TODAY_IS_FIRST_PERIOD} ({first})"
     if lanes is None:
         lanes = case_lanes(case)
     net = build_network(case, lanes, prune=False)  # a dearer mode that runs today is costed as it runs
@@ -204,7 +211,7 @@ def cost_current_flows(case: Case, lanes: pd.DataFrame | None = None) -> Result:
     values, notes = current_values(case, net, b)
     total = float(sum(b.component_values(values).values()))
     info = SolveInfo(BASELINE_STATUS, total, float("nan"), float("nan"), 0.0, has_solution=True)
-    res = Result.of(case.name, info, message="; ".join(notes), network=net, lanes=lanes)
+    res = Result.of(case.name, info, message="; ".join(n for n in (year_note, *notes) if n), network=net, lanes=lanes)
     out = extract(case, lanes, net, b, values, total)
     res.tables, res.verification = out.tables, out.verification
     res.tables["baseline_cost"] = spend_comparison(res.cost, case.settings)

@@ -14,9 +14,19 @@ n = (site, p) ready to ship is the inflow-weighted average of what arrived, plus
 
 The DC rows are one sparse linear system (a DC may feed another).  A customer's cost of product p is
 Σ_{a ∈ in(c,p)} (x_a u_{o(a),p,k} + C_{a,k}), plus its late-delivery cost (split over its products by
-demand) and its lost demand at the penalty.  What no path carries (closing costs, the fixed cost of a
-DC without throughput) is ``overhead``, allocated in proportion to demand.  Transport is split by leg
-(``transport_<leg>``).  Flow conservation at every site makes the rows sum to the total landed cost.
+demand) and its lost demand at the penalty.  What no path carries (opening and closing costs, the
+fixed cost of a DC without throughput, the holding cost of stock carried between periods) is
+``overhead``, allocated in proportion to demand.
+
+In a period of a plan over periods stock carried between periods enters the balance (s⁰, s¹: opening
+and closing units of the period, n its length in years).  What a node has to ship per year is its
+inflow plus the opening stock, A = I + s⁰/n, so a DC's unit cost is (Σ_in + E) / A and the cost of the
+units left in closing stock, (s¹/n) u, goes to ``stock_built`` (it serves later periods; the opening
+stock's cost was counted in the period that built it).  At a plant the unit cost per unit made,
+u_f, is spread over the units it can ship, u'_f = u_f P / (P + s⁰/n), with P = shipped + (s¹ − s⁰)/n
+made per year.  ``stock_built`` is allocated in proportion to demand.  Transport is split by leg
+(``transport_<leg>``).  Flow conservation at every site makes the rows sum to the total landed cost
+(of the period, in a plan over periods).
 With an optional ``price`` per demand row: revenue = delivered × price, margin = revenue − cost, ranked by
 margin share = margin / revenue (least profitable first).
 """
@@ -29,6 +39,9 @@ import scipy.sparse as sp
 from scipy.sparse.linalg import spsolve
 
 from netopt.network.arcs import Network
+
+OVERHEAD_COMPONENTS = ("dc_opening", "dc_closing", "stock_holding")
+"""Cost components no path carries, allocated to the rows in proportion to demand."""
 
 ARC_COMPONENTS = {  # component → flows-table column carrying it
     "supply": "supply_cost",
@@ -97,6 +110,17 @@ def cost_to_serve(
         per = mat_unit.reindex(idx).fillna(0.0).to_numpy(float) * use["quantity_per_unit"].to_numpy(float)[:, None]
         np.add.at(u_plant, use["index"].to_numpy(int), per)
     plant_pos = pd.Series(np.arange(len(make)), index=pd.MultiIndex.from_frame(make[["plant", "product"]]))
+    s0, s1 = _stock_rates(tables.get("stock"))
+    built = 0.0
+    if len(s0):
+        shipped = pd.Series(q[okind == "plant"]).groupby([org[okind == "plant"], prod[okind == "plant"]]).sum()
+        key = pd.MultiIndex.from_frame(make[["plant", "product"]])
+        ship = shipped.reindex(key).fillna(0.0).to_numpy(float)
+        a0, a1 = s0.reindex(key).fillna(0.0).to_numpy(float), s1.reindex(key).fillna(0.0).to_numpy(float)
+        can_ship = ship + a1  # = P + s⁰/n
+        scale = np.where(can_ship > 0, (can_ship - a0) / np.where(can_ship > 0, can_ship, 1.0), 1.0)
+        u_plant = u_plant * scale[:, None]
+        built += float((a1[:, None] * u_plant).sum())
 
     # DCs: one linear system over (DC, product) nodes.
     into_dc = dkind == "dc"
@@ -108,6 +132,8 @@ def cost_to_serve(
     if n:
         r = node_pos.reindex(pd.MultiIndex.from_arrays([dst[into_dc], prod[into_dc]])).to_numpy(int)
         np.add.at(inflow, r, q[into_dc])
+        on_hand = s0.reindex(nodes).fillna(0.0).to_numpy(float) if len(s0) else np.zeros(n)
+        left = s1.reindex(nodes).fillna(0.0).to_numpy(float) if len(s1) else np.zeros(n)
         np.add.at(rhs, r, C[into_dc])
         from_plant = okind[into_dc] == "plant"
         if from_plant.any():
@@ -122,13 +148,15 @@ def cost_to_serve(
         rhs[:, k_of["dc_fixed"]] += np.where(through > 0, fixed * inflow / np.where(through > 0, through, 1.0), 0.0)
         rhs[:, k_of["safety_stock"]] += _safety_stock_by_node(tables, cost, nodes)
         from_dc = okind[into_dc] == "dc"
-        A = sp.diags(inflow).tocsr()
+        A = sp.diags(inflow + on_hand).tocsr()
         if from_dc.any():
             src = node_pos.reindex(
                 pd.MultiIndex.from_arrays([org[into_dc][from_dc], prod[into_dc][from_dc]])
             ).to_numpy()
             A = A - sp.csr_matrix((q[into_dc][from_dc], (r[from_dc], src.astype(int))), shape=(n, n))
-        u_dc = np.asarray(spsolve(A.tocsc(), rhs)).reshape(n, K) if n > 1 else rhs / max(inflow[0], 1e-300)
+        avail = inflow + on_hand
+        u_dc = np.asarray(spsolve(A.tocsc(), rhs)).reshape(n, K) if n > 1 else rhs / max(avail[0], 1e-300)
+        built += float((left[:, None] * u_dc).sum())
     else:
         u_dc = np.zeros((0, K))
 
@@ -165,7 +193,8 @@ def cost_to_serve(
     )
     share = out["demand"] / out["demand"].sum() if out["demand"].sum() > 0 else 0.0
     out["overhead"] = _overhead(tables, cost) * share
-    parts = comps + ["late_delivery", "unmet_penalty", "overhead"]
+    out["stock_built"] = built * share
+    parts = comps + ["late_delivery", "unmet_penalty", "overhead", "stock_built"]
     out["cost"] = out[parts].sum(axis=1)
     out["cost_per_unit"] = out["cost"] / out["delivered"].where(out["delivered"] > 0)
     price = _prices(demand, dem)
@@ -184,10 +213,21 @@ def cost_to_serve(
 
 
 def _overhead(tables: dict[str, pd.DataFrame], cost: dict[str, float]) -> float:
-    """What no path carries (currency/yr): closing costs and the fixed cost of open DCs without throughput."""
+    """What no path carries (currency/yr): :data:`OVERHEAD_COMPONENTS` and the fixed cost of open DCs
+    without throughput."""
     d = tables["dcs"]
     idle = d["open"].astype(bool) & (d["throughput"].astype(float) <= 0)
-    return float(cost.get("dc_closing", 0.0)) + float(d.loc[idle, "fixed_cost"].astype(float).sum())
+    one_off = sum(float(cost.get(c, 0.0)) for c in OVERHEAD_COMPONENTS)
+    return one_off + float(d.loc[idle, "fixed_cost"].astype(float).sum())
+
+
+def _stock_rates(stock: pd.DataFrame | None) -> tuple[pd.Series, pd.Series]:
+    """Opening and closing stock per year of the period (s⁰/n, s¹/n, units/yr) by (site, product)."""
+    if stock is None or stock.empty:
+        return pd.Series(dtype=float), pd.Series(dtype=float)
+    by = stock.set_index([stock["site"].astype(str), stock["product"].astype(str)])
+    years = by["years"].astype(float)
+    return by["opening"].astype(float) / years, by["closing"].astype(float) / years
 
 
 def _safety_stock_by_node(tables: dict[str, pd.DataFrame], cost: dict[str, float], nodes: pd.MultiIndex) -> np.ndarray:

@@ -21,6 +21,7 @@ from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import cost_components, extract
 from netopt.engine.highs import SolveInfo, compile_model
 from netopt.engine.highs_check import ModelRejected
+from netopt.engine.marginal_values import REDUCED_COLUMNS, SHADOW_COLUMNS
 from netopt.engine.one_year import solve_year
 from netopt.engine.result import Result, fixed_options
 from netopt.engine.verify_horizon import verify_horizon
@@ -141,6 +142,10 @@ def solve_horizon(
             case, cases, lanes, nets, builders, top, per, values, info.objective
         )
         timings["results"] = time.perf_counter() - t0
+        if bool(case.settings["solver"]["marginal_values"]):
+            res.tables["shadow_prices"] = pd.DataFrame(columns=SHADOW_COLUMNS)
+            res.tables["lane_reduced_costs"] = pd.DataFrame(columns=REDUCED_COLUMNS)
+            res.message = "; ".join(x for x in (res.message, MARGINAL_VALUES_NOT_OVER_PERIODS) if x)
         res.plan_values = values
         say("verified", {"passed": res.verification.passed, "largest": res.verification.largest_violation})
     elif info.status in ("infeasible", "unbounded") and diagnose:
@@ -283,6 +288,11 @@ def _horizon_tables(case, cases, lanes, nets, builders, top, per, values, object
     tables["cost"] = pd.DataFrame({"component": list(pv.index), "amount": pv.to_numpy(float)})
     return tables, verify_horizon(case, tables, per, verifications, objective)
 
+
+MARGINAL_VALUES_NOT_OVER_PERIODS = (
+    "shadow prices and lane reduced costs are not computed for a plan over periods (the held linear program "
+    "is one year's); their tables are written empty"
+)
 
 PHASING_STATES = ("opens", "open", "closes", "closed")
 """A DC's state in a period: opens (opened at the start of it), open, closes (closed at the start of it), closed."""

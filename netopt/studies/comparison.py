@@ -44,6 +44,18 @@ def lost_where(unmet: pd.DataFrame, most: int = 3) -> str:
     return text + (f"; +{len(by) - most} more customers" if len(by) > most else "")
 
 
+def cost_comparable_to_today(r) -> float:
+    """What a plan costs per year against today's flows (currency/yr): its total, or for a plan over
+    periods its first period's annual cost (one-off costs left out), as a baseline is one year."""
+    if not r.has_solution:
+        return float("nan")
+    if r.periods is None:
+        return float(r.objective)
+    pc = r.tables["period_cost"]
+    first = str(r.periods["period"].iloc[0])
+    return float(pc.loc[pc["period"].astype(str) == first, "annual"].sum())
+
+
 def comparison_row(
     name: str,
     based_on: str,

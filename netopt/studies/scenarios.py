@@ -49,7 +49,7 @@ from netopt.engine.result import Result
 from netopt.engine.solve import solve
 from netopt.studies.case_edit import CaseEdit, site_kinds
 from netopt.studies.changes import CHANGE_KINDS, resolve_held
-from netopt.studies.comparison import comparison_row, dc_decisions, share_changes
+from netopt.studies.comparison import comparison_row, cost_comparable_to_today, dc_decisions, share_changes
 from netopt.studies.frontier import FRONTIER_ONE_YEAR, scenario_frontier
 from netopt.studies.scenario_defs import (  # the definitions are read there; callers may import them from here
     PRICED_SUFFIX,  # noqa: F401
@@ -327,7 +327,8 @@ def run_scenarios(
     if not case.tables["current_flows"].empty:  # savings against today as well as against the base
         today = cost_current_flows(case, lanes=base.lanes)
         insert_at = run.comparison.columns.get_loc("delta_pct") + 1 if "delta_pct" in run.comparison else 0
-        run.comparison.insert(insert_at, "saving_vs_today", today.objective - run.comparison["total_cost"])
+        comparable = run.comparison["scenario"].map(lambda lab: cost_comparable_to_today(run.results[lab]))
+        run.comparison.insert(insert_at, "saving_vs_today", today.objective - comparable)
         run.today = today
     run.dc_decisions = pd.concat(decisions, ignore_index=True)
     if shares:
