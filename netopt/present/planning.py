@@ -21,7 +21,7 @@ from netopt.network.cities import CITY_SOURCE
 from netopt.present.files import _jsonable, atomic_folder, write_result_csv, write_workbook
 from netopt.present.formats import cell_text, column_kind
 from netopt.present.report.study_page import classify_sections, sites_sections, write_study
-from netopt.present.terminal import new_console
+from netopt.present.terminal import new_console, show
 from netopt.studies.classify import Rule, class_summary, classes_into_case, classify_items
 from netopt.studies.dc_count import dc_count_curve
 from netopt.studies.sites import add_dc_changes, cluster_sweep, demand_points, propose_sites
@@ -41,7 +41,7 @@ def print_table(df: pd.DataFrame, source: str, title: str, columns: list[str] | 
         t.add_column(label_of(source, c), justify="right" if df[c].dtype.kind in "fi" else "left")
     for rec in df[cols].head(rows).itertuples(index=False):
         t.add_row(*[escape(cell_text(v, column_kind(source, c))) for v, c in zip(rec, cols)])
-    new_console().print(t)
+    show(new_console(), t)
 
 
 def run_classify(

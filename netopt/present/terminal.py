@@ -33,6 +33,23 @@ def new_console():
     return Console(highlight=False, width=width)
 
 
+def show(con, table) -> None:
+    """Print ``table``; written to a pipe or file (no terminal to wrap for), at its natural width, so a
+    wide table is never squeezed until its columns vanish."""
+    from rich.measure import Measurement
+
+    if con.is_terminal:
+        con.print(table)
+        return
+    need = Measurement.get(con, con.options.update_width(100_000), table).maximum
+    was = con.width
+    con.width = max(was, need)  # print() clamps its width to the console's
+    try:
+        con.print(table)
+    finally:
+        con.width = was
+
+
 def money_text(x) -> str:
     """Money with thousands separators, no decimals; '–' when blank or infinite."""
     if x is None or (isinstance(x, float) and (math.isnan(x) or math.isinf(x))):
@@ -68,7 +85,7 @@ def print_result(result, console=None) -> None:
             t.add_column(label_of("diagnosis", str(c)))
         for row in result.diagnosis.itertuples(index=False):
             t.add_row(*[escape(f"{v:,.1f}") if isinstance(v, float) else escape(str(v)) for v in row])
-        con.print(t)
+        show(con, t)
         return
     if not result.has_solution:
         if result.message:  # why there is no plan (e.g. HiGHS rejected the model)
@@ -88,7 +105,7 @@ def print_result(result, console=None) -> None:
         if abs(v) > 0.5:
             t.add_row(escape(k.replace("_", " ")), money_text(v), f"{v / total:.1%}" if total else "")
     t.add_row("[bold]total[/bold]", f"[bold]{money_text(total)}[/bold]", "100%")
-    con.print(t)
+    show(con, t)
     d = result.tables["dcs"]
     t = Table(title="DCs")
     cols = ("dc", "status", "decision", "throughput", "utilisation")
@@ -96,7 +113,7 @@ def print_result(result, console=None) -> None:
         t.add_column(label_of("dcs", c), justify="right" if c in ("throughput", "utilisation") else "left")
     for row in d[list(cols)].itertuples(index=False):
         t.add_row(*[escape(cell_text(v, column_kind("dcs", c))) for v, c in zip(row, cols)])
-    con.print(t)
+    show(con, t)
     k = result.tables["kpis"]
     t = Table(title="Key indicators")
     t.add_column("indicator")
@@ -109,7 +126,7 @@ def print_result(result, console=None) -> None:
             escape(cell_text(row.value, kind)),
             escape(unit_text(_kpi_unit(row.kpi, row.unit), currency)),
         )
-    con.print(t)
+    show(con, t)
     _print_check(result, con)
 
 
@@ -149,7 +166,7 @@ def _print_horizon(result, con, currency: str) -> None:
     t.add_row(
         "[bold]total[/bold]", *[money_text(totals.get(p, 0.0)) for p in names], f"[bold]{money_text(pv.sum())}[/bold]"
     )
-    con.print(t)
+    show(con, t)
     ph = result.tables["phasing"]
     t = Table(title="DC phasing (state in each period)")
     t.add_column(label_of("phasing", "dc"))
@@ -159,7 +176,7 @@ def _print_horizon(result, con, currency: str) -> None:
     for dc, g in ph.groupby("dc", sort=False):
         states = dict(zip(g["period"].astype(str), g["state"]))
         t.add_row(escape(str(dc)), escape(str(g["status"].iloc[0])), *[escape(states.get(p, "")) for p in names])
-    con.print(t)
+    show(con, t)
     k = result.tables["kpis"]
     t = Table(title="Key indicators per period")
     t.add_column("indicator")
@@ -174,7 +191,7 @@ def _print_horizon(result, con, currency: str) -> None:
             *[escape(cell_text(vals.get(p, float("nan")), kind)) for p in names],
             escape(unit_text(_kpi_unit(kpi, g["unit"].iloc[0]), currency)),
         )
-    con.print(t)
+    show(con, t)
 
 
 def _kpi_unit(kpi: str, written: str) -> str:
@@ -191,7 +208,9 @@ def print_comparison(comparison, console=None) -> None:
 
     con = console or new_console()
     cols = [c for c in TERMINAL_VIEW if c in comparison.columns]
-    t = Table(title="Scenario comparison (money per year; Δ = recovery cost for disruptions)")
+    over_periods = any(str(c).startswith("period_") for c in comparison.columns)
+    money = "money as present values over the periods" if over_periods else "money per year"
+    t = Table(title=f"Scenario comparison ({money}; Δ = recovery cost for disruptions)")
     rows = []
     within = comparison["within_gap"] if "within_gap" in comparison else pd.Series(False, index=comparison.index)
     for (_, row), in_gap in zip(comparison[cols].iterrows(), within):
@@ -219,7 +238,7 @@ def print_comparison(comparison, console=None) -> None:
         )
     for cells in rows:
         t.add_row(*cells)
-    con.print(t)
+    show(con, t)
     for note in comparison_notes(comparison):
         con.print(f"[yellow]![/yellow] {escape(note)}")
 
@@ -235,7 +254,7 @@ def print_frontier(table, console=None) -> None:
         t.add_column(label_of("frontier", c), justify="left" if c == "mode_mix" else "right")
     for row in table[cols].itertuples(index=False):
         t.add_row(*[escape(cell_text(v, column_kind("frontier", c))) for v, c in zip(row, cols)])
-    (console or new_console()).print(t)
+    show(console or new_console(), t)
 
 
 def print_dc_matrix(matrix, console=None) -> None:
@@ -246,14 +265,20 @@ def print_dc_matrix(matrix, console=None) -> None:
     if matrix.empty:
         return
     con = console or new_console()
-    by_solve = matrix.set_index("dc").T
     t = Table(title="DC decisions by scenario (decision · throughput units/yr)")
-    t.add_column("scenario", overflow="fold", min_width=min(24, max(len(str(s)) for s in by_solve.index)))
-    for dc in by_solve.columns:
-        t.add_column(escape(str(dc)), overflow="fold")
-    for solve, row in by_solve.iterrows():
-        t.add_row(escape(str(solve)), *(escape(str(v)) for v in row))
-    con.print(t)
+    if "period" in matrix.columns:  # a plan over periods: one row per DC and period, one column per solve
+        for c in matrix.columns:
+            t.add_column(escape(str(c)), no_wrap=True)
+        for row in matrix.itertuples(index=False):
+            t.add_row(*(escape(str(v)) for v in row))
+    else:
+        by_solve = matrix.set_index("dc").T
+        t.add_column("scenario", overflow="fold", min_width=min(24, max(len(str(s)) for s in by_solve.index)))
+        for dc in by_solve.columns:
+            t.add_column(escape(str(dc)), overflow="fold")
+        for solve, row in by_solve.iterrows():
+            t.add_row(escape(str(solve)), *(escape(str(v)) for v in row))
+    show(con, t)
 
 
 def print_mix_changes(mode_matrix, share_changes, console=None) -> None:
@@ -269,7 +294,7 @@ def print_mix_changes(mode_matrix, share_changes, console=None) -> None:
             t.add_column(escape(str(m)), justify="right")
         for row in mode_matrix.itertuples(index=False):
             t.add_row(escape(str(row[0])), *(cell_text(v, "share") for v in row[1:]))
-        con.print(t)
+        show(con, t)
     if not share_changes.empty:
         cols = ["scenario", "site", "product", "supplier", "base_share", "share", "change"]
         t = Table(title="Largest supplier share changes against the base (share of the site's supply)")
@@ -283,7 +308,7 @@ def print_mix_changes(mode_matrix, share_changes, console=None) -> None:
                 *(escape(str(v)) for v in row[:4]),
                 *(cell_text(v, column_kind("supplier_share_changes", c)) for v, c in zip(row[4:], cols[4:])),
             )
-        con.print(t)
+        show(con, t)
 
 
 def print_baseline(result, console=None) -> None:
@@ -308,7 +333,7 @@ def print_baseline(result, console=None) -> None:
         if abs(row.model_cost) > 0.5 or not pd.isna(row.actual_spend):
             t.add_row(*[escape(cell_text(v, column_kind("baseline_cost", c))) for v, c in zip(row, cols)])
     t.add_row("[bold]total[/bold]", f"[bold]{money_text(bc['model_cost'].sum())}[/bold]", "", "", "")
-    con.print(t)
+    show(con, t)
     for note in [n for n in result.message.split("; ") if n]:
         con.print(escape(f"note: {note}"))
     rules = result.tables["baseline_rules"]
@@ -318,7 +343,7 @@ def print_baseline(result, console=None) -> None:
             t.add_column(label_of("baseline_rules", str(c)))
         for row in rules.itertuples(index=False):
             t.add_row(*[escape(cell_text(v, column_kind("baseline_rules", c))) for v, c in zip(row, rules.columns)])
-        con.print(t)
+        show(con, t)
     v = result.verification
     if v is not None:
         ok = v.objective_rel_diff <= 1e-6
