@@ -51,15 +51,21 @@ def site_regions(case: Case) -> pd.Series:
     return pd.concat(parts).drop_duplicates("site").set_index("site")["region"].astype(str)
 
 
+def arc_countries(case: Case, arcs: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    """Country of each arc's origin and destination ("" where a site has none)."""
+    ctry = site_countries(case)
+    o = arcs["origin"].map(ctry).fillna("").astype(str).to_numpy()
+    d = arcs["destination"].map(ctry).fillna("").astype(str).to_numpy()
+    return o, d
+
+
 def border_crossings(case: Case, arcs: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     """Border days δ_a and cost b_a (currency/unit) of each arc (see the module docstring)."""
     n = len(arcs)
     borders = case.tables["borders"]
     if borders.empty or n == 0:
         return np.zeros(n), np.zeros(n)
-    ctry = site_countries(case)
-    o = arcs["origin"].map(ctry).fillna("").astype(str).to_numpy()
-    d = arcs["destination"].map(ctry).fillna("").astype(str).to_numpy()
+    o, d = arc_countries(case, arcs)
     b = borders.assign(_cost_t=borders["cost_per_tonne"].astype(float), _cost_u=borders["cost_per_unit"].astype(float))
     ahead = b[["origin_country", "destination_country", "days", "_cost_u", "_cost_t"]]
     back = b.loc[b["both_ways"].astype(bool), ["destination_country", "origin_country", "days", "_cost_u", "_cost_t"]]
@@ -97,9 +103,7 @@ def duty_rates(case: Case, arcs: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
     duties = case.tables["duties"]
     if duties.empty or n == 0:
         return np.zeros(n), np.zeros(n)
-    ctry = site_countries(case)
-    o = arcs["origin"].map(ctry).fillna("").astype(str).to_numpy()
-    d = arcs["destination"].map(ctry).fillna("").astype(str).to_numpy()
+    o, d = arc_countries(case, arcs)
     reg = arcs["origin"].map(site_regions(case)).fillna("").astype(str).to_numpy()
     p = arcs["product"].astype(str).to_numpy()
     table = duties.set_index(["origin", "destination", "product"])[["ad_valorem", "per_unit"]].astype(float)

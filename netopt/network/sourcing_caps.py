@@ -57,13 +57,7 @@ def share_caps(
     the case's ``sourcing_shares`` table."""
     if not len(pairs):
         return np.zeros(0)
-    own = (
-        suppliers.set_index([suppliers["supplier"].astype(str), suppliers["product"].astype(str)])["max_share"]
-        if "max_share" in suppliers
-        else pd.Series(dtype=float)
-    )
-    keys = pd.MultiIndex.from_arrays([pairs["supplier"].astype(str), pairs["product"].astype(str)])
-    by_supplier = own.reindex(keys).to_numpy(float) if len(own) else np.full(len(pairs), np.nan)
+    by_supplier = _offer_values(suppliers, pairs, "max_share")
     by_site = (
         pairs["site"].astype(str).map(site_caps).to_numpy(float) if len(site_caps) else np.full(len(pairs), np.nan)
     )
@@ -72,17 +66,21 @@ def share_caps(
     return np.minimum(caps, 1.0)
 
 
+def _offer_values(suppliers: pd.DataFrame, pairs: pd.DataFrame, column: str) -> np.ndarray:
+    """The suppliers table's ``column`` for each row's (supplier, product) offer (NaN where not given)."""
+    if column not in suppliers:
+        return np.full(len(pairs), np.nan)
+    own = suppliers.set_index([suppliers["supplier"].astype(str), suppliers["product"].astype(str)])[column]
+    keys = pd.MultiIndex.from_arrays([pairs["supplier"].astype(str), pairs["product"].astype(str)])
+    return own.reindex(keys).to_numpy(float) if len(own) else np.full(len(pairs), np.nan)
+
+
 def share_floors(suppliers: pd.DataFrame, pairs: pd.DataFrame, pair_table: pd.DataFrame | None = None) -> np.ndarray:
     """μ_{j,p,s} for each row of ``pairs`` (columns site, product, supplier), as shares (0 = none)."""
     if not len(pairs):
         return np.zeros(0)
-    own = (
-        suppliers.set_index([suppliers["supplier"].astype(str), suppliers["product"].astype(str)])["min_share"]
-        if "min_share" in suppliers
-        else pd.Series(dtype=float)
-    )
     keys = pd.MultiIndex.from_arrays([pairs["supplier"].astype(str), pairs["product"].astype(str)])
-    by_supplier = own.reindex(keys).to_numpy(float) if len(own) else np.full(len(pairs), np.nan)
+    by_supplier = _offer_values(suppliers, pairs, "min_share")
     floors = np.fmax(by_supplier, _pair_values(pair_table, pairs, "min_share"))
     # An offer without capacity (a supplier taken out) holds no floor: it cannot deliver its share.
     cap = suppliers.set_index([suppliers["supplier"].astype(str), suppliers["product"].astype(str)])["capacity"]
