@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import re
@@ -379,6 +380,17 @@ def test_single_result_report(run, tmp_path):
     assert "comparison-table" not in p.tables
     assert "cost-table" in p.tables and "dc-table" in p.tables
     assert not list(tmp_path.glob(".report.html.tmp-*"))
+
+
+def test_an_empty_table_says_it_has_no_rows(run):
+    # A table the plan leaves empty (marginal values not computed, say) is said to be empty, not shown
+    # as headers without rows.
+    base = dataclasses.replace(run.base, tables=dict(run.base.tables), message="marginal values not computed")
+    base.tables["shadow_prices"] = base.tables["shadow_prices"].iloc[0:0]
+    page = render_report(base)
+    at = page.index('id="extra-shadow-prices"')
+    section = page[at : page.index("</section>", at)]
+    assert "No rows in this plan" in section and "table-shadow_prices" not in section
 
 
 @pytest.fixture(scope="module")

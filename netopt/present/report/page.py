@@ -143,6 +143,7 @@ def _extra_sections(tables: dict[str, pd.DataFrame], currency: str) -> list[dict
                 "title": title,
                 "note": note,
                 "chart": chart,
+                "empty": df.empty,
                 "table": table(shown, source, tid=f"table-{name}", max_rows=max_rows),
             }
         )
