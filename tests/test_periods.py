@@ -9,6 +9,7 @@ from memory); scipy.optimize.linprog for the seasonal LP; brute force over every
 from __future__ import annotations
 
 import itertools
+from types import SimpleNamespace
 
 import numpy as np
 import pandas as pd
@@ -20,6 +21,8 @@ from netopt.data.case import CaseError
 from netopt.data.frames import make_case
 from netopt.data.periods import horizon
 from netopt.engine.baseline import cost_current_flows
+from netopt.engine.highs import SolveInfo
+from netopt.engine.horizon import PERIODS_BOUND_USED, periods_bound, with_periods_bound
 from netopt.engine.solve import solve
 from netopt.studies.comparison import cost_comparable_to_today
 
@@ -147,6 +150,41 @@ def test_phasing_equals_brute_force_over_opening_schedules(seed):
     ph = r.tables["phasing"]
     assert set(ph["state"]) <= {"opens", "open", "closes", "closed"}
     assert best_sched is not None
+
+
+@pytest.mark.parametrize("seed", [11, 13])
+def test_periods_own_optima_bound_the_plan_from_below(seed):
+    # A relaxation bounds a minimum from below (e.g. Wolsey, Integer Programming, 1998, ch. 2 — from
+    # memory): dropping the rows that link the periods and the one-off costs leaves each period's own
+    # one-year problem, so Σ_k w_k OPT_k ≤ the brute-force optimum over every opening schedule.
+    case = _growing_case(seed, [1.0, 1.6, 2.4])
+    case = _with_periods(case, _periods(["Y1", "Y2", "Y3"]), discount_rate=0.1)
+    case.tables["dcs"]["status"] = ["existing", "candidate", "candidate"]
+    per = horizon(case)
+    names = ["Y1", "Y2", "Y3"]
+    w = per["annual_weight"].to_numpy(float)
+    # Each period alone (its own one-year optimum OPT_k, currency/yr): _schedule_cost weights it by w_k.
+    own = [_schedule_cost(case, per.iloc[[k]].reset_index(drop=True), [p], {}) / w[k] for k, p in enumerate(names)]
+    bound = periods_bound(SimpleNamespace(var_labels={}), own, w)
+    best = min(
+        _schedule_cost(case, per, names, dict(zip(["D1", "D2"], combo)))
+        for combo in itertools.product([0, 1, 2, None], repeat=2)
+    )
+    assert bound <= best * (1 + 1e-9)
+    r = solve(case)
+    assert r.status == "optimal" and r.objective >= bound * (1 - 1e-9)
+    # With stock carried the periods are linked the other way: no such bound.
+    with_stock = SimpleNamespace(var_labels={"stock": pd.DataFrame()})
+    assert periods_bound(with_stock, own, w) == -np.inf
+
+
+def test_the_periods_bound_tightens_the_gap_and_says_so():
+    info = SolveInfo("time_limit", 100.0, -np.inf, np.inf, 1.0, has_solution=True, message="time limit")
+    out = with_periods_bound(info, 99.0)
+    assert out.bound == 99.0 and out.gap == pytest.approx(0.01) and PERIODS_BOUND_USED in out.message
+    assert with_periods_bound(info, -np.inf) is info  # no bound: nothing changes
+    above = with_periods_bound(info, 101.0)  # cannot be; never used, and said
+    assert above.bound == -np.inf and "not used" in above.message
 
 
 def test_baseline_of_a_plan_over_periods_is_its_first_year():

@@ -9,6 +9,7 @@ horizon's own tables (phasing, cost per period, stock) verified by ``netopt.engi
 
 from __future__ import annotations
 
+import dataclasses
 import time
 
 import numpy as np
@@ -112,10 +113,11 @@ def solve_horizon(
                 say("progress", dict(d, method="MIP search", elapsed=time.perf_counter() - t_run))
 
         plans = [] if start_plan is None else [start_plan]
+        own_bound = -np.inf
         if (hold is not None or bool(case.settings["solver"]["plan_search"])) and hm.integrality.any():
             t0 = time.perf_counter()
             budget = float(case.settings["solver"]["plan_search_share"]) * time_limit
-            own = start_phasing(case, cases, lanes, nets, top, budget, mip_gap, threads, hold=hold)
+            own, own_bound = start_phasing(case, cases, lanes, nets, top, budget, mip_gap, threads, hold=hold)
             if own is not None and keeps_phasing_limits(top, per, own, case.tables["dcs"]):
                 plans.append(own)
             timings["plan_search"] = time.perf_counter() - t0
@@ -127,6 +129,7 @@ def solve_horizon(
             info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads, progress=cb)
         except ModelRejected as e:
             info = SolveInfo("error", float("nan"), float("nan"), float("inf"), 0.0, message=str(e))
+        info = with_periods_bound(info, own_bound)
     timings["highs"] = info.solver_seconds
     res = Result.of(
         case.name, info, timings=timings, model_size=size, message=info.message, network=nets[-1], lanes=lanes
@@ -157,7 +160,8 @@ def solve_horizon(
 
 
 def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float, threads: int, hold=None):
-    """A whole first plan of the stacked model (every block's values), or None.
+    """A whole first plan of the stacked model (every block's values, or None) and a lower bound of the
+    stacked model from the periods' own solves (−inf when there is none; see :func:`periods_bound`).
 
     Each period is planned as a case of its own (the one-year solve with its plan search); the plans are
     made to keep the phasing rules (a candidate open from the first period a plan opened it, an existing DC
@@ -173,11 +177,14 @@ def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float
     plans: list[dict[str, np.ndarray]] = []
     opens: list[np.ndarray] = []
     names = [str(p) for p in case.tables["periods"]["period"]]
+    weights = horizon(case)["annual_weight"].to_numpy(float)
+    bounds: list[float] = []
     for k, ck in enumerate(cases):
         held_k = None if hold is None else hold.get(names[k], {})
         r = solve_year(ck, time_limit=each, mip_gap=mip_gap, threads=threads, lanes=lanes, hold=held_k, diagnose=False)
+        bounds.append(float(r.bound) if r.bound is not None else -np.inf)
         if not r.has_solution or r.plan_values is None:
-            return None
+            return None, periods_bound(top, bounds, weights)
         y = np.asarray(r.plan_values["open"], float).round()
         if not reopening and k > 0 and hold is None:
             y = np.where(existing, np.minimum(y, opens[-1]), np.maximum(y, opens[-1]))
@@ -187,7 +194,7 @@ def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float
                 ck, time_limit=each, mip_gap=mip_gap, threads=threads, lanes=lanes, hold=held, diagnose=False
             )
             if not r.has_solution or r.plan_values is None:
-                return None
+                return None, periods_bound(top, bounds, weights)
         plans.append(dict(r.plan_values or {}))
         opens.append(y)
     values: dict[str, np.ndarray] = {}
@@ -204,7 +211,36 @@ def start_phasing(case, cases, lanes, nets, top, budget_s: float, mip_gap: float
     before = np.vstack([first, z[:-1]])
     values["opened"] = np.maximum(z - before, 0.0).ravel()
     values["closed"] = np.maximum(before - z, 0.0).ravel()
-    return values
+    return values, periods_bound(top, bounds, weights)
+
+
+PERIODS_BOUND_USED = "bound from the periods' own solves (stronger than the MIP search's)"
+
+
+def with_periods_bound(info: SolveInfo, bound: float) -> SolveInfo:
+    """``info`` with the periods' bound (:func:`periods_bound`) when it is stronger than the MIP search's;
+    the gap is recomputed from it and the message says so."""
+    own = info.bound if np.isfinite(info.bound) else -np.inf
+    if not (info.has_solution and np.isfinite(bound) and bound > own):
+        return info
+    if bound > info.objective + 1e-9 * max(1.0, abs(info.objective)):  # cannot be: a defect, said, not used
+        note = f"the periods' own bound ({bound:,.2f}) lies above the plan's cost: not used (a defect to report)"
+        return dataclasses.replace(info, message="; ".join(m for m in (info.message, note) if m))
+    gap = max(0.0, (info.objective - bound) / max(1.0, abs(info.objective)))
+    message = "; ".join(m for m in (info.message, PERIODS_BOUND_USED) if m)
+    return dataclasses.replace(info, bound=bound, gap=min(gap, info.gap), message=message)
+
+
+def periods_bound(top, bounds: list[float], weights: np.ndarray) -> float:
+    """A lower bound of the stacked model from each period's own lower bound LB_k (currency/yr):
+    Σ_k w_k LB_k.  Dropping the rows that link the periods (DC phasing, openings limits) and the one-off
+    costs (≥ 0) relaxes the plan into the periods' own one-year problems, whose costs the stack weights
+    by w_k (``periods.annual_weight``, > 0).  Valid only when no stock is carried between periods (the
+    stock rows link them the other way: a period alone may be dearer or infeasible); −inf otherwise or
+    when a period has no bound."""
+    if "stock" in top.var_labels or len(bounds) < len(weights) or not all(np.isfinite(bounds)):
+        return -np.inf
+    return float(np.dot(weights, bounds))
 
 
 def stock_not_carried(case: Case, top) -> str:
