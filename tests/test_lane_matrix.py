@@ -199,3 +199,18 @@ def test_mode_rate_scales_the_matrix_costs():
     change = {"kind": "scale_cost", "target": "mode_rate", "mode": "road", "factor": 2.0}
     lanes = case_lanes(apply_changes(case, Scenario("dear", [change])))
     assert _lane(lanes, "D1", "C1")["cost_per_unit"] == 4.0 and _lane(lanes, "D1", "C2")["distance_km"] == 200.0
+
+
+def test_a_blank_origin_is_said_once_and_its_cells_are_not_judged():
+    mx = pd.DataFrame(
+        [
+            {"origin": "", "mode": "road", "measure": "cost_per_unit", "C1": "1", "D1": "2"},
+            {"origin": "D2", "mode": "road", "measure": "cost_per_unit", "C1": "1", "D1": "2"},
+            {"origin": "D2", "mode": "road", "measure": "distance_km", "C1": "10", "D1": ""},
+        ]
+    )
+    with pytest.raises(CaseError) as err:
+        make_case(_small(lane_matrix=mx))
+    got = [(p.table, p.row, p.column) for p in err.value.problems]
+    assert got == [("lane_matrix", 2, "origin")]
+    assert "blank value in a required column" in err.value.problems[0].message

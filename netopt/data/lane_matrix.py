@@ -29,36 +29,51 @@ def destinations(frame: pd.DataFrame) -> list[str]:
     return TABLES[TABLE].open_names([str(c) for c in frame.columns])
 
 
+def _groups(frame: pd.DataFrame) -> tuple[np.ndarray, pd.DataFrame]:
+    """Each matrix row's lane group (origin, mode, product: the rows of its measures), numbered in the
+    order of the group's first row; and one row per group (its key columns and first row number)."""
+    keys = frame[["origin", "mode", "product"]].astype(str)
+    g, _ = pd.MultiIndex.from_frame(keys).factorize()
+    first = pd.Series(np.arange(len(frame))).groupby(g).min().to_numpy()
+    heads = keys.iloc[first].assign(row=frame.index.to_numpy()[first])
+    return g, heads.reset_index(drop=True)
+
+
 def matrix_lanes(frame: pd.DataFrame) -> pd.DataFrame:
-    """One row per filled cell pair: origin, destination, mode, product, one column per measure (NaN where
-    that measure's row is missing or its cell blank), and ``row``/``column``, the matrix cell it came from
-    (the first measure's row).  Rows sorted by the matrix's row, then its column order."""
+    """One row per lane of the matrix (an origin, mode and product with a filled cell in any of its
+    measure rows): origin, destination, mode, product, one column per measure (NaN where that measure's row
+    is missing or its cell blank), and ``row``/``column``, where it was written (the group's first row and
+    the destination's column).  Rows in the matrix's order: by first row, then column."""
     cols = ["row", "column", *KEY, *MEASURES]
     dest = destinations(frame)
     if frame.empty or not dest:
         return pd.DataFrame({c: pd.Series(dtype=float if c in MEASURES else object) for c in cols})
     values = frame[dest].to_numpy(float)
-    r, j = np.nonzero(~np.isnan(values))
+    g, heads = _groups(frame)
+    measure = frame["measure"].astype(str).to_numpy()
+    by_measure = {}
+    for m in MEASURES:  # one (groups × destinations) block per measure; a key given twice is an error already
+        block = np.full((len(heads), len(dest)), np.nan)
+        at = measure == m
+        block[g[at]] = values[at]
+        by_measure[m] = block
+    filled = np.zeros((len(heads), len(dest)), dtype=bool)
+    for block in by_measure.values():
+        filled |= ~np.isnan(block)
+    gi, j = np.nonzero(filled)
     codes = np.asarray(dest, dtype=object)
-    cells = pd.DataFrame(
+    out = pd.DataFrame(
         {
-            "row": frame.index.to_numpy()[r],
+            "row": heads["row"].to_numpy()[gi],
             "column": codes[j],
-            "origin": frame["origin"].to_numpy()[r],
+            "origin": heads["origin"].to_numpy()[gi],
             "destination": codes[j],
-            "mode": frame["mode"].to_numpy()[r],
-            "product": frame["product"].to_numpy()[r],
-            "measure": frame["measure"].to_numpy()[r],
-            "value": values[r, j],
+            "mode": heads["mode"].to_numpy()[gi],
+            "product": heads["product"].to_numpy()[gi],
+            **{m: block[gi, j] for m, block in by_measure.items()},
         }
     )
-    first = cells.groupby(KEY, sort=False)["row"].transform("min").eq(cells["row"])
-    wide = cells.pivot_table(index=KEY, columns="measure", values="value", aggfunc="first", sort=False)
-    out = cells[first].drop_duplicates(KEY).join(wide, on=KEY)
-    for m in MEASURES:
-        if m not in out.columns:
-            out[m] = np.nan
-    return out.sort_values(["row"], kind="mergesort").reset_index(drop=True)[cols]
+    return out[cols]
 
 
 def matrix_problems(tables: dict[str, pd.DataFrame], usable: set[str]) -> list[Problem]:
@@ -91,13 +106,22 @@ def matrix_problems(tables: dict[str, pd.DataFrame], usable: set[str]) -> list[P
         msg = origin_message(o, kinds) if o else None
         if msg:
             problems.append(Problem(TABLE, row_number(r), "origin", msg))
+        if msg or not o:  # a blank origin is said by the typing (a required column)
             bad_rows.add(r)
-    long = matrix_lanes(frame)
-    cells = long[~long["row"].isin(bad_rows) & ~long["column"].isin(bad_dest)]
-    o_kind, d_kind = cells["origin"].map(kinds), cells["destination"].map(kinds)
-    suspect = cells["origin"].eq(cells["destination"]) | ~(o_kind + "-" + d_kind).isin(LEGS)
-    for r, c, o, d in cells.loc[suspect, ["row", "column", "origin", "destination"]].itertuples(index=False):
-        problems.append(Problem(TABLE, row_number(r), c, str(pair_message(o, d, kinds))))
+    # A filled cell between known ends of the right kinds that is no lane: a site to itself, or not a leg.
+    values = frame[dest].to_numpy(float)
+    o_kind = origins.map(kinds).fillna("").to_numpy(dtype=object)
+    d_kind = np.array([kinds.get(d, "") for d in dest], dtype=object)
+    leg_ok = np.array([[f"{a}-{b}" in LEGS for b in d_kind] for a in pd.unique(o_kind)])
+    row_of_kind = pd.Index(pd.unique(o_kind)).get_indexer(o_kind)
+    itself = origins.to_numpy(dtype=object)[:, None] == np.asarray(dest, dtype=object)[None, :]
+    no_lane = (~leg_ok[row_of_kind] | itself) & ~np.isnan(values)
+    no_lane[np.array([r in bad_rows for r in frame.index], dtype=bool)] = False
+    no_lane[:, np.array([d in bad_dest for d in dest], dtype=bool)] = False
+    for i, j in zip(*np.nonzero(no_lane)):
+        o, d = origins.iloc[i], dest[j]
+        msg = str(pair_message(o, d, kinds)) + ("; leave that cell blank" if o == d else "")
+        problems.append(Problem(TABLE, row_number(frame.index[i]), d, msg))
     days = frame[frame["measure"] == "transit_days"]
     if len(days):
         over = days[dest].to_numpy(float) > MAX_DAYS

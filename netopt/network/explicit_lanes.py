@@ -75,8 +75,6 @@ def _given(case: Case) -> pd.DataFrame:
     mx = matrix_lanes(given) if given is not None else None
     if mx is None or mx.empty:
         return table
-    for c in KEY:
-        mx[c] = mx[c].astype(str).str.strip()
     if len(table):  # a row of the lanes table replaces the matrix's lane of the same key
         mx = mx[~pd.MultiIndex.from_frame(mx[KEY]).isin(pd.MultiIndex.from_frame(table[KEY]))]
     matrix = pd.DataFrame(
