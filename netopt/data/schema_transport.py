@@ -6,6 +6,7 @@ from __future__ import annotations
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
 from netopt.data.emission_factors import schema_note as emission_schema_note
+from netopt.data.limits import MAX_DAYS
 from netopt.data.schema_rates import SHIPMENT_KG
 
 LEGS = ("supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer", "dc-dc")
@@ -151,7 +152,7 @@ LANE_MATRIX = Table(
         False,
         None,
         "Every other column is named by a destination site (plant, DC or customer); a cell is the row's "
-        "measure for the lane from the row's origin to that destination; blank = no lane",
+        f"measure for the lane from the row's origin to that destination (transit days at most {MAX_DAYS:,.0f}); blank = no lane",
         min=0,
     ),
 )
