@@ -70,6 +70,7 @@ def test_matrix_gives_the_lanes_and_the_published_optimum_of_the_lane_rows(name)
 
 
 def test_matrix_read_from_a_folder_and_a_workbook(tmp_path):
+    # Reference: the OR-Library cap41 instance (Beasley 1990) one lane per row (tests/orlib.cap_case).
     # The wide table through the readers: CSV (one column per destination) and a workbook sheet.
     matrix, rows = cap_matrix_case("cap41")
     folder = write_case_csv(matrix, tmp_path / "case")
@@ -131,6 +132,7 @@ def test_blank_cells_are_no_lane_and_missing_measures_are_computed():
 
 
 def test_a_lanes_row_replaces_the_matrix_lane():
+    # The precedence the schema states (lane_matrix's meaning); no outside source.
     mx = pd.DataFrame([{"origin": "D1", "mode": "road", "measure": "cost_per_unit", "C1": 2.0, "C2": 3.0}])
     t = _small(lane_matrix=mx)
     t["lanes"] = t["lanes"] + [
@@ -147,6 +149,7 @@ def test_a_lanes_row_replaces_the_matrix_lane():
 
 
 def test_every_matrix_problem_named_by_row_and_column_at_once():
+    # The rules of the schema (data_templates/schema.md: legs, site kinds, measures); no outside source.
     mx = pd.DataFrame(
         [
             {"origin": "D1", "mode": "road", "measure": "cost_per_unit", "C1": "2", "CX": "1", "D1": "1", "P": ""},
@@ -189,6 +192,7 @@ def test_a_matrix_pair_that_is_not_a_leg_is_named_at_its_cell():
 
 
 def test_mode_rate_scales_the_matrix_costs():
+    # scale_cost mode_rate multiplies every given lane cost of the mode (its help text); no outside source.
     mx = pd.DataFrame(
         [
             {"origin": "D1", "mode": "road", "measure": "cost_per_unit", "C1": 2.0, "C2": 3.0},
@@ -202,6 +206,7 @@ def test_mode_rate_scales_the_matrix_costs():
 
 
 def test_a_blank_origin_is_said_once_and_its_cells_are_not_judged():
+    # A required column's blank is one problem (schema.md); no outside source.
     mx = pd.DataFrame(
         [
             {"origin": "", "mode": "road", "measure": "cost_per_unit", "C1": "1", "D1": "2"},

@@ -50,6 +50,7 @@ def test_a_case_without_plants_solves(tmp_path):
 
 
 def test_a_case_with_neither_plants_nor_suppliers_is_refused_clearly(tmp_path):
+    # Reachability's own message (netopt.data.reach); no outside source.
     rows = {k: v for k, v in ROWS.items() if k != "suppliers"}
     rows["lanes"] = [r for r in ROWS["lanes"] if r["origin"] != "S"]
     with pytest.raises(CaseError) as err:
