@@ -9,6 +9,7 @@ from pathlib import Path
 from netopt.cli.common import COMMON, EXIT_INVALID, EXIT_OK, print_warnings, say
 from netopt.data.case import Case
 from netopt.data.io import load_case
+from netopt.data.lane_matrix import destinations
 from netopt.data.periods import has_periods, period_demand
 from netopt.data.schema import TABLES
 from netopt.data.templates import write_blank_case, write_template_workbook
@@ -122,6 +123,12 @@ def case_summary(case: Case) -> list[str]:
     ]
     if len(t["lanes"]):
         lines.append(f"  explicit lanes {len(t['lanes']):>4,}")
+    mx = t.get("lane_matrix")
+    if mx is not None and len(mx):
+        cells = int(mx[destinations(mx)].notna().to_numpy().sum())
+        lines.append(
+            f"  lane matrix {len(mx):>7,} rows × {len(destinations(mx)):,} destinations ({cells:,} filled cells)"
+        )
     if len(t["current_flows"]):
         cur = t["current_flows"]
         lines.append(f"  today's flows {len(cur):>5,} rows, {cur['quantity'].sum():,.0f} units/year (netopt baseline)")

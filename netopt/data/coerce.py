@@ -256,7 +256,7 @@ def coerce_table(name: str, frame: pd.DataFrame | None) -> tuple[pd.DataFrame, l
         like = resembled(cname, t.column_names) if cname not in t.column_names else None
         if like is not None:
             problems.append(Problem(name, None, cname, resemblance_message(cname, like, "column")))
-        elif cname not in t.column_names:
+        elif cname not in t.column_names and t.open_columns is None:
             problems.append(
                 Problem(
                     name,
@@ -279,8 +279,44 @@ def coerce_table(name: str, frame: pd.DataFrame | None) -> tuple[pd.DataFrame, l
         columns[col.name], probs = coerce_column(name, col, series)
         problems += probs
     typed = pd.DataFrame(columns, index=index)
+    if t.open_columns is not None:
+        typed, probs = _with_open_columns(name, t.open_columns, typed, frame)
+        problems += probs
     typed.index.name = "row"
     return typed, problems
+
+
+def _with_open_columns(
+    name: str, col: Column, typed: pd.DataFrame, frame: pd.DataFrame
+) -> tuple[pd.DataFrame, list[Problem]]:
+    """A wide table's own columns (every column not declared, e.g. one per destination site) typed as
+    ``col``, all cells in one pass; each problem names its row and the column it is in."""
+    declared = set(typed.columns)
+    names: list[tuple[int, str]] = []
+    problems: list[Problem] = []
+    seen: set[str] = set()
+    for j, c in enumerate(frame.columns):
+        cname = c.strip() if isinstance(c, str) else as_text(c)
+        if cname in declared or resembled(cname, list(declared)) is not None:
+            continue
+        if cname in seen:
+            problems.append(Problem(name, None, cname, "column appears more than once in the header"))
+            continue
+        seen.add(cname)
+        names.append((j, cname))
+    if not names:
+        return typed, problems
+    rows, width = len(frame), len(names)
+    parts = [frame.iloc[:, j].reset_index(drop=True) for j, _ in names]
+    cells = pd.concat(parts, ignore_index=True) if rows else pd.Series([], dtype=object)
+    values, probs = coerce_column(name, col, cells.set_axis(pd.RangeIndex(len(cells))))
+    for p in probs:  # position k is row k % rows of column k // rows
+        k = int(p.row or 0)
+        problems.append(Problem(name, row_number(typed.index[k % rows]), names[k // rows][1], p.message, p.severity))
+    block = pd.DataFrame(
+        values.to_numpy(float).reshape(width, rows).T, index=typed.index, columns=[n for _, n in names]
+    )
+    return pd.concat([typed, block], axis=1), problems
 
 
 # --------------------------------------------------------------------------- settings

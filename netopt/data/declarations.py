@@ -53,6 +53,9 @@ class Table:
     key: tuple[str, ...]
     required: bool = True
     references: tuple[Reference, ...] = field(default_factory=tuple)
+    open_columns: Column | None = None
+    """A wide table's other columns (beyond ``columns``): each is named by the user (e.g. a destination
+    site code) and typed and ranged as this column; None: a column not declared is unknown."""
 
     @property
     def file_name(self) -> str:
@@ -67,6 +70,13 @@ class Table:
     @property
     def column_names(self) -> list[str]:
         return [c.name for c in self.columns]
+
+    def open_names(self, names) -> list[str]:
+        """The names among ``names`` that are this wide table's own columns (none unless ``open_columns``)."""
+        if self.open_columns is None:
+            return []
+        declared = set(self.column_names)
+        return [n for n in names if n not in declared]
 
 
 @dataclass(frozen=True)

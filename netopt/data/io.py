@@ -40,6 +40,20 @@ from netopt.data.validate import sort_problems, validate_and_coerce
 from netopt.data.workbook_read import IGNORED_SHEETS, SCENARIOS_FILE, SETTINGS_SHEET, read_workbook
 
 SETTINGS_FILE = "settings.toml"
+_SPACE = re.compile(r"[^\S\r\n]")
+_EDGE_SPACE = re.compile(r"(?:^|[,\r])[^\S\r\n]|[^\S\r\n](?:[,\r]|$)", re.MULTILINE)
+
+
+def _may_need_trim(text: str) -> bool:
+    """Whether a cell of this CSV text may have something to trim at an end: the text holds a quote (a cell
+    may then hold any text), a byte-order mark, or white space (``\\s``: what ``str.strip`` removes) other
+    than a line end next to a comma or a line's start or end (a line ends at ``\\n``, ``\\r`` or both,
+    as the csv reader splits them)."""
+    if '"' in text or "\ufeff" in text:
+        return True
+    return _SPACE.search(text) is not None and _EDGE_SPACE.search(text) is not None
+
+
 __all__ = [
     "IGNORED_SHEETS",
     "SCENARIOS_FILE",
@@ -94,7 +108,7 @@ def read_csv_table(path: Path, table: str) -> tuple[pd.DataFrame | None, list[Pr
             msg = f"a cell holds more than {csv.field_size_limit():,} characters; at most {limits.MAX_CELL_CHARS:,} are read"
             return None, [Problem(table, last + 1, None, msg + " (MAX_CELL_CHARS)")]
         return None, [Problem(table, last + 1, None, f"not readable as CSV: {e}")]
-    return frame_from_records(table, records)
+    return frame_from_records(table, records, trimmed=not _may_need_trim(text))
 
 
 def _read_toml(path: Path, label: str) -> tuple[dict | None, list[Problem]]:

@@ -52,8 +52,9 @@ MAX_SITE_COUNT = 1_000_000
 MAX_TABLE_ROWS = MAX_SITE_COUNT
 """Most data rows in one table (CSV file or sheet), and most rows a sheet may declare."""
 
-MAX_TABLE_COLUMNS = 1_000
-"""Most columns a table or sheet may hold or declare (the schema's widest table has a dozen)."""
+MAX_TABLE_COLUMNS = 16_384
+"""Most columns a table or sheet may hold or declare: the widest sheet a workbook holds (column XFD).  The
+lane matrix has one column per destination; the other tables have a few dozen at most."""
 
 MAX_CELL_CHARS = 10_000
 """Most characters in one cell (a site code, a number, a note)."""

@@ -57,16 +57,20 @@ def _long_cells(label: str, records: list[tuple[int, list[str]]]) -> list[Proble
     return problems
 
 
-def frame_from_records(label: str, records: list[tuple[int, list[str]]]) -> tuple[pd.DataFrame | None, list[Problem]]:
+def frame_from_records(
+    label: str, records: list[tuple[int, list[str]]], trimmed: bool = False
+) -> tuple[pd.DataFrame | None, list[Problem]]:
     """Table from (row number, cells) records; the first record is the header.
 
     Blank records are skipped (their row numbers stay unused); cells past the header
     must be blank; short records are padded with blanks; a cell beyond the length limit is an
-    error (and read as blank).
+    error (and read as blank).  Cells are trimmed of spaces and byte-order marks at their ends;
+    ``trimmed``: the reader knows no cell has any (the trim is then skipped).
     """
     problems: list[Problem] = _long_cells(label, records)
     raw = dict(records)
-    records = [(n, [c.strip().lstrip("\ufeff").strip() for c in cells]) for n, cells in records]
+    if not trimmed:
+        records = [(n, [c.strip().lstrip("\ufeff").strip() for c in cells]) for n, cells in records]
     records = [(n, cells) for n, cells in records if any(cells)]
     if not records:
         problems.append(Problem(label, None, None, "no header row: the first line must name the columns"))

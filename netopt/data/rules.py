@@ -137,14 +137,49 @@ def _consistent_site_rows(
     return problems
 
 
-def _lane_sites(tables: dict[str, pd.DataFrame]) -> list[Problem]:
-    lanes = tables["lanes"]
-    if lanes.empty:
-        return []
+def site_kinds(tables: dict[str, pd.DataFrame]) -> dict[str, str]:
+    """Every site code of the case → its kind (supplier, plant, dc, customer; the first table wins)."""
     kinds: dict[str, str] = {}
     for table, col in SITE_TABLES:
         for code in _codes(tables[table], col):
             kinds.setdefault(code, col)
+    return kinds
+
+
+def origin_message(o: str, kinds: dict[str, str]) -> str | None:
+    """What is wrong with ``o`` as the origin of a lane (None: nothing)."""
+    kind = kinds.get(o)
+    if kind is None:
+        return f"unknown origin site '{o}' (not a supplier, plant or DC)" + close_match_hint(o, kinds, 0.8)
+    if kind not in ORIGIN_KINDS:
+        return f"origin '{o}' is a {kind}; lanes start at a supplier, plant or DC"
+    return None
+
+
+def destination_message(d: str, kinds: dict[str, str]) -> str | None:
+    """What is wrong with ``d`` as the destination of a lane (None: nothing)."""
+    kind = kinds.get(d)
+    if kind is None:
+        return f"unknown destination site '{d}' (not a plant, DC or customer)" + close_match_hint(d, kinds, 0.8)
+    if kind not in DESTINATION_KINDS:
+        return f"destination '{d}' is a {kind}; lanes end at a plant, DC or customer"
+    return None
+
+
+def pair_message(o: str, d: str, kinds: dict[str, str]) -> str | None:
+    """What is wrong with a lane between two known ends of the right kinds (None: nothing)."""
+    if o == d:
+        return f"lane from '{o}' to itself"
+    if f"{kinds[o]}-{kinds[d]}" not in LEGS:
+        return f"a lane from a {kinds[o]} to a {kinds[d]} is not a leg of the network; legs are: {', '.join(LEGS)}"
+    return None
+
+
+def _lane_sites(tables: dict[str, pd.DataFrame]) -> list[Problem]:
+    lanes = tables["lanes"]
+    if lanes.empty:
+        return []
+    kinds = site_kinds(tables)
     problems = []
     # Whole columns first; only the rows with something to report are looked at one by one.
     o_all, d_all = lanes["origin"].astype(str), lanes["destination"].astype(str)
@@ -155,65 +190,18 @@ def _lane_sites(tables: dict[str, pd.DataFrame]) -> list[Problem]:
         | (o_all.eq(d_all) & o_all.ne(""))
         | ~(ok_all.fillna("") + "-" + dk_all.fillna("")).isin(LEGS)
     )
-    for r, row in lanes[suspect].iterrows():
-        o, d = str(row["origin"]), str(row["destination"])
-        ok_kind, dk_kind = kinds.get(o), kinds.get(d)
-        bad = False
-        if o and ok_kind is None:
-            problems.append(
-                Problem(
-                    "lanes",
-                    row_number(r),
-                    "origin",
-                    f"unknown origin site '{o}' (not a supplier, plant or DC)" + close_match_hint(o, kinds, 0.8),
-                )
-            )
-            bad = True
-        elif o and ok_kind not in ORIGIN_KINDS:
-            problems.append(
-                Problem(
-                    "lanes",
-                    row_number(r),
-                    "origin",
-                    f"origin '{o}' is a {ok_kind}; lanes start at a supplier, plant or DC",
-                )
-            )
-            bad = True
-        if d and dk_kind is None:
-            problems.append(
-                Problem(
-                    "lanes",
-                    row_number(r),
-                    "destination",
-                    f"unknown destination site '{d}' (not a plant, DC or customer)" + close_match_hint(d, kinds, 0.8),
-                )
-            )
-            bad = True
-        elif d and dk_kind not in DESTINATION_KINDS:
-            problems.append(
-                Problem(
-                    "lanes",
-                    row_number(r),
-                    "destination",
-                    f"destination '{d}' is a {dk_kind}; lanes end at a plant, DC or customer",
-                )
-            )
-            bad = True
-        if bad or not o or not d:
+    for r, o, d in zip(lanes.index[suspect.to_numpy()], o_all[suspect], d_all[suspect]):
+        o_msg = origin_message(o, kinds) if o else None
+        d_msg = destination_message(d, kinds) if d else None
+        if o_msg:
+            problems.append(Problem("lanes", row_number(r), "origin", o_msg))
+        if d_msg:
+            problems.append(Problem("lanes", row_number(r), "destination", d_msg))
+        if o_msg or d_msg or not o or not d:
             continue
-        if o == d:
-            problems.append(Problem("lanes", row_number(r), "destination", f"lane from '{o}' to itself"))
-            continue
-        leg = f"{ok_kind}-{dk_kind}"
-        if leg not in LEGS:
-            problems.append(
-                Problem(
-                    "lanes",
-                    row_number(r),
-                    "destination",
-                    f"a lane from a {ok_kind} to a {dk_kind} is not a leg of the network; legs are: {', '.join(LEGS)}",
-                )
-            )
+        msg = pair_message(o, d, kinds)
+        if msg:
+            problems.append(Problem("lanes", row_number(r), "destination", msg))
     return problems
 
 

@@ -18,7 +18,7 @@ from netopt.data.schema_landed import BORDERS, COUNTRY, CURRENT_FLOWS, DEMAND_PR
 from netopt.data.schema_rates import RATE_TIERS
 from netopt.data.schema_shares import DC_REGION_SHARE, SOURCING_SHARES, SUPPLIER_MIN_SHARE
 from netopt.data.schema_time import CAPACITY_BY_PERIOD, DEMAND_PERIOD, OPENING_STOCK, PERIODS
-from netopt.data.schema_transport import LANES, LEGS, MODES, ROAD_EDGES
+from netopt.data.schema_transport import LANE_MATRIX, LANES, LEGS, MODES, ROAD_EDGES
 
 LAT = _c("lat", "float", "degrees", True, None, "Latitude, WGS84, north positive", min=-90, max=90)
 LON = _c("lon", "float", "degrees", True, None, "Longitude, WGS84, east positive", min=-180, max=180)
@@ -173,7 +173,8 @@ _table(
 _table(
     Table(
         "plants",
-        "A plant's ability to make one finished product (one row per plant and product).",
+        "A plant's ability to make one finished product (one row per plant and product; optional: a "
+        "network without plants, where suppliers sell the finished products, leaves the file out).",
         (
             _c("plant", "str", "", True, None, "Plant site code"),
             _c("product", "str", "", True, None, "Finished product made here"),
@@ -230,6 +231,7 @@ _table(
             ),
         ),
         key=("plant", "product"),
+        required=False,
         references=(Reference("product", "products", "product"),),
     )
 )
@@ -461,17 +463,10 @@ _table(
     )
 )
 
-_table(PERIODS)
-_table(CAPACITY_BY_PERIOD)
-_table(OPENING_STOCK)
-_table(MODES)
-_table(RATE_TIERS)
-_table(LANES)
-_table(ROAD_EDGES)
-_table(SOURCING_SHARES)
-_table(DUTIES)
-_table(BORDERS)
-_table(CURRENT_FLOWS)
+for _t in (PERIODS, CAPACITY_BY_PERIOD, OPENING_STOCK, MODES, RATE_TIERS, LANES, LANE_MATRIX, ROAD_EDGES):
+    _table(_t)
+for _t in (SOURCING_SHARES, DUTIES, BORDERS, CURRENT_FLOWS):
+    _table(_t)
 
 
 def schema_frame():
@@ -480,7 +475,7 @@ def schema_frame():
 
     rows = []
     for t in TABLES.values():
-        for c in t.columns:
+        for c in t.columns + ((t.open_columns,) if t.open_columns is not None else ()):
             rows.append(
                 {
                     "table": t.name,

@@ -6,6 +6,7 @@ from __future__ import annotations
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
 from netopt.data.emission_factors import schema_note as emission_schema_note
+from netopt.data.limits import MAX_DAYS
 from netopt.data.schema_rates import SHIPMENT_KG
 
 LEGS = ("supplier-plant", "supplier-dc", "plant-dc", "plant-customer", "dc-customer", "dc-dc")
@@ -112,6 +113,48 @@ LANES = Table(
     key=("origin", "destination", "mode", "product"),
     required=False,
     references=(Reference("mode", "modes", "mode"), Reference("product", "products", "product", allow_blank=True)),
+)
+
+
+MEASURES = ("cost_per_unit", "distance_km", "transit_days")
+"""What a row of the lane matrix holds, each as the lanes table's column of the same name."""
+
+LANE_MATRIX = Table(
+    "lane_matrix",
+    "Explicit lanes as a matrix (optional): one row per origin, mode and measure, one column per destination "
+    "(a cost, distance or transit-time matrix as a rate sheet or a published set gives it).  A filled cell is "
+    "a lane of that mode from the row's origin to the column's destination; a blank cell is no lane.  Rows of "
+    "several measures for one origin and mode describe the same lanes (a measure left out, or blank where "
+    "another is filled, is computed as for a blank in the lanes table).  A row of the lanes table replaces the "
+    "matrix's lane of the same origin, destination, mode and product.  The lanes table is the same data one "
+    "row per lane.",
+    (
+        _c("origin", "str", "", True, None, "Origin site (supplier, plant or DC)"),
+        _c("mode", "str", "", True, None, "Transport mode"),
+        _c(
+            "measure",
+            "str",
+            "",
+            True,
+            None,
+            "What the row's cells hold: cost_per_unit (currency/unit), distance_km (km) or transit_days (days)",
+            choices=MEASURES,
+        ),
+        _c("product", "str", "", False, "", "Product the row's lanes apply to; blank = every product"),
+    ),
+    key=("origin", "mode", "measure", "product"),
+    required=False,
+    references=(Reference("mode", "modes", "mode"), Reference("product", "products", "product", allow_blank=True)),
+    open_columns=_c(
+        "<destination>",
+        "float",
+        "",
+        False,
+        None,
+        "Every other column is named by a destination site (plant, DC or customer); a cell is the row's "
+        f"measure for the lane from the row's origin to that destination (transit days at most {MAX_DAYS:,.0f}); blank = no lane",
+        min=0,
+    ),
 )
 
 

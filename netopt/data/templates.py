@@ -101,7 +101,7 @@ def schema_markdown() -> str:
             "| column | type | unit | required | default | allowed | meaning |",
             "|---|---|---|---|---|---|---|",
         ]
-        for c in t.columns:
+        for c in t.columns + ((t.open_columns,) if t.open_columns is not None else ()):
             default = "" if c.default is None else ("no limit" if c.default == INF else str(c.default))
             if c.type == "bool" and c.default is not None:
                 default = "true" if c.default else "false"

@@ -21,6 +21,7 @@ import pandas as pd
 
 from netopt.data.case import Case, CaseError, Problem
 from netopt.data.coerce import coerce_settings, coerce_table
+from netopt.data.lane_matrix import matrix_problems
 from netopt.data.reach import unreachable_demand
 from netopt.data.rules import cross_table_problems
 from netopt.data.schema import TABLES
@@ -117,6 +118,7 @@ def validate_and_coerce(
     problems += probs
 
     problems += cross_table_problems(typed, typed_settings, given, usable, label, settings_rows)
+    problems += matrix_problems(typed, usable)
     if "demand" in usable and typed["demand"].empty:
         problems.append(Problem("demand", None, None, "no demand rows: there is nothing to plan", "warning"))
 

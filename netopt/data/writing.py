@@ -12,6 +12,7 @@ import os
 import re
 import shutil
 import tempfile
+from dataclasses import replace
 from pathlib import Path
 
 import pandas as pd
@@ -128,6 +129,8 @@ def _table_rows(case: Case, name: str):
     if df is None:
         return [], []
     cols = [c for c in t.columns if c.name in df.columns]
+    if t.open_columns is not None:  # a wide table's own columns (the lane matrix's destinations)
+        cols += [replace(t.open_columns, name=n) for n in t.open_names([str(c) for c in df.columns])]
     return cols, [[rec[c.name] for c in cols] for _, rec in df.iterrows()]
 
 

@@ -13,26 +13,11 @@ import pandas as pd
 from netopt.data.case import Case, CaseError, Problem
 from netopt.data.schema import LEGS
 from netopt.data.validate import register_lane_builder
+from netopt.network.explicit_lanes import FLOAT_COLUMNS, LANE_COLUMNS, empty_lanes, explicit_rows
 from netopt.network.geo import haversine_km, pairwise_km, shortest_path_km
 
-LANE_COLUMNS = [
-    "origin",
-    "origin_kind",
-    "destination",
-    "destination_kind",
-    "leg",
-    "mode",
-    "product",
-    "distance_km",
-    "transit_days",
-    "cost_per_unit",
-    "capacity",
-    "source",
-    "origin_lat",
-    "origin_lon",
-    "destination_lat",
-    "destination_lon",
-]
+__all__ = ["LANE_COLUMNS", "build_lanes", "case_lanes", "lane_summary"]
+
 _KEY = ["origin", "destination", "mode", "product"]
 _ORIGIN_KINDS = ("supplier", "plant", "dc")
 _DESTINATION_KINDS = ("plant", "dc", "customer")
@@ -135,7 +120,8 @@ def build_lanes(case: Case) -> pd.DataFrame:
     ``min_km ≤ distance ≤ max_km`` are kept, and lanes to customers no longer than
     ``lanes.max_dc_customer_km`` when that is ≥ 0.
 
-    Explicit lanes (table ``lanes``) are not range-pruned.  A row with product ""
+    Explicit lanes (table ``lanes`` and the cells of ``lane_matrix``, where a lanes row replaces the
+    matrix's lane of the same key; :mod:`netopt.network.explicit_lanes`) are not range-pruned.  A row with product ""
     replaces the generated row of the same origin, destination and mode; a row naming
     a product adds a row for that product only — the model uses a product's own row in
     preference to the "" row of the same origin, destination and mode.  Blank
@@ -196,7 +182,7 @@ def build_lanes(case: Case) -> pd.DataFrame:
             "legs": own or default_legs,
         }
 
-    explicit = _explicit_rows(case, sites, mode_info, problems)
+    explicit = explicit_rows(case, sites, mode_info, problems)
     if problems:
         raise CaseError(problems)
 
@@ -308,7 +294,7 @@ def build_lanes(case: Case) -> pd.DataFrame:
         avail["source"] = "explicit"
         chunks.append(avail[LANE_COLUMNS])
 
-    lanes = pd.concat(chunks, ignore_index=True) if chunks else _empty()
+    lanes = pd.concat(chunks, ignore_index=True) if chunks else empty_lanes()
     if len(lanes) and len(avail):
         # an explicit row replaces a generated row with the same key
         explicit_keys = pd.MultiIndex.from_frame(avail[_KEY])
@@ -337,116 +323,14 @@ def build_lanes(case: Case) -> pd.DataFrame:
     return _sorted(lanes)
 
 
-def _explicit_rows(
-    case: Case, sites: dict[str, pd.DataFrame], mode_info: dict[str, dict], problems: list[Problem]
-) -> pd.DataFrame:
-    """The explicit lanes table with kinds, leg and coordinates resolved; bad rows become problems.
-
-    Whole columns at once (a case may give hundreds of thousands of explicit lanes); only the
-    rows with a problem are looked at one by one, to word each problem.
-    """
-    ex = case.tables["lanes"].sort_index()
-    cols = LANE_COLUMNS + ["available"]
-    kind_of: dict[str, str] = {}
-    for k in ("customer", "dc", "plant", "supplier"):  # later kinds win only if codes collide
-        kind_of.update(dict.fromkeys(sites[k].index, k))
-    if ex.empty:
-        return _empty().assign(available=pd.Series(dtype=bool))
-    o = ex["origin"].astype(str).str.strip()
-    d = ex["destination"].astype(str).str.strip()
-    m = ex["mode"].astype(str).str.strip()
-    p = ex["product"].where(ex["product"].notna(), "").astype(str).str.strip()
-    ok, dk = o.map(kind_of), d.map(kind_of)
-    leg = ok.fillna("") + "-" + dk.fillna("")
-    bad = ~ok.isin(_ORIGIN_KINDS) | ~dk.isin(_DESTINATION_KINDS) | ~m.isin(list(mode_info)) | ~leg.isin(LEGS)
-    for row in ex.index[bad.to_numpy()]:
-        _explicit_row_problems(row, o[row], d[row], m[row], ok[row], dk[row], mode_info, problems)
-    good = ~bad.to_numpy()
-    if not good.any():
-        return _empty().assign(available=pd.Series(dtype=bool))
-    ex, o, d, m, p, ok, dk = (v[good] for v in (ex, o, d, m, p, ok, dk))
-    out = pd.DataFrame(
-        {
-            "origin": o.to_numpy(),
-            "origin_kind": ok.to_numpy(),
-            "destination": d.to_numpy(),
-            "destination_kind": dk.to_numpy(),
-            "leg": (ok + "-" + dk).to_numpy(),
-            "mode": m.to_numpy(),
-            "product": p.to_numpy(),
-            "distance_km": pd.to_numeric(ex["distance_km"], errors="coerce").to_numpy(float),
-            "transit_days": pd.to_numeric(ex["transit_days"], errors="coerce").to_numpy(float),
-            "cost_per_unit": pd.to_numeric(ex["cost_per_unit"], errors="coerce").to_numpy(float),
-            "capacity": pd.to_numeric(ex["capacity"], errors="coerce").fillna(np.inf).to_numpy(float),
-            "source": "explicit",
-        }
-    )
-    for end, code, kind in (("origin", o, ok), ("destination", d, dk)):
-        for c in ("lat", "lon"):
-            v = np.full(len(out), np.nan)
-            for k in kind.unique():
-                at = (kind == k).to_numpy()
-                coord = sites[k][c].groupby(level=0).first()
-                v[at] = code[at].map(coord).to_numpy(float)
-            out[f"{end}_{c}"] = v
-    avail = ex["available"]
-    out["available"] = avail.where(avail.notna(), True).astype(bool).to_numpy()
-    return out[cols]
-
-
-def _explicit_row_problems(row, o, d, m, ok, dk, mode_info, problems: list[Problem]) -> None:
-    """Every problem of one explicit lane row, worded for the user (table, row, column)."""
-    bad = False
-    if not isinstance(ok, str):
-        problems.append(Problem("lanes", row, "origin", f"{o!r} is not a supplier, plant or DC of the case"))
-        bad = True
-    elif ok not in _ORIGIN_KINDS:
-        problems.append(Problem("lanes", row, "origin", f"{o!r} is a {ok}; lanes start at a supplier, plant or DC"))
-        bad = True
-    if not isinstance(dk, str):
-        problems.append(Problem("lanes", row, "destination", f"{d!r} is not a plant, DC or customer of the case"))
-        bad = True
-    elif dk not in _DESTINATION_KINDS:
-        problems.append(Problem("lanes", row, "destination", f"{d!r} is a {dk}; lanes end at a plant, DC or customer"))
-        bad = True
-    if m not in mode_info:
-        problems.append(Problem("lanes", row, "mode", f"unknown mode {m!r} (not in modes)"))
-        bad = True
-    if not bad and f"{ok}-{dk}" not in LEGS:
-        problems.append(
-            Problem(
-                "lanes",
-                row,
-                "destination",
-                f"{ok} {o!r} → {dk} {d!r} is not a leg netopt models; legs are {', '.join(LEGS)}",
-            )
-        )
-
-
-_FLOAT_COLUMNS = {
-    "distance_km",
-    "transit_days",
-    "cost_per_unit",
-    "capacity",
-    "origin_lat",
-    "origin_lon",
-    "destination_lat",
-    "destination_lon",
-}
-
-
-def _empty() -> pd.DataFrame:
-    return pd.DataFrame({c: pd.Series(dtype=float if c in _FLOAT_COLUMNS else str) for c in LANE_COLUMNS})
-
-
 def _sorted(lanes: pd.DataFrame) -> pd.DataFrame:
     if lanes.empty:
-        return _empty()
+        return empty_lanes()
     order = {leg: i for i, leg in enumerate(LEGS)}
     lanes = lanes.assign(_leg=lanes["leg"].map(order))
     lanes = lanes.sort_values(["_leg", "origin", "destination", "mode", "product"], kind="mergesort")
     lanes = lanes.drop(columns="_leg").reset_index(drop=True)
-    for c in _FLOAT_COLUMNS:
+    for c in FLOAT_COLUMNS:
         lanes[c] = lanes[c].astype(float)
     return lanes[LANE_COLUMNS]
 

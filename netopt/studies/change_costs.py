@@ -7,6 +7,7 @@ import numpy as np
 import pandas as pd
 
 from netopt.data.case import Case
+from netopt.data.lane_matrix import destinations
 from netopt.engine.held import BoundPlan, HeldNetwork
 from netopt.studies.case_edit import CaseEdit, Change
 
@@ -32,6 +33,11 @@ def edit_scale_cost(ed: CaseEdit, ch: Change) -> None:
             ex = t["lanes"]
             em = (ex["mode"] == mode) & ex["cost_per_unit"].notna()
             ex.loc[em, "cost_per_unit"] = ex.loc[em, "cost_per_unit"] * f
+            mx = t.get("lane_matrix")  # its cost rows of the mode: every destination column
+            if mx is not None and len(mx):
+                rows = (mx["mode"] == mode) & (mx["measure"] == "cost_per_unit")
+                dest = destinations(mx)
+                mx.loc[rows, dest] = mx.loc[rows, dest] * f
             ed.lanes_changed = True
     elif target == "supplier_price":
         sp = t["suppliers"]
