@@ -15,6 +15,7 @@ from __future__ import annotations
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
 from netopt.data.schema_landed import BORDERS, COUNTRY, CURRENT_FLOWS, DEMAND_PRICE, DUTIES
+from netopt.data.schema_launch import LAUNCH_ADJUSTMENTS, LAUNCHES, PAST_LAUNCHES
 from netopt.data.schema_rates import RATE_TIERS
 from netopt.data.schema_shares import DC_REGION_SHARE, SOURCING_SHARES, SUPPLIER_MIN_SHARE
 from netopt.data.schema_time import CAPACITY_BY_PERIOD, DEMAND_PERIOD, OPENING_STOCK, PERIODS
@@ -461,17 +462,10 @@ _table(
     )
 )
 
-_table(PERIODS)
-_table(CAPACITY_BY_PERIOD)
-_table(OPENING_STOCK)
-_table(MODES)
-_table(RATE_TIERS)
-_table(LANES)
-_table(ROAD_EDGES)
-_table(SOURCING_SHARES)
-_table(DUTIES)
-_table(BORDERS)
-_table(CURRENT_FLOWS)
+for _t in (PERIODS, CAPACITY_BY_PERIOD, OPENING_STOCK, MODES, RATE_TIERS, LANES, ROAD_EDGES, SOURCING_SHARES):
+    _table(_t)
+for _t in (DUTIES, BORDERS, CURRENT_FLOWS, LAUNCHES, LAUNCH_ADJUSTMENTS, PAST_LAUNCHES):  # in schema order
+    _table(_t)
 
 
 def schema_frame():

@@ -173,3 +173,36 @@ def cluster_sweep_svg(sweep: pd.DataFrame) -> str:
         ax.set_ylim(bottom=0)
         ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=7.5)
         return to_svg(fig)
+
+
+def cost_by_scenario_svg(plan_costs: pd.DataFrame, currency: str) -> str:
+    """Cost of each candidate plan (bar groups) in each scenario (bars), the scenario's optimum marked;
+    a plan that cannot serve a scenario has no bar there."""
+    import matplotlib
+
+    if plan_costs.empty:
+        return ""
+    plans = list(dict.fromkeys(plan_costs["plan"]))
+    scenarios = list(dict.fromkeys(plan_costs["scenario"]))
+    spare = iter(FALLBACK * 4)
+    colour = {s: next(spare) for s in scenarios}
+    width = 0.8 / max(len(scenarios), 1)
+    with matplotlib.rc_context(chart_rc()):
+        fig, ax = new_chart(11.0, 3.6, left=0.9, bottom=0.9, top=0.4)
+        x = np.arange(len(plans))
+        for j, s in enumerate(scenarios):
+            sub = plan_costs[plan_costs["scenario"] == s].set_index("plan").reindex(plans)
+            pos = x - 0.4 + width * (j + 0.5)
+            ax.bar(pos, sub["cost"].to_numpy(float), width=width * 0.92, color=colour[s], label=s)
+            opt = sub["scenario_optimum"].to_numpy(float)
+            ax.scatter(pos, opt, marker="_", s=90, color=INK, zorder=4)
+        ax.set_xticks(x, plans, rotation=15, fontsize=8)
+        ok = plan_costs["cost"].dropna()
+        if len(ok):
+            lo, hi = float(ok.min()), float(ok.max())
+            pad = max(hi - lo, 0.02 * hi, 1.0)
+            ax.set_ylim(max(lo - 1.5 * pad, 0.0), hi + 0.4 * pad)
+        short_ticks(ax.yaxis)
+        ax.set_ylabel(f"cost, {currency}/yr")
+        ax.legend(title="scenario", fontsize=7.5, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+        return to_svg(fig)
