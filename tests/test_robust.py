@@ -261,7 +261,8 @@ def test_regret_diagonal_is_zero_and_entries_equal_independent_held_solves(evalu
         assert reg.at[f"own:{s}", f"regret_{s}"] == pytest.approx(0.0, abs=1e-6)
     assert (reg[[f"regret_{s}" for s in ("low", "base", "high")]].fillna(0) >= -1e-6).all().all()
     finite = reg["max_regret"].dropna()
-    assert reg["min_max_regret"].sum() == 1
+    assert reg["min_max_regret"].sum() >= 1
+    assert reg.loc[reg["min_max_regret"], "dcs_open_names"].nunique() == 1  # one choice of DCs
     assert reg.loc[reg["min_max_regret"], "max_regret"].iloc[0] == pytest.approx(finite.min())
 
 

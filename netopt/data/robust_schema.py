@@ -61,7 +61,7 @@ _table(
         "bool",
         "flag",
         "min-max regret",
-        "The plan of least maximum regret (ties: least expected cost)",
+        "The plan of least maximum regret (ties: least expected cost; every plan with the same DCs is marked)",
     ),
     _c(
         "regret_<scenario>",

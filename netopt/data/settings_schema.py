@@ -367,6 +367,28 @@ SETTINGS: tuple[Setting, ...] = (
     ),
     Setting(
         "robust",
+        "time_limit_s",
+        "float",
+        "s",
+        -1.0,
+        "Time limit of each two-stage solve (the scenario copies in one MIP); -1 = solver.time_limit_s",
+        min=-1,
+        max=MAX_TIME_LIMIT_S,
+        max_is_limit=True,
+    ),
+    Setting(
+        "robust",
+        "mip_gap",
+        "float",
+        "ratio",
+        -1.0,
+        "Optimality gap of the two-stage solves (the scenario copies multiply the model: a looser gap than the "
+        "one-year solve's may be worth it); -1 = solver.mip_gap",
+        min=-1,
+        max=1,
+    ),
+    Setting(
+        "robust",
         "evaluation",
         "str",
         "",

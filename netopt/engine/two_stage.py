@@ -19,8 +19,9 @@ import pyomo.environ as pyo
 
 from netopt.data.case import Case
 from netopt.engine.extract import cost_components
-from netopt.engine.highs import compile_model
+from netopt.engine.highs import HighsModel, compile_model
 from netopt.engine.highs_check import ModelRejected
+from netopt.engine.one_year import solve_year
 from netopt.engine.result import fixed_options
 from netopt.model import build_model
 from netopt.model.phasing import block
@@ -111,13 +112,7 @@ def solve_two_stage(
         "binaries": int(hm.integrality.sum()),
     }
     if start is not None:
-        y = fixed_options(nets[0], start)
-        if y is not None:
-            cols = np.concatenate([hm.col_of[block("open", s)] for s in range(len(cases))])
-            vals = np.tile(y, len(cases))
-            m = cols >= 0
-            if m.any():
-                hm.highs.setSolution(int(m.sum()), cols[m].astype(np.int32), vals[m])
+        _set_start(hm, top, cases, builders, nets, lanes, start, objective, mip_gap, threads)
     left = max(time_limit - (time.perf_counter() - t0), 0.05 * time_limit)
     try:
         info = hm.solve(time_limit=left, mip_gap=mip_gap, threads=threads)
@@ -132,3 +127,39 @@ def solve_two_stage(
             out.scenario_costs[names[s]] = float(sum(cost_components(b, vk).values()))
     out.seconds = time.perf_counter() - t0
     return out
+
+
+def _set_start(hm: HighsModel, top, cases, builders, nets, lanes, start, objective, mip_gap, threads) -> None:
+    """Hand HiGHS the plan of DC decisions ``start`` whole: each scenario's own solve with those decisions
+    held gives its block values (the way a phasing's first plan is made from the periods' own solves);
+    when a scenario's model differs in shape, only the openings are handed over (HiGHS completes them)."""
+    values: dict[str, np.ndarray] = {name: np.zeros(len(labels)) for name, labels in top.var_labels.items()}
+    whole = True
+    costs = []
+    for s, (ck, b) in enumerate(zip(cases, builders)):
+        r = solve_year(ck, hold=start, lanes=lanes, diagnose=False, mip_gap=mip_gap, threads=threads)
+        if not r.has_solution or r.plan_values is None:
+            whole = False
+            break
+        for name in b.vars:
+            v = r.plan_values.get(name)
+            if v is None or len(v) != len(values[block(name, s)]):
+                whole = False
+                break
+            values[block(name, s)] = np.asarray(v, float)
+        costs.append(float(sum(cost_components(b, {n: values[block(n, s)] for n in b.vars}).values())))
+    if whole and "worst_case" in values:
+        values["worst_case"] = np.array([max(costs)])
+    if whole:
+        try:
+            hm.set_plan_start(values)
+            return
+        except ValueError:
+            pass
+    y = fixed_options(nets[0], start)
+    if y is not None:
+        cols = np.concatenate([hm.col_of[block("open", s)] for s in range(len(cases))])
+        vals = np.tile(y, len(cases))
+        m = cols >= 0
+        if m.any():
+            hm.highs.setSolution(int(m.sum()), cols[m].astype(np.int32), vals[m])

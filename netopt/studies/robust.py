@@ -94,6 +94,9 @@ def robust_settings(case: Case) -> dict:
         raise CaseError([Problem("settings", None, None, p) for p in problems])
     r["cost_bound"] = float(r["cost_bound"]) if float(r["cost_bound"]) >= 0 else math.inf
     r["scenarios"] = [str(s).strip() for s in r["scenarios"] if str(s).strip()]
+    solver = case.settings["solver"]
+    r["time_limit_s"] = float(r["time_limit_s"]) if float(r["time_limit_s"]) > 0 else float(solver["time_limit_s"])
+    r["mip_gap"] = float(r["mip_gap"]) if float(r["mip_gap"]) >= 0 else float(solver["mip_gap"])
     return r
 
 
@@ -179,20 +182,6 @@ def run_robust(case: Case, *, workers: int | None = 0, say=None) -> RobustStudy:
     mv = solve(mean, lanes=lanes, diagnose=False)
     timings["own_solves"] = time.perf_counter() - t0
 
-    tell(f"solving the two-stage model ({len(names)} scenarios, DC decisions shared) …")
-    start = mv.held_openings() if mv.has_solution else None
-    stoch = solve_two_stage(cases, names, probs, "expected", lanes=lanes, start=start)
-    timings["two_stage"] = stoch.seconds
-    chosen = stoch
-    kind = str(rs["objective"])
-    asked_other = kind != "expected" or math.isfinite(rs["cost_bound"])
-    if asked_other:
-        tell(f"solving the two-stage model as asked ({kind}, cost bound {rs['cost_bound']:g}) …")
-        chosen = solve_two_stage(cases, names, probs, kind, rs["cost_bound"], lanes=lanes, start=start)
-        timings["two_stage_as_asked"] = chosen.seconds
-        if not chosen.has_plan:
-            messages.append(f"the two-stage model as asked ({kind}, cost bound) has no plan: {chosen.status}")
-
     plans: list[tuple[str, str, dict]] = []
     for n in names:
         if own[n].has_solution:
@@ -203,16 +192,41 @@ def run_robust(case: Case, *, workers: int | None = 0, say=None) -> RobustStudy:
         plans.append(("mean_value", "mean_value", mv.held_openings()))
     else:
         messages.append(f"the mean-value case: {mv.status} (no plan)")
+    t0 = time.perf_counter()
+    spec = evaluation_spec(names, cases, mean, lanes, rs["evaluation"])
+    costs = _evaluate(plans, spec, workers, tell)
+    timings["evaluation"] = time.perf_counter() - t0
+
+    # The two-stage solve starts from the candidate of least expected cost (HiGHS completes its flows).
+    start = _cheapest(costs, names, probs)
+    held_start = next((h for p, _, h in plans if p == start), None)
+    tell(f"solving the two-stage model ({len(names)} scenarios, DC decisions shared, started from '{start}') …")
+    solver = {"lanes": lanes, "start": held_start, "time_limit": rs["time_limit_s"], "mip_gap": rs["mip_gap"]}
+    stoch = solve_two_stage(cases, names, probs, "expected", **solver)
+    timings["two_stage"] = stoch.seconds
+    chosen = stoch
+    kind = str(rs["objective"])
+    asked_other = kind != "expected" or math.isfinite(rs["cost_bound"])
+    if asked_other:
+        tell(f"solving the two-stage model as asked ({kind}, cost bound {rs['cost_bound']:g}) …")
+        chosen = solve_two_stage(cases, names, probs, kind, rs["cost_bound"], **solver)
+        timings["two_stage_as_asked"] = chosen.seconds
+        if not chosen.has_plan:
+            messages.append(f"the two-stage model as asked ({kind}, cost bound) has no plan: {chosen.status}")
+    for label, out in (("", stoch), (" as asked", chosen)):
+        if out.has_plan and out.status != "optimal":
+            messages.append(f"the two-stage model{label} stopped {out.status} at gap {out.gap:.2%}")
+    more = []
     if stoch.has_plan:
-        plans.append(("stochastic", "two_stage", stoch.held))
+        more.append(("stochastic", "two_stage", stoch.held))
     else:
         messages.append(f"the two-stage model: {stoch.status} (no plan)")
     if asked_other and chosen.has_plan:
-        plans.append(("robust", "two_stage", chosen.held))
-
+        more.append(("robust", "two_stage", chosen.held))
     t0 = time.perf_counter()
-    costs = _evaluate(plans, names, cases, mean, lanes, rs["evaluation"], workers, tell)
-    timings["evaluation"] = time.perf_counter() - t0
+    costs = pd.concat([costs, _evaluate(more, spec, workers, tell, known=(plans, costs))], ignore_index=True)
+    plans += more
+    timings["evaluation"] += time.perf_counter() - t0
     method = str(costs["method"].iloc[0]) if len(costs) else ""
     study = _figures(case, costs, plans, names, probs, stoch, chosen, messages)
     study.scenario_demand = sc
@@ -250,37 +264,57 @@ def run_robust(case: Case, *, workers: int | None = 0, say=None) -> RobustStudy:
     return study
 
 
-def _evaluate(plans, names, cases, mean, lanes, evaluation, workers, tell) -> pd.DataFrame:
-    """C[plan, s] of every distinct candidate plan (rows plan, scenario, cost, status, verified, method)."""
+def evaluation_spec(names, cases, mean, lanes, evaluation: str) -> dict:
+    """What :func:`evaluate_plan` needs: the scenarios' cases, the mean-value case, the lanes and how
+    plans are held (``auto`` decided here: rebuilt when the case holds safety stock, else warm)."""
     how = evaluation
     if how == "auto":
         how = "rebuilt" if bool(mean.settings["inventory"]["safety_stock"]) else "warm"
-    spec = {"names": names, "cases": cases, "mean": mean, "lanes": lanes, "evaluation": how}
+    return {"names": names, "cases": cases, "mean": mean, "lanes": lanes, "evaluation": how}
+
+
+def _evaluate(plans, spec, workers, tell, known=None) -> pd.DataFrame:
+    """C[plan, s] of the candidate plans (rows plan, scenario, cost, status, verified, method); each distinct
+    set of DC decisions is held once (``known``: plans already held and their rows, reused)."""
     distinct: dict[str, str] = {}  # plan text → first plan with those decisions
+    done_rows = known[1] if known is not None else pd.DataFrame()
+    for name, _, held in known[0] if known is not None else []:
+        distinct.setdefault(_plan_text(held), name)
     todo: list[dict] = []
     for name, _, held in plans:
         key = _plan_text(held)
         if key not in distinct:
             distinct[key] = name
             todo.append({"id": len(todo), "plan": name, "held": held})
-    tell(f"holding {len(todo)} distinct plan(s) in {len(names)} scenario(s) ({how}) …")
     rows: list[dict] = []
+    if todo:
+        tell(f"holding {len(todo)} distinct plan(s) in {len(spec['names'])} scenario(s) ({spec['evaluation']}) …")
     done = lambda el, out: rows.extend(out["rows"])  # noqa: E731
     if not workers or len(todo) <= 1:
         run_inline(evaluate_plan, spec, todo, done)
     else:
         run_local(evaluate_plan, spec, todo, min(workers, len(todo)), done)
-    by_plan = pd.DataFrame(rows)
+    by_plan = pd.concat([done_rows, pd.DataFrame(rows)], ignore_index=True)
     parts = []
     for name, _, held in plans:
         src = distinct[_plan_text(held)]
         parts.append(by_plan[by_plan["plan"] == src].assign(plan=name))
-    return pd.concat(parts, ignore_index=True)
+    return pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=by_plan.columns)
+
+
+def _cheapest(costs: pd.DataFrame, names: list[str], probs: np.ndarray) -> str:
+    """The candidate plan of least expected cost ("" when none serves every scenario)."""
+    if costs.empty:
+        return ""
+    c = costs.pivot(index="plan", columns="scenario", values="cost").reindex(columns=names)
+    e = (c * probs).sum(axis=1, skipna=False).dropna()
+    return str(e.idxmin()) if len(e) else ""
 
 
 def _figures(case, costs, plans, names, probs, stoch, chosen, messages) -> RobustStudy:
     pi = pd.Series(probs, index=names)
-    c = costs.pivot(index="plan", columns="scenario", values="cost").reindex(index=[p[0] for p in plans], columns=names)
+    c = costs.pivot(index="plan", columns="scenario", values="cost")
+    c = c.reindex(index=[p[0] for p in plans], columns=names).astype(float)
     filled = c.fillna(math.inf)
     optimum = filled.min(axis=0)
     for n in names:
@@ -321,7 +355,7 @@ def _figures(case, costs, plans, names, probs, stoch, chosen, messages) -> Robus
             "worst_cost": filled.max(axis=1).to_numpy(float),
             "expected_regret": (regret * pi).sum(axis=1).to_numpy(float),
             "max_regret": max_regret.to_numpy(float),
-            "min_max_regret": [p == choice for p in c.index],
+            "min_max_regret": [bool(choice) and _plan_text(helds[p]) == _plan_text(helds[choice]) for p in c.index],
         }
     )
     for n in names:
