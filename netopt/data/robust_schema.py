@@ -96,7 +96,8 @@ _table(
         "str",
         "text",
         "method",
-        "warm LP (a held re-solve) or rebuilt (the scenario solved with the DCs fixed)",
+        "warm LP (a held re-solve) or rebuilt (the scenario solved with the DCs fixed; also when a warm "
+        "answer failed its check)",
     ),
 )
 _table(

@@ -105,7 +105,8 @@ def evaluate_plan(spec: dict, el: dict) -> dict:
 
     Warm: one held network per plan, built on the mean-value case, each scenario's demand set by bound
     changes (the ``scale_demand`` change kind) and re-solved warm; a scenario that is no bound change is
-    solved rebuilt.  Rebuilt: each scenario's case solved with the openings fixed."""
+    solved rebuilt, and so is one whose warm answer fails its independent check (the method says so).
+    Rebuilt: each scenario's case solved with the openings fixed."""
     rows = []
     held = None
     if spec["evaluation"] == "warm":
@@ -121,6 +122,8 @@ def evaluate_plan(spec: dict, el: dict) -> dict:
     for name, ck in zip(spec["names"], spec["cases"]):
         r = resolve_held(held, ck, [{"kind": "scale_demand"}], name=name) if held is not None else None
         how = "warm LP" if r is not None else "rebuilt"
+        if r is not None and r.has_solution and not (r.verification is not None and r.verification.passed):
+            r, how = None, "rebuilt (the warm re-solve failed its check)"
         if r is None:
             r = solve(ck, hold=el["held"], lanes=spec["lanes"], diagnose=False)
         ok = r.has_solution
@@ -227,7 +230,7 @@ def run_robust(case: Case, *, workers: int | None = 0, say=None) -> RobustStudy:
     costs = pd.concat([costs, _evaluate(more, spec, workers, tell, known=(plans, costs))], ignore_index=True)
     plans += more
     timings["evaluation"] += time.perf_counter() - t0
-    method = str(costs["method"].iloc[0]) if len(costs) else ""
+    method = ", ".join(dict.fromkeys(costs["method"].astype(str))) if len(costs) else ""
     study = _figures(case, costs, plans, names, probs, stoch, chosen, messages)
     study.scenario_demand = sc
     row = launch
