@@ -14,9 +14,10 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+from launchcase import launch_case, random_launch
 from scipy.integrate import solve_ivp
 
-from netopt.data.launch_demand import bass_adoption, bass_cumulative, forecast_accuracy, peak_year
+from netopt.data.launch_demand import bass_adoption, bass_cumulative, forecast_accuracy, launch_scenarios, peak_year
 
 PARAMS = [(0.03, 0.38), (0.01, 0.5), (0.2, 0.1), (0.05, 0.0)]
 
@@ -79,3 +80,22 @@ def test_mape_and_bias_are_the_textbook_measures():
     assert acc.at["X", "bias_share"] == pytest.approx(20 / 280)
     assert acc.at["Y", "mape"] == pytest.approx((10 / 40 + 0) / 2)
     assert acc.at["Y", "bias"] == pytest.approx(5.0)
+
+
+def test_bass_launch_demand_is_the_peak_year_spread_like_the_analogue():
+    # Level = the peak year's adopters m (F(t) − F(t−1)) (Bass 1969, F from solve_ivp here), spread over
+    # the customers in proportion to the analogue's demand, × each case's factor (the definition).
+    g = random_launch(6)
+    p, q, m = 0.02, 0.45, 50_000.0
+    launch = {"method": "bass", "bass_p": p, "bass_q": q, "market_size": m, "bass_years": 12}
+    case = launch_case(g)
+    case.tables["launches"] = case.tables["launches"].assign(**launch)
+    t = np.arange(0, 13, dtype=float)
+    sol = solve_ivp(lambda _t, f: (p + q * f) * (1 - f), (0.0, 12.0), [0.0], t_eval=t, rtol=1e-11, atol=1e-13)
+    level = m * np.diff(sol.y[0]).max()
+    sc = launch_scenarios(case, "L")
+    total = sum(g["dem"].values())
+    for lv, f in zip(("low", "base", "high"), g["factors"]):
+        d = sc[sc["scenario"] == lv].set_index("customer")["demand"]
+        assert d.sum() == pytest.approx(level * f, rel=1e-6)
+        assert d["C0"] == pytest.approx(level * f * g["dem"]["C0"] / total, rel=1e-6)
