@@ -33,8 +33,9 @@ def robust_sections(study: RobustStudy, currency: str) -> list[Section]:
     out = [
         Section(
             "Cost of each plan in each scenario",
-            f"Each candidate plan's DCs held in every scenario (re-routing only), {currency}/yr; the dash marks the "
-            f"scenario's optimum. RP {_money(s.get('rp'), currency)}, EEV {_money(s.get('eev'), currency)}, "
+            f"Each candidate plan's DCs held in every scenario (re-routing only), {currency}/yr, above each "
+            f"plan's regret there (its cost minus the scenario's optimum). RP {_money(s.get('rp'), currency)}, "
+            f"EEV {_money(s.get('eev'), currency)}, "
             f"WS {_money(s.get('ws'), currency)}: VSS = EEV − RP = {_money(s.get('vss'), currency)} (what planning "
             f"for the scenarios saves against planning for the mean demand), EVPI = RP − WS = "
             f"{_money(s.get('evpi'), currency)} (what knowing the demand in advance would be worth).",

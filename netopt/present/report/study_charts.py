@@ -176,8 +176,8 @@ def cluster_sweep_svg(sweep: pd.DataFrame) -> str:
 
 
 def cost_by_scenario_svg(plan_costs: pd.DataFrame, currency: str) -> str:
-    """Cost of each candidate plan (bar groups) in each scenario (bars), the scenario's optimum marked;
-    a plan that cannot serve a scenario has no bar there."""
+    """Cost of each candidate plan (bar groups) in each scenario (bars) above its regret there (the cost
+    minus the scenario's optimum, where the plans differ); a plan that cannot serve a scenario has no bar."""
     import matplotlib
 
     if plan_costs.empty:
@@ -187,22 +187,22 @@ def cost_by_scenario_svg(plan_costs: pd.DataFrame, currency: str) -> str:
     spare = iter(FALLBACK * 4)
     colour = {s: next(spare) for s in scenarios}
     width = 0.8 / max(len(scenarios), 1)
+    x = np.arange(len(plans))
     with matplotlib.rc_context(chart_rc()):
-        fig, ax = new_chart(11.0, 3.6, left=0.9, bottom=0.9, top=0.4)
-        x = np.arange(len(plans))
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(11.0, 5.4))
+        top = fig.add_axes((0.9 / 11, 0.58, 8.4 / 11, 0.36))
+        low = fig.add_axes((0.9 / 11, 0.14, 8.4 / 11, 0.34), sharex=top)
         for j, s in enumerate(scenarios):
             sub = plan_costs[plan_costs["scenario"] == s].set_index("plan").reindex(plans)
             pos = x - 0.4 + width * (j + 0.5)
-            ax.bar(pos, sub["cost"].to_numpy(float), width=width * 0.92, color=colour[s], label=s)
-            opt = sub["scenario_optimum"].to_numpy(float)
-            ax.scatter(pos, opt, marker="_", s=90, color=INK, zorder=4)
-        ax.set_xticks(x, plans, rotation=15, fontsize=8)
-        ok = plan_costs["cost"].dropna()
-        if len(ok):
-            lo, hi = float(ok.min()), float(ok.max())
-            pad = max(hi - lo, 0.02 * hi, 1.0)
-            ax.set_ylim(max(lo - 1.5 * pad, 0.0), hi + 0.4 * pad)
-        short_ticks(ax.yaxis)
-        ax.set_ylabel(f"cost, {currency}/yr")
-        ax.legend(title="scenario", fontsize=7.5, loc="upper left", bbox_to_anchor=(1.0, 1.0))
+            top.bar(pos, sub["cost"].to_numpy(float), width=width * 0.92, color=colour[s], label=s)
+            low.bar(pos, sub["regret"].to_numpy(float), width=width * 0.92, color=colour[s])
+        top.set_title(f"cost in each scenario, {currency}/yr")
+        low.set_title(f"regret: cost − the scenario's optimum, {currency}/yr", fontsize=8.5)
+        low.set_xticks(x, plans, rotation=12, fontsize=8)
+        for ax in (top, low):
+            short_ticks(ax.yaxis)
+        top.legend(title="scenario", fontsize=7.5, loc="upper left", bbox_to_anchor=(1.01, 1.0))
         return to_svg(fig)
