@@ -103,7 +103,7 @@ def launch_scenarios(case: Case, launch: str = "", levels: list[str] | None = No
 
     Probabilities of a subset of the levels are the launch's, divided by their sum (the caller says so)."""
     row = choose_launch(case, launch)
-    levels = levels or list(LEVELS)
+    levels = list(dict.fromkeys(levels)) if levels else list(LEVELS)
     unknown = [lv for lv in levels if lv not in LEVELS]
     if unknown:
         raise CaseError(
