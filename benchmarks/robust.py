@@ -8,14 +8,15 @@ Usage::
 
 Steps, on ``synthetic_case(size, seed)`` from ``benchmarks/generator.py`` (safety stock off):
 
-1. scenarios: ``--scenarios`` demand scenarios, each product's demand × a seeded factor (0.6–1.6),
-   equally likely;
+1. scenarios: ``--scenarios`` demand scenarios, each product's demand × a seeded factor within
+   1 ± ``--spread`` (0.15), equally likely;
 2. own plans: each scenario solved on its own and the mean-value case (time limit
    ``--solve-time-limit`` s each, gap ``--gap``) — the candidates of the regret table;
 3. held regret: every distinct candidate held in every scenario, warm (``netopt.studies.robust.evaluate_plan``:
    one held model per plan built on the mean-value case, each scenario's demand set by bound changes);
-4. extensive form: ``netopt.engine.two_stage.solve_two_stage`` of all scenarios, cold (no start), time limit
-   ``--time-limit`` s, gap ``--gap``; and again started from the cheapest candidate (as ``netopt robust`` does).
+4. extensive form: ``netopt.engine.two_stage.solve_two_stage`` of all scenarios started from the cheapest
+   candidate (as ``netopt robust`` does), time limit ``--time-limit`` s, gap ``--gap``; and again cold (no
+   start) unless ``--skip-cold``.
 
 Times depend on the machine and on what else runs on it: the report prints the load average before and after.
 """
@@ -60,6 +61,8 @@ def main(argv: list[str] | None = None) -> dict:
     ap.add_argument("--time-limit", type=float, default=600.0)
     ap.add_argument("--solve-time-limit", type=float, default=120.0)
     ap.add_argument("--gap", type=float, default=1e-3)
+    ap.add_argument("--spread", type=float, default=0.15, help="each product's factor is 1 ± up to this")
+    ap.add_argument("--skip-cold", action="store_true", help="leave out the extensive form without a start")
     ap.add_argument("--json", default="")
     a = ap.parse_args(argv)
     out: dict = {"size": a.size, "scenarios": a.scenarios, "seed": a.seed, "cpus": os.cpu_count()}
@@ -69,7 +72,7 @@ def main(argv: list[str] | None = None) -> dict:
     rng = np.random.default_rng(a.seed + 1)
     products = sorted(set(case.tables["demand"]["product"]))
     names = [f"s{i}" for i in range(a.scenarios)]
-    factors = [dict(zip(products, rng.uniform(0.6, 1.6, len(products)).round(3))) for _ in names]
+    factors = [dict(zip(products, rng.uniform(1 - a.spread, 1 + a.spread, len(products)).round(3))) for _ in names]
     cases = [scenario_case(case, f, n) for f, n in zip(factors, names)]
     probs = np.full(len(names), 1.0 / len(names))
     mean = scenario_case(case, {p: float(np.mean([f[p] for f in factors])) for p in products}, "mean")
@@ -81,6 +84,8 @@ def main(argv: list[str] | None = None) -> dict:
         r = solve(ck, lanes=lanes, time_limit=a.solve_time_limit, mip_gap=a.gap, diagnose=False)
         if r.has_solution:
             plans[n] = r.held_openings()
+        else:
+            out.setdefault("own_without_plan", {})[n] = r.status
     out["own_solves_s"] = time.perf_counter() - t0
     distinct = {" ".join(sorted(d for d, v in h.items() if v)): n for n, h in plans.items()}
     out["candidates"], out["distinct_candidates"] = len(plans), len(distinct)
@@ -96,11 +101,14 @@ def main(argv: list[str] | None = None) -> dict:
     out["held_resolves"] = len(costs)
     out["held_all_verified"] = bool(costs["verified"].all())
     c = costs.pivot(index="plan", columns="scenario", values="cost")[names]
-    expected = (c * probs).sum(axis=1)
+    expected = (c * probs).sum(axis=1, skipna=False).dropna()
+    if expected.empty:
+        raise SystemExit("no candidate plan serves every scenario: lower --spread")
     out["best_candidate_expected"] = float(expected.min())
     print(f"held regret: {out['held_regret_s']:.1f} s for {len(costs)} re-solves", flush=True)
 
-    for label, start in (("cold", None), ("started", plans[str(expected.idxmin())])):
+    runs = [("started", plans[str(expected.idxmin())])] + ([] if a.skip_cold else [("cold", None)])
+    for label, start in runs:
         t0 = time.perf_counter()
         ts = solve_two_stage(cases, names, probs, lanes=lanes, time_limit=a.time_limit, mip_gap=a.gap, start=start)
         out[f"extensive_{label}"] = {
