@@ -28,6 +28,7 @@ demo: $(STAMP)
 		--service-by-class A=express,B=standard,C=standard --csl-by-class A=0.98,B=0.95,C=0.90
 	$(VENV)/bin/netopt solve out/brackenholt-classes/case --out out/brackenholt-classes-solved -q
 	$(VENV)/bin/netopt sites cases/brackenholt --out out/brackenholt-sites --k 4 --k-sweep 8 --max-dcs 6
+	$(VENV)/bin/netopt robust cases/brackenholt --out out/brackenholt-robust
 
 lint: $(STAMP)
 	$(PY) -m ruff check netopt tests benchmarks

@@ -30,6 +30,7 @@ from netopt.model.formulation import (
     write_formulation,
 )
 from netopt.model.phasing import stack
+from netopt.model.scenario_copies import stack_scenarios
 from netopt.network.arcs import build_network
 
 MODEL_DIR = Path(__file__).resolve().parents[1] / "netopt" / "model"
@@ -169,6 +170,20 @@ def stacked():
     return stack(builders, per, case.settings, case.tables["dcs"], case.tables["opening_stock"])
 
 
+@pytest.fixture(scope="module")
+def scenario_stacked():
+    """The every-rule case under two demand scenarios (the second's demand × 1.2), worst case with a cost
+    bound: the two-stage model of ``netopt.model.scenario_copies``."""
+    case = every_rule_case()
+    high = case.copy()
+    high.tables["demand"] = high.tables["demand"].assign(quantity=high.tables["demand"]["quantity"] * 1.2)
+    model = pyo.ConcreteModel()
+    builders = [
+        build_model(build_network(c), model=model, suffix=f"@{k}", objective=False) for k, c in enumerate([case, high])
+    ]
+    return stack_scenarios(builders, ["base", "high"], np.array([0.5, 0.5]), "worst_case", 1e12)
+
+
 def _plain(names) -> set[str]:
     return {re.sub(r"@\d+$", "", n) for n in names}
 
@@ -199,21 +214,21 @@ def test_write_formulation_round_trip(tmp_path):
     assert out.read_text(encoding="utf-8") == formulation_markdown()
 
 
-def test_every_built_row_family_has_maths(built, stacked):
+def test_every_built_row_family_has_maths(built, stacked, scenario_stacked):
     page = formulation_markdown()
     tight, _ = built
-    created = _row_families(tight) | _plain(_row_families(stacked))
+    created = _row_families(tight) | _plain(_row_families(stacked)) | _plain(_row_families(scenario_stacked))
     assert created - documented_rows(page) == set(), "row families without maths in their module's add()"
     # Every family the docs state is created on this case (no stale maths), and the static calls agree.
     assert documented_rows(page) - created == set()
     assert _literal_names("add_rows") <= documented_rows(page)
 
 
-def test_every_variable_block_and_cost_component_is_stated(built, stacked):
+def test_every_variable_block_and_cost_component_is_stated(built, stacked, scenario_stacked):
     page = formulation_markdown()
     tight, elastic = built
     blocks = {re.sub(r"^(slack_(?:lo|hi)__).+$", r"\1<family>", n) for n in set(tight.vars) | set(elastic.vars)}
-    blocks |= _plain(stacked.vars)
+    blocks |= _plain(stacked.vars) | _plain(scenario_stacked.vars)
     assert blocks - documented_variables(page) == set()
     assert _literal_names("add_vars") <= documented_variables(page)
     costs = set(tight.cost) | set(tight.cost_constant) | set(elastic.cost) | set(COST_COMPONENTS)

@@ -23,6 +23,7 @@ from netopt.cli.case_verbs import add_check, add_export, add_template
 from netopt.cli.common import EXIT_INTERRUPTED, EXIT_INVALID, EXIT_SOLVER
 from netopt.cli.landed_verbs import add_baseline
 from netopt.cli.plan_verbs import add_classify, add_sites
+from netopt.cli.robust_verbs import add_robust
 from netopt.cli.verbs import add_frontier, add_run, add_solve, add_stress
 from netopt.data.case import CaseError
 from netopt.engine.highs_check import ModelRejected
@@ -38,6 +39,7 @@ RESULT_VERBS = (
     "frontier",
     "classify",
     "sites",
+    "robust",
 )  # verbs whose --out is a results folder
 VERBS: list[Callable] = [
     add_template,
@@ -50,6 +52,7 @@ VERBS: list[Callable] = [
     add_frontier,
     add_classify,
     add_sites,
+    add_robust,
 ]
 """Functions that each add one verb's subparser (in the order shown by --help)."""
 

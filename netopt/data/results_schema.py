@@ -469,6 +469,7 @@ from netopt.data import (  # noqa: E402, F401
     classify_schema,
     horizon_schema,
     landed_schema,
+    robust_schema,
     sites_schema,
     stress_schema,
 )

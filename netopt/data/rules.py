@@ -9,6 +9,7 @@ import pandas as pd
 from netopt.data.case import Problem
 from netopt.data.countries import country_problems
 from netopt.data.rate_checks import rate_tier_problems
+from netopt.data.rules_launch import launch_problems
 from netopt.data.rules_time import time_problems
 from netopt.data.schema import LEGS, TABLES
 from netopt.data.share_checks import share_rule_problems
@@ -362,5 +363,6 @@ def cross_table_problems(
     problems += _mode_rules(tables)
     problems += _other_rules(tables, given, usable)
     problems += time_problems(tables, given, usable, settings)
+    problems += launch_problems(tables, usable)
     problems += _dc_count_rules(tables, settings, label, settings_rows)
     return problems

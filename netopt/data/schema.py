@@ -15,6 +15,7 @@ from __future__ import annotations
 from netopt.data.declarations import INF, Reference, Table
 from netopt.data.declarations import column as _c
 from netopt.data.schema_landed import BORDERS, COUNTRY, CURRENT_FLOWS, DEMAND_PRICE, DUTIES
+from netopt.data.schema_launch import LAUNCH_ADJUSTMENTS, LAUNCHES, PAST_LAUNCHES
 from netopt.data.schema_rates import RATE_TIERS
 from netopt.data.schema_shares import DC_REGION_SHARE, SOURCING_SHARES, SUPPLIER_MIN_SHARE
 from netopt.data.schema_time import CAPACITY_BY_PERIOD, DEMAND_PERIOD, OPENING_STOCK, PERIODS
@@ -463,9 +464,19 @@ _table(
     )
 )
 
-for _t in (PERIODS, CAPACITY_BY_PERIOD, OPENING_STOCK, MODES, RATE_TIERS, LANES, LANE_MATRIX, ROAD_EDGES):
+for _t in (
+    PERIODS,
+    CAPACITY_BY_PERIOD,
+    OPENING_STOCK,
+    MODES,
+    RATE_TIERS,
+    LANES,
+    LANE_MATRIX,
+    ROAD_EDGES,
+    SOURCING_SHARES,
+):
     _table(_t)
-for _t in (SOURCING_SHARES, DUTIES, BORDERS, CURRENT_FLOWS):
+for _t in (DUTIES, BORDERS, CURRENT_FLOWS, LAUNCHES, LAUNCH_ADJUSTMENTS, PAST_LAUNCHES):  # in schema order
     _table(_t)
 
 

@@ -330,6 +330,73 @@ SETTINGS: tuple[Setting, ...] = (
         "Let a DC close and open again between periods (off: a DC once opened stays open and an existing DC "
         "closes at most once)",
     ),
+    Setting(
+        "robust",
+        "objective",
+        "str",
+        "",
+        "expected",
+        "What netopt robust's plan minimises: expected (the probability-weighted cost over the demand scenarios) "
+        "or worst_case (the largest scenario cost); the expected-cost plan is always solved too, for VSS and EVPI",
+    ),
+    Setting(
+        "robust",
+        "cost_bound",
+        "float",
+        "currency/year",
+        -1.0,
+        "Most any demand scenario may cost with the plan (a bound on every scenario's cost); -1 = no bound",
+        min=-1,
+    ),
+    Setting(
+        "robust",
+        "launch",
+        "str",
+        "",
+        "",
+        "Launch (from launches) whose demand scenarios are planned; blank = the only one",
+    ),
+    Setting(
+        "robust",
+        "scenarios",
+        "list",
+        "",
+        [],
+        "Cases of the launch to plan for (low, base, high); empty = all three (a subset's probabilities are divided "
+        "by their sum)",
+    ),
+    Setting(
+        "robust",
+        "time_limit_s",
+        "float",
+        "s",
+        -1.0,
+        "Time limit of each two-stage solve (the scenario copies in one MIP); -1 = solver.time_limit_s",
+        min=-1,
+        max=MAX_TIME_LIMIT_S,
+        max_is_limit=True,
+    ),
+    Setting(
+        "robust",
+        "mip_gap",
+        "float",
+        "ratio",
+        -1.0,
+        "Optimality gap of the two-stage solves (the scenario copies multiply the model: a looser gap than the "
+        "one-year solve's may be worth it); -1 = solver.mip_gap",
+        min=-1,
+        max=1,
+    ),
+    Setting(
+        "robust",
+        "evaluation",
+        "str",
+        "",
+        "auto",
+        "How each candidate plan is held in each scenario: warm (LP re-solves of one held model per plan), rebuilt "
+        "(each scenario solved with the openings fixed; exact with the safety-stock curve) or auto (warm unless "
+        "the case holds safety stock)",
+    ),
 )
 
 

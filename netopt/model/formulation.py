@@ -3,7 +3,8 @@
 The page is assembled from ``netopt.model``'s module docstring (sets and indices),
 ``Builder.finish`` (objective and elastic diagnosis), each concept module's ``add()``, in the
 order :func:`netopt.model.build_model` calls them, and the phasing that links the periods of a case
-with periods (``netopt.model.phasing.stack``).  In those docstrings a row family is an
+with periods (``netopt.model.phasing.stack``) and the scenario copies of the two-stage model
+(``netopt.model.scenario_copies.stack_scenarios``).  In those docstrings a row family is an
 indented line ``name:`` (``name †:`` when it is never relaxed) and a cost component a line
 ``C[name] = ...``; symbol tables name variable blocks as ``variable block ``name````.
 
@@ -19,7 +20,7 @@ from pathlib import Path
 from types import ModuleType
 
 from netopt import model
-from netopt.model import COST_COMPONENTS, build_model, phasing
+from netopt.model import COST_COMPONENTS, build_model, phasing, scenario_copies
 from netopt.model.core import Builder
 
 DOC_PATH = Path(__file__).resolve().parents[2] / "docs" / "formulation.md"
@@ -44,6 +45,9 @@ def _sections() -> list[tuple[str, str, str]]:
     for mod in build_order():
         out.append(("", f"{mod.__name__}.add", inspect.getdoc(mod.add) or ""))
     out.append(("", "netopt.model.phasing.stack", inspect.getdoc(phasing.stack) or ""))
+    out.append(
+        ("", "netopt.model.scenario_copies.stack_scenarios", inspect.getdoc(scenario_copies.stack_scenarios) or "")
+    )
     return out
 
 

@@ -30,6 +30,37 @@ def _renamed(t: Term, k: int, scale: float = 1.0) -> Term:
     return Term(block(t.block, k), t.idx, np.asarray(t.coef, float) * scale, t.row)
 
 
+def copy_blocks(top: Builder, b: Builder, k: int, weight=None) -> None:
+    """Copy builder ``b``'s variable blocks, row families and cost terms into ``top``, renamed ``name@k``;
+    each cost component c weighted by ``weight(c)`` (None: the costs are not copied).  How one model of
+    several copies of a network is gathered (the periods here, the scenarios of
+    ``netopt.model.scenario_copies``)."""
+    for name in b.vars:
+        top.vars[block(name, k)] = b.vars[name]
+        top.var_labels[block(name, k)] = b.var_labels[name]
+        top.var_bounds[block(name, k)] = b.var_bounds[name]
+    for name, frame in b.row_labels.items():
+        top.row_labels[block(name, k)] = frame
+        top.relaxable[block(name, k)] = b.relaxable[name]
+    for name, mr in b.matrix_rows.items():
+        terms = [_renamed(t, k) for t in mr.terms]
+        top.matrix_rows[block(name, k)] = MatrixRows(mr.n, terms, mr.sense, mr.rhs.copy())
+    top.empty_infeasible += [(block(n, k), r) for n, r in b.empty_infeasible]
+    top.dc_big_m = b.dc_big_m
+    if weight is None:
+        return
+    for comp, terms in b.cost.items():
+        wc = float(weight(comp))
+        for t in terms:
+            top.add_cost(comp, _renamed(t, k, wc))
+        top.cost_constant[comp] = top.cost_constant.get(comp, 0.0) + wc * b.cost_constant.get(comp, 0.0)
+
+
+def renamed_terms(b: Builder, k: int) -> list[Term]:
+    """Every cost term of builder ``b`` renamed to copy ``k``'s blocks (unweighted)."""
+    return [_renamed(t, k) for terms in b.cost.values() for t in terms]
+
+
 def stack(
     builders: list[Builder], periods: pd.DataFrame, settings: dict, dcs: pd.DataFrame, opening_stock: pd.DataFrame
 ) -> Builder:
@@ -84,23 +115,7 @@ def stack(
     w = periods["annual_weight"].to_numpy(float)
     delta = periods["one_off_weight"].to_numpy(float)
     for k, b in enumerate(builders):
-        for name in b.vars:
-            top.vars[block(name, k)] = b.vars[name]
-            top.var_labels[block(name, k)] = b.var_labels[name]
-            top.var_bounds[block(name, k)] = b.var_bounds[name]
-        for name, frame in b.row_labels.items():
-            top.row_labels[block(name, k)] = frame
-            top.relaxable[block(name, k)] = b.relaxable[name]
-        for name, mr in b.matrix_rows.items():
-            terms = [_renamed(t, k) for t in mr.terms]
-            top.matrix_rows[block(name, k)] = MatrixRows(mr.n, terms, mr.sense, mr.rhs.copy())
-        top.empty_infeasible += [(block(n, k), r) for n, r in b.empty_infeasible]
-        top.dc_big_m = b.dc_big_m
-        for comp, terms in b.cost.items():
-            weight = delta[k] if comp in ONE_OFF_COMPONENTS else w[k]
-            for t in terms:
-                top.add_cost(comp, _renamed(t, k, weight))
-            top.cost_constant[comp] = top.cost_constant.get(comp, 0.0) + weight * b.cost_constant.get(comp, 0.0)
+        copy_blocks(top, b, k, lambda comp, k=k: delta[k] if comp in ONE_OFF_COMPONENTS else w[k])
     _phase_dcs(top, builders, periods, dcs, bool(settings["periods"]["dc_reopening"]))
     if bool(settings["periods"]["carry_stock"]):
         _carry_stock(top, builders, periods, bool(settings["periods"]["repeat_year"]), opening_stock)

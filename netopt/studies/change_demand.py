@@ -67,7 +67,8 @@ def _demand_rows(ed: CaseEdit, ch: Change, dem: pd.DataFrame) -> pd.Series:
 
 
 def held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan | None:
-    """Demand rows set to the scenario's quantities; lost demand bounded by them."""
+    """Demand rows set to the scenario's quantities; lost demand bounded by them; each service window's
+    target on the customer's new demand."""
     net = held.net
     q_new = sc_case.tables["demand"].set_index(["customer", "product"])["quantity"]
     if q_new.sum() > held.builder.dc_big_m / 2:
@@ -79,6 +80,13 @@ def held_scale_demand(held: HeldNetwork, ch: Change, sc_case: Case) -> BoundPlan
         if rows[k] >= 0:
             plan.rows[int(rows[k])] = (q[k], q[k])
         plan.set_cols(held.cols("unmet", np.array([k])), 0.0, q[k])
+    labels = held.builder.row_labels.get("service_window")
+    if labels is not None and len(labels):  # on-time units ≥ τ_c × the customer's (new) demand
+        per_customer = pd.Series(q, index=net.demand["customer"].to_numpy()).groupby(level=0).sum()
+        need = labels["target_share"].to_numpy(float) * labels["customer"].map(per_customer).fillna(0.0).to_numpy(float)
+        rows = held.rows_of("service_window")
+        for k in np.flatnonzero(rows >= 0):
+            plan.rows[int(rows[k])] = (float(need[k]), np.inf)
     return plan
 
 

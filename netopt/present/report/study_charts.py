@@ -173,3 +173,36 @@ def cluster_sweep_svg(sweep: pd.DataFrame) -> str:
         ax.set_ylim(bottom=0)
         ax.legend(loc="center left", bbox_to_anchor=(1.01, 0.5), fontsize=7.5)
         return to_svg(fig)
+
+
+def cost_by_scenario_svg(plan_costs: pd.DataFrame, currency: str) -> str:
+    """Cost of each candidate plan (bar groups) in each scenario (bars) above its regret there (the cost
+    minus the scenario's optimum, where the plans differ); a plan that cannot serve a scenario has no bar."""
+    import matplotlib
+
+    if plan_costs.empty:
+        return ""
+    plans = list(dict.fromkeys(plan_costs["plan"]))
+    scenarios = list(dict.fromkeys(plan_costs["scenario"]))
+    spare = iter(FALLBACK * 4)
+    colour = {s: next(spare) for s in scenarios}
+    width = 0.8 / max(len(scenarios), 1)
+    x = np.arange(len(plans))
+    with matplotlib.rc_context(chart_rc()):
+        from matplotlib.figure import Figure
+
+        fig = Figure(figsize=(11.0, 5.4))
+        top = fig.add_axes((0.9 / 11, 0.58, 8.4 / 11, 0.36))
+        low = fig.add_axes((0.9 / 11, 0.14, 8.4 / 11, 0.34), sharex=top)
+        for j, s in enumerate(scenarios):
+            sub = plan_costs[plan_costs["scenario"] == s].set_index("plan").reindex(plans)
+            pos = x - 0.4 + width * (j + 0.5)
+            top.bar(pos, sub["cost"].to_numpy(float), width=width * 0.92, color=colour[s], label=s)
+            low.bar(pos, sub["regret"].to_numpy(float), width=width * 0.92, color=colour[s])
+        top.set_title(f"cost in each scenario, {currency}/yr")
+        low.set_title(f"regret: cost − the scenario's optimum, {currency}/yr", fontsize=8.5)
+        low.set_xticks(x, plans, rotation=12, fontsize=8)
+        for ax in (top, low):
+            short_ticks(ax.yaxis)
+        top.legend(title="scenario", fontsize=7.5, loc="upper left", bbox_to_anchor=(1.01, 1.0))
+        return to_svg(fig)
