@@ -111,6 +111,7 @@ def test_two_stage_equals_brute_force_and_vss_evpi_are_not_negative(seed, penalt
     st = run_robust(launch_case(g))
     s = st.summary
     assert s["two_stage"]["objective"] == pytest.approx(ref["rp"], rel=1e-7)
+    assert s["objective"] == pytest.approx(ref["rp"], rel=1e-7)  # the plan held exactly: its expected cost
     assert s["rp"] == pytest.approx(ref["rp"], rel=1e-7)
     assert s["ws"] == pytest.approx(ref["ws"], rel=1e-7)
     assert _num(s["eev"]) == pytest.approx(ref["eev"], rel=1e-7)

@@ -232,6 +232,7 @@ def run_robust(case: Case, *, workers: int | None = 0, say=None) -> RobustStudy:
     timings["evaluation"] += time.perf_counter() - t0
     method = ", ".join(dict.fromkeys(costs["method"].astype(str))) if len(costs) else ""
     study = _figures(case, costs, plans, names, probs, stoch, chosen, messages)
+    study.summary["objective"] = held_objective(study.regret, "robust" if asked_other else "stochastic", kind)
     study.scenario_demand = sc
     row = launch
     if str(row["method"]) == "bass":
@@ -312,6 +313,17 @@ def _cheapest(costs: pd.DataFrame, names: list[str], probs: np.ndarray) -> str:
     c = costs.pivot(index="plan", columns="scenario", values="cost").reindex(columns=names)
     e = (c * probs).sum(axis=1, skipna=False).dropna()
     return str(e.idxmin()) if len(e) else ""
+
+
+def held_objective(regret: pd.DataFrame, plan: str, kind: str) -> float | None:
+    """The chosen plan's objective as held exactly in every scenario (currency/yr): its expected cost, or
+    its worst scenario's cost for ``worst_case``; None when it has no finite value.  The two-stage MIP's
+    own objective (``summary.two_stage.objective``) differs from it by at most that search's gap."""
+    row = regret[regret["plan"] == plan]
+    if row.empty:
+        return None
+    value = float(row["worst_cost" if kind == "worst_case" else "expected_cost"].iloc[0])
+    return value if math.isfinite(value) else None
 
 
 def _figures(case, costs, plans, names, probs, stoch, chosen, messages) -> RobustStudy:
