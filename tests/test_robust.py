@@ -22,6 +22,8 @@ from scipy.optimize import linprog
 from netopt.api import run_robust, solve
 from netopt.data.case import CaseError
 from netopt.data.launch_demand import launch_scenarios, with_launch_demand
+from netopt.engine.two_stage import TwoStageOutcome
+from netopt.studies.robust import SCENARIOS_BOUND_USED, scenarios_bound, with_scenarios_bound
 
 
 def lp_cost(g: dict, S: tuple[str, ...], n_factor: float) -> float:
@@ -112,6 +114,7 @@ def test_two_stage_equals_brute_force_and_vss_evpi_are_not_negative(seed, penalt
     s = st.summary
     assert s["two_stage"]["objective"] == pytest.approx(ref["rp"], rel=1e-7)
     assert s["objective"] == pytest.approx(ref["rp"], rel=1e-7)  # the plan held exactly: its expected cost
+    assert s["two_stage"]["bound"] <= ref["rp"] * (1 + 1e-7)  # a lower bound, whichever one it is
     assert s["rp"] == pytest.approx(ref["rp"], rel=1e-7)
     assert s["ws"] == pytest.approx(ref["ws"], rel=1e-7)
     assert _num(s["eev"]) == pytest.approx(ref["eev"], rel=1e-7)
@@ -271,3 +274,19 @@ def test_warm_holds_equal_rebuilt_with_a_service_target():
     a, b = run_robust(warm).plan_costs, run_robust(rebuilt).plan_costs
     assert set(a["method"]) == {"warm LP"} and a.loc[a["cost"].notna(), "verified"].all()
     assert a["cost"].to_numpy() == pytest.approx(b["cost"].to_numpy(), rel=1e-7, nan_ok=True)
+
+
+def test_scenarios_own_bounds_bound_the_two_stage_plan():
+    # Wait-and-see ≤ the recourse problem (Birge & Louveaux, ch. 4): Σ π_s LB_s bounds the expected
+    # cost; for the worst case, min over plans of the maximum ≥ the largest scenario minimum.
+    probs = np.array([0.3, 0.5, 0.2])
+    assert scenarios_bound([10.0, 20.0, 40.0], probs, "expected") == pytest.approx(21.0)
+    assert scenarios_bound([10.0, 20.0, 40.0], probs, "worst_case") == 40.0
+    assert scenarios_bound([10.0, -math.inf, 40.0], probs, "expected") == -math.inf
+    out = TwoStageOutcome("time_limit", 22.0, 1.0, 21.0 / 22.0, held={"D1": True})
+    said: list[str] = []
+    tighter = with_scenarios_bound(out, 21.0, said)
+    assert tighter.bound == 21.0 and tighter.gap == pytest.approx(1.0 / 22.0) and said == [SCENARIOS_BOUND_USED]
+    assert with_scenarios_bound(out, 0.5, []) is out  # weaker: the search's bound stays
+    above: list[str] = []
+    assert with_scenarios_bound(out, 23.0, above) is out and "not used" in above[0]

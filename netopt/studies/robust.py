@@ -21,6 +21,7 @@ cost of the candidates when one is cheaper than the two-stage plan (said likewis
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import time
 from dataclasses import dataclass, field
@@ -41,7 +42,7 @@ from netopt.data.launch_demand import (
 from netopt.data.periods import has_periods
 from netopt.engine.held import HeldNetwork
 from netopt.engine.solve import solve
-from netopt.engine.two_stage import solve_two_stage
+from netopt.engine.two_stage import TwoStageOutcome, solve_two_stage
 from netopt.network.lanes import case_lanes
 from netopt.studies.changes import resolve_held
 from netopt.studies.sweep_exec import check_workers, run_inline, run_local
@@ -216,6 +217,11 @@ def run_robust(case: Case, *, workers: int | None = 0, say=None) -> RobustStudy:
         timings["two_stage_as_asked"] = chosen.seconds
         if not chosen.has_plan:
             messages.append(f"the two-stage model as asked ({kind}, cost bound) has no plan: {chosen.status}")
+    own_bounds = [float(own[n].bound) if own[n].bound is not None else -math.inf for n in names]
+    stoch = with_scenarios_bound(stoch, scenarios_bound(own_bounds, probs, "expected"), messages)
+    chosen = (
+        stoch if not asked_other else with_scenarios_bound(chosen, scenarios_bound(own_bounds, probs, kind), messages)
+    )
     for label, out in (("", stoch), (" as asked", chosen)):
         if out.has_plan and out.status != "optimal":
             messages.append(f"the two-stage model{label} stopped {out.status} at gap {out.gap:.2%}")
@@ -313,6 +319,34 @@ def _cheapest(costs: pd.DataFrame, names: list[str], probs: np.ndarray) -> str:
     c = costs.pivot(index="plan", columns="scenario", values="cost").reindex(columns=names)
     e = (c * probs).sum(axis=1, skipna=False).dropna()
     return str(e.idxmin()) if len(e) else ""
+
+
+def scenarios_bound(bounds: list[float], probs: np.ndarray, kind: str) -> float:
+    """A lower bound of the two-stage optimum from each scenario's own lower bound LB_s (currency/yr):
+    Σ_s π_s LB_s for the expected cost (wait-and-see ≤ the recourse problem, Birge & Louveaux, ch. 4), or
+    max_s LB_s for the worst case (min over plans of a maximum ≥ the maximum of the minima); a cost bound
+    per scenario only narrows the plans, so both stay valid.  −inf when a scenario has no bound."""
+    b = np.asarray(bounds, float)
+    if not len(b) or not np.isfinite(b).all():
+        return -math.inf
+    return float(b.max()) if kind == "worst_case" else float(np.dot(probs, b))
+
+
+SCENARIOS_BOUND_USED = "the two-stage model's bound is the scenarios' own (stronger than its search's)"
+
+
+def with_scenarios_bound(out: TwoStageOutcome, bound: float, messages: list[str]) -> TwoStageOutcome:
+    """``out`` with :func:`scenarios_bound` when it is the stronger bound (gap recomputed, said in ``messages``)."""
+    own = out.bound if math.isfinite(out.bound) else -math.inf
+    if not (out.has_plan and math.isfinite(bound) and bound > own):
+        return out
+    if bound > out.objective + 1e-9 * max(1.0, abs(out.objective)):  # cannot be: a defect, said, not used
+        messages.append(f"the scenarios' own bound ({bound:,.2f}) lies above the two-stage plan's cost: not used")
+        return out
+    if SCENARIOS_BOUND_USED not in messages:
+        messages.append(SCENARIOS_BOUND_USED)
+    gap = max(0.0, (out.objective - bound) / max(1.0, abs(out.objective)))
+    return dataclasses.replace(out, bound=bound, gap=min(gap, out.gap) if math.isfinite(out.gap) else gap)
 
 
 def held_objective(regret: pd.DataFrame, plan: str, kind: str) -> float | None:
