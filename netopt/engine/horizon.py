@@ -18,6 +18,7 @@ import pyomo.environ as pyo
 
 from netopt.data.case import Case
 from netopt.data.periods import horizon, period_case
+from netopt.engine.bounds import stronger_bound, weighted_bound
 from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import cost_components, extract
 from netopt.engine.highs import SolveInfo, compile_model
@@ -220,15 +221,14 @@ PERIODS_BOUND_USED = "bound from the periods' own solves (stronger than the MIP 
 def with_periods_bound(info: SolveInfo, bound: float) -> SolveInfo:
     """``info`` with the periods' bound (:func:`periods_bound`) when it is stronger than the MIP search's;
     the gap is recomputed from it and the message says so."""
-    own = info.bound if np.isfinite(info.bound) else -np.inf
-    if not (info.has_solution and np.isfinite(bound) and bound > own):
+    if not info.has_solution:
         return info
-    if bound > info.objective + 1e-9 * max(1.0, abs(info.objective)):  # cannot be: a defect, said, not used
-        note = f"the periods' own bound ({bound:,.2f}) lies above the plan's cost: not used (a defect to report)"
-        return dataclasses.replace(info, message="; ".join(m for m in (info.message, note) if m))
-    gap = max(0.0, (info.objective - bound) / max(1.0, abs(info.objective)))
-    message = "; ".join(m for m in (info.message, PERIODS_BOUND_USED) if m)
-    return dataclasses.replace(info, bound=bound, gap=min(gap, info.gap), message=message)
+    new, gap, note = stronger_bound(info.objective, info.bound, info.gap, bound)
+    if not note:
+        return info
+    said = PERIODS_BOUND_USED if note == "used" else note.replace("the parts'", "the periods'") + " (a defect)"
+    message = "; ".join(m for m in (info.message, said) if m)
+    return dataclasses.replace(info, bound=new, gap=gap, message=message)
 
 
 def periods_bound(top, bounds: list[float], weights: np.ndarray) -> float:
@@ -238,9 +238,7 @@ def periods_bound(top, bounds: list[float], weights: np.ndarray) -> float:
     by w_k (``periods.annual_weight``, > 0).  Valid only when no stock is carried between periods (the
     stock rows link them the other way: a period alone may be dearer or infeasible); −inf otherwise or
     when a period has no bound."""
-    if "stock" in top.var_labels or len(bounds) < len(weights) or not all(np.isfinite(bounds)):
-        return -np.inf
-    return float(np.dot(weights, bounds))
+    return -np.inf if "stock" in top.var_labels else weighted_bound(bounds, weights)
 
 
 def stock_not_carried(case: Case, top) -> str:

@@ -40,6 +40,7 @@ from netopt.data.launch_demand import (
     with_launch_demand,
 )
 from netopt.data.periods import has_periods
+from netopt.engine.bounds import stronger_bound, weighted_bound
 from netopt.engine.held import HeldNetwork
 from netopt.engine.solve import solve
 from netopt.engine.two_stage import TwoStageOutcome, solve_two_stage
@@ -326,10 +327,10 @@ def scenarios_bound(bounds: list[float], probs: np.ndarray, kind: str) -> float:
     Σ_s π_s LB_s for the expected cost (wait-and-see ≤ the recourse problem, Birge & Louveaux, ch. 4), or
     max_s LB_s for the worst case (min over plans of a maximum ≥ the maximum of the minima); a cost bound
     per scenario only narrows the plans, so both stay valid.  −inf when a scenario has no bound."""
-    b = np.asarray(bounds, float)
-    if not len(b) or not np.isfinite(b).all():
-        return -math.inf
-    return float(b.max()) if kind == "worst_case" else float(np.dot(probs, b))
+    if kind == "worst_case":
+        b = np.asarray(bounds, float)
+        return float(b.max()) if len(b) and np.isfinite(b).all() else -math.inf
+    return weighted_bound(bounds, probs)
 
 
 SCENARIOS_BOUND_USED = "the two-stage model's bound is the scenarios' own (stronger than its search's)"
@@ -337,16 +338,16 @@ SCENARIOS_BOUND_USED = "the two-stage model's bound is the scenarios' own (stron
 
 def with_scenarios_bound(out: TwoStageOutcome, bound: float, messages: list[str]) -> TwoStageOutcome:
     """``out`` with :func:`scenarios_bound` when it is the stronger bound (gap recomputed, said in ``messages``)."""
-    own = out.bound if math.isfinite(out.bound) else -math.inf
-    if not (out.has_plan and math.isfinite(bound) and bound > own):
+    if not out.has_plan:
         return out
-    if bound > out.objective + 1e-9 * max(1.0, abs(out.objective)):  # cannot be: a defect, said, not used
-        messages.append(f"the scenarios' own bound ({bound:,.2f}) lies above the two-stage plan's cost: not used")
+    new, gap, note = stronger_bound(out.objective, out.bound, out.gap, bound)
+    if note and note != "used":
+        messages.append(note.replace("the parts'", "the scenarios'"))
+    if note != "used":
         return out
     if SCENARIOS_BOUND_USED not in messages:
         messages.append(SCENARIOS_BOUND_USED)
-    gap = max(0.0, (out.objective - bound) / max(1.0, abs(out.objective)))
-    return dataclasses.replace(out, bound=bound, gap=min(gap, out.gap) if math.isfinite(out.gap) else gap)
+    return dataclasses.replace(out, bound=new, gap=gap)
 
 
 def held_objective(regret: pd.DataFrame, plan: str, kind: str) -> float | None:
