@@ -1,6 +1,6 @@
 # The two commands a new machine needs: `make demo` and `make test`.
 # Each creates .venv when missing and installs netopt into it first.
-# `make test` runs ruff (lint and format), mypy and then pytest; any finding fails it.
+# `make test` runs ruff (lint and format), mypy and then pytest on both cores (pytest-xdist); any finding fails it.
 PYTHON ?= python3
 VENV := .venv
 PY := $(VENV)/bin/python
@@ -36,7 +36,7 @@ lint: $(STAMP)
 	$(PY) -m mypy netopt
 
 test: lint
-	$(PY) -m pytest -q
+	$(PY) -m pytest -q -n 2
 
 fuzz: $(STAMP)
 	$(PY) -m pytest -q -m fuzz_long tests/test_fuzz.py
