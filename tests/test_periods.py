@@ -24,6 +24,7 @@ from netopt.engine.baseline import cost_current_flows
 from netopt.engine.highs import SolveInfo
 from netopt.engine.horizon import PERIODS_BOUND_USED, periods_bound, with_periods_bound
 from netopt.engine.solve import solve
+from netopt.present.report import render_report
 from netopt.studies.comparison import cost_comparable_to_today
 
 
@@ -333,6 +334,16 @@ def test_cost_to_serve_of_each_season_sums_to_its_cost_with_stock_built_ahead():
     assert built["peak"] == pytest.approx(0.0, abs=1e-6)
     # Marginal values are one year's: over periods they are not computed, and the result says so.
     assert r.tables["shadow_prices"].empty and "not computed for a plan over periods" in r.message
+
+
+def test_report_of_a_plan_over_periods_shows_the_phasing_and_the_empty_marginal_values():
+    # The report renders a plan over periods: its phasing and cost per period, and the marginal-value
+    # sections said to be empty (common practice, no source: a report never fails on an empty table).
+    r = solve(_seasonal_case(10_000.0, 6_000.0, 13_000.0))
+    page = render_report(r)
+    assert "Phasing of the DCs" in page and "Cost per period" in page
+    at = page.index('id="extra-shadow-prices"')
+    assert "No rows in this plan" in page[at : page.index("</section>", at)]
 
 
 def test_seasonal_peak_without_stock_loses_demand_or_is_infeasible():
