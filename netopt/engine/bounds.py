@@ -16,6 +16,14 @@ import math
 
 import numpy as np
 
+KEPT, USED, ABOVE = "kept", "used", "above"
+"""What :func:`stronger_bound` did with the parts' bound."""
+
+
+def above_note(parts: str, bound: float) -> str:
+    """The sentence for :data:`ABOVE`: ``parts`` names them ("the periods'")."""
+    return f"{parts} own bound ({bound:,.2f}) lies above the plan's cost: not used (a defect to report)"
+
 
 def weighted_bound(bounds: list[float], weights: np.ndarray) -> float:
     """Σ_i w_i LB_i (currency), or −inf when a part has no finite bound."""
@@ -26,13 +34,13 @@ def weighted_bound(bounds: list[float], weights: np.ndarray) -> float:
 
 
 def stronger_bound(objective: float, bound: float, gap: float, parts_bound: float) -> tuple[float, float, str]:
-    """The bound and gap of a plan of cost ``objective`` with ``parts_bound`` folded in, and a note:
-    "" when the search's own ``bound`` stays (it is as strong), "used" when the parts' bound replaces it,
-    or a sentence when the parts' bound lies above the plan's cost (it cannot: a defect, not used)."""
+    """The bound and gap of a plan of cost ``objective`` with ``parts_bound`` folded in, and what happened:
+    :data:`KEPT` (the search's own ``bound`` is as strong), :data:`USED` (the parts' bound replaces it) or
+    :data:`ABOVE` (the parts' bound lies above the plan's cost: it cannot, a defect; not used)."""
     own = bound if math.isfinite(bound) else -math.inf
     if not (math.isfinite(parts_bound) and parts_bound > own):
-        return bound, gap, ""
+        return bound, gap, KEPT
     if parts_bound > objective + 1e-9 * max(1.0, abs(objective)):
-        return bound, gap, f"the parts' own bound ({parts_bound:,.2f}) lies above the plan's cost: not used"
+        return bound, gap, ABOVE
     new_gap = max(0.0, (objective - parts_bound) / max(1.0, abs(objective)))
-    return parts_bound, (min(new_gap, gap) if math.isfinite(gap) else new_gap), "used"
+    return parts_bound, (min(new_gap, gap) if math.isfinite(gap) else new_gap), USED

@@ -18,7 +18,7 @@ import pyomo.environ as pyo
 
 from netopt.data.case import Case
 from netopt.data.periods import horizon, period_case
-from netopt.engine.bounds import stronger_bound, weighted_bound
+from netopt.engine.bounds import KEPT, USED, above_note, stronger_bound, weighted_bound
 from netopt.engine.diagnose import diagnose_infeasibility
 from netopt.engine.extract import cost_components, extract
 from netopt.engine.highs import SolveInfo, compile_model
@@ -223,10 +223,10 @@ def with_periods_bound(info: SolveInfo, bound: float) -> SolveInfo:
     the gap is recomputed from it and the message says so."""
     if not info.has_solution:
         return info
-    new, gap, note = stronger_bound(info.objective, info.bound, info.gap, bound)
-    if not note:
+    new, gap, what = stronger_bound(info.objective, info.bound, info.gap, bound)
+    if what == KEPT:
         return info
-    said = PERIODS_BOUND_USED if note == "used" else note.replace("the parts'", "the periods'") + " (a defect)"
+    said = PERIODS_BOUND_USED if what == USED else above_note("the periods'", bound)
     message = "; ".join(m for m in (info.message, said) if m)
     return dataclasses.replace(info, bound=new, gap=gap, message=message)
 

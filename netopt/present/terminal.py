@@ -19,6 +19,7 @@ from netopt.data.result_views import KPIS, TERMINAL_VIEW
 from netopt.data.results_schema import label_of
 from netopt.present.formats import cell_text, column_kind, kpi_kind, kpi_label, unit_text
 from netopt.present.labels import comparison_notes
+from netopt.studies.comparison import is_over_periods
 
 
 def new_console():
@@ -208,8 +209,7 @@ def print_comparison(comparison, console=None) -> None:
 
     con = console or new_console()
     cols = [c for c in TERMINAL_VIEW if c in comparison.columns]
-    over_periods = any(str(c).startswith("period_") for c in comparison.columns)
-    money = "money as present values over the periods" if over_periods else "money per year"
+    money = "money as present values over the periods" if is_over_periods(comparison) else "money per year"
     t = Table(title=f"Scenario comparison ({money}; Δ = recovery cost for disruptions)")
     rows = []
     within = comparison["within_gap"] if "within_gap" in comparison else pd.Series(False, index=comparison.index)

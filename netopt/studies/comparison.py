@@ -44,6 +44,16 @@ def lost_where(unmet: pd.DataFrame, most: int = 3) -> str:
     return text + (f"; +{len(by) - most} more customers" if len(by) > most else "")
 
 
+PERIOD_COLUMN = "period_{}"
+"""The comparison's column of one period's present value (declared as ``period_<period>``)."""
+
+
+def is_over_periods(comparison: pd.DataFrame) -> bool:
+    """Whether a comparison table is of plans over periods (it has a period's present-value column)."""
+    prefix = PERIOD_COLUMN.format("")
+    return any(str(c).startswith(prefix) for c in comparison.columns)
+
+
 def cost_comparable_to_today(r) -> float:
     """What a plan costs per year against today's flows (currency/yr): its total, or for a plan over
     periods its first period's annual cost (one-off costs left out), as a baseline is one year."""
@@ -106,7 +116,7 @@ def comparison_row(
     if r.periods is not None:  # a plan over periods: money is a present value; the rest is its last period
         pc = r.tables["period_cost"]
         for p, v in pc.groupby("period", sort=False)["present_value"].sum().items():
-            row[f"period_{p}"] = float(v)
+            row[PERIOD_COLUMN.format(p)] = float(v)
         row["phasing"] = r.phasing_text()
         r, base = r.period_view(), base.period_view()
     d = r.tables["dcs"]

@@ -40,7 +40,7 @@ from netopt.data.launch_demand import (
     with_launch_demand,
 )
 from netopt.data.periods import has_periods
-from netopt.engine.bounds import stronger_bound, weighted_bound
+from netopt.engine.bounds import ABOVE, USED, above_note, stronger_bound, weighted_bound
 from netopt.engine.held import HeldNetwork
 from netopt.engine.solve import solve
 from netopt.engine.two_stage import TwoStageOutcome, solve_two_stage
@@ -340,10 +340,10 @@ def with_scenarios_bound(out: TwoStageOutcome, bound: float, messages: list[str]
     """``out`` with :func:`scenarios_bound` when it is the stronger bound (gap recomputed, said in ``messages``)."""
     if not out.has_plan:
         return out
-    new, gap, note = stronger_bound(out.objective, out.bound, out.gap, bound)
-    if note and note != "used":
-        messages.append(note.replace("the parts'", "the scenarios'"))
-    if note != "used":
+    new, gap, what = stronger_bound(out.objective, out.bound, out.gap, bound)
+    if what == ABOVE:
+        messages.append(above_note("the scenarios'", bound))
+    if what != USED:
         return out
     if SCENARIOS_BOUND_USED not in messages:
         messages.append(SCENARIOS_BOUND_USED)
